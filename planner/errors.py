@@ -1,0 +1,72 @@
+"""The one error family of crossplan, and its warning class.
+
+Every error names the field it is about (a path such as
+``bands[1].filters[0].freq``), the rule that was broken and the bad value.
+The errors subclass :class:`ValueError` so that callers may catch either.
+"""
+
+from __future__ import annotations
+
+__all__ = [
+    "CrossplanError",
+    "ProjectError",
+    "DesignError",
+    "SpecNotMetError",
+    "ExportError",
+    "DesignWarning",
+]
+
+
+class CrossplanError(ValueError):
+    """Base class of every error crossplan raises on purpose.
+
+    Parameters
+    ----------
+    message : str
+        What is wrong, with the bad value, e.g. ``"30000 Hz is above
+        Nyquist (24000 Hz) for sample_rate 48000"``.
+    field : str, optional
+        Path of the field concerned, e.g. ``"bands[1].filters[0].freq"``.
+        It is prefixed to the message as ``"field: message"``.
+    """
+
+    def __init__(self, message: str, field: str | None = None):
+        self.message = message
+        self.field = field
+        super().__init__(f"{field}: {message}" if field else message)
+
+    def at(self, prefix: str) -> "CrossplanError":
+        """Return a copy of this error whose field is put below ``prefix``."""
+        if self.field is None:
+            field = prefix
+        elif self.field.startswith("["):
+            field = prefix + self.field
+        else:
+            field = f"{prefix}.{self.field}"
+        new = type(self).__new__(type(self))
+        new.__dict__.update(self.__dict__)
+        CrossplanError.__init__(new, self.message, field)
+        return new
+
+
+class ProjectError(CrossplanError):
+    """A project file or a project edit is invalid (exit code 2)."""
+
+
+class DesignError(CrossplanError):
+    """A filter cannot be designed from valid-looking parameters."""
+
+
+class SpecNotMetError(DesignError):
+    """A design specification cannot be met within the allowed limits.
+
+    Raised instead of returning a filter that silently misses its spec.
+    """
+
+
+class ExportError(CrossplanError):
+    """An export cannot be made as asked (rate, format, arithmetic)."""
+
+
+class DesignWarning(UserWarning):
+    """A valid but risky design: a boost that clips, a shallow tweeter slope."""
