@@ -37,7 +37,7 @@ class CrossplanError(ValueError):
 
     def at(self, prefix: str) -> "CrossplanError":
         """Return a copy of this error whose field is put below ``prefix``."""
-        if self.field is None:
+        if not self.field:
             field = prefix
         elif self.field.startswith("["):
             field = prefix + self.field

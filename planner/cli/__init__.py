@@ -1,0 +1,91 @@
+"""The ``crossplan`` command line.
+
+``main(argv)`` runs any command in-process and returns its exit code:
+0 when every check passes, 1 when a check fails (or a design spec cannot be
+met), 2 when the input is invalid. Commands live in small modules of this
+package; each has ``add_arguments(parser)`` and ``run(args) -> int``. This
+package never imports textual (only the ``edit`` command does, when run).
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+from planner import __version__
+from planner.errors import CrossplanError
+
+__all__ = ["main", "console_main", "COMMANDS", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID"]
+
+EXIT_OK, EXIT_FAIL, EXIT_INVALID = 0, 1, 2
+
+#: command name -> (module, one-line help)
+COMMANDS: dict[str, tuple[str, str]] = {
+    "edit": ("planner.cli.edit", "open a project in the terminal editor (the default)"),
+    "check": ("planner.cli.check", "check a project: sum flatness, crossings, headroom"),
+    "plot": ("planner.cli.plot", "plot a project's responses in the terminal"),
+    "new": ("planner.cli.presets", "write a new project file from a preset"),
+    "presets": ("planner.cli.presets", "list the built-in presets"),
+}
+
+
+class _Parser(argparse.ArgumentParser):
+    """An argparse parser whose usage errors exit with code 2 and a one-line message."""
+
+    def error(self, message):  # noqa: D401 - argparse API
+        self.print_usage(sys.stderr)
+        raise _UsageError(f"{self.prog}: {message}")
+
+
+class _UsageError(Exception):
+    pass
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(
+        prog="crossplan",
+        description="Plan and check multi-band loudspeaker crossovers and EQ. "
+                    "With no command, opens the editor (on the demo project if no FILE).")
+    parser.add_argument("--version", action="version", version=f"crossplan {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    for name, (mod, help_) in COMMANDS.items():
+        p = sub.add_parser(name, help=help_, description=help_)
+        importlib.import_module(mod).add_arguments(p, name)
+        p.set_defaults(_module=mod)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Run ``crossplan`` with ``argv`` (without the program name); return the exit code."""
+    argv = list(sys.argv[1:] if argv is None else argv)
+    names = set(COMMANDS)
+    # ``crossplan`` and ``crossplan FILE`` open the editor.
+    if not argv or (argv[0] not in names and not argv[0].startswith("-")):
+        argv = ["edit", *argv]
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except _UsageError as e:
+        print(e, file=sys.stderr)
+        return EXIT_INVALID
+    except SystemExit as e:  # --help, --version
+        return int(e.code or 0)
+    if args.command is None:
+        parser.print_help()
+        return EXIT_OK
+    try:
+        return int(importlib.import_module(args._module).run(args))
+    except CrossplanError as e:
+        print(f"crossplan: {e}", file=sys.stderr)
+        return EXIT_INVALID
+    except KeyboardInterrupt:
+        print("crossplan: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return EXIT_OK
+
+
+def console_main() -> None:
+    """Entry point of the ``crossplan`` console script."""
+    sys.exit(main())

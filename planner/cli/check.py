@@ -1,0 +1,37 @@
+"""``crossplan check FILE [--json]``: the summed-response report."""
+
+from __future__ import annotations
+
+import json
+import math
+
+
+def add_arguments(p, name):
+    p.add_argument("file", metavar="FILE", help="project file (JSON)")
+    p.add_argument("--json", action="store_true", help="print one JSON object")
+    p.add_argument("--points", type=int, default=None,
+                   help="grid points instead of the project's analysis.points")
+
+
+def run(args) -> int:
+    from planner import engine, report
+    from planner.cli.common import load_project
+
+    proj = load_project(args.file)
+    r = engine.analyse(proj, points=args.points)
+    if args.json:
+        print(json.dumps(_finite(r.to_dict()), indent=2, allow_nan=False))
+    else:
+        print(report.text_report(r))
+    return 0 if r.ok else 1
+
+
+def _finite(x):
+    """JSON has no NaN or infinity: such values are written as null."""
+    if isinstance(x, float):
+        return x if math.isfinite(x) else None
+    if isinstance(x, dict):
+        return {k: _finite(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_finite(v) for v in x]
+    return x

@@ -1,0 +1,39 @@
+"""``crossplan presets`` and ``crossplan new FILE --preset NAME``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+
+def add_arguments(p, name):
+    if name == "new":
+        p.add_argument("file", metavar="FILE", help="project file to write")
+        p.add_argument("--preset", default=None, help="preset name (see 'crossplan presets'); "
+                       "default: the demo")
+        p.add_argument("--force", action="store_true", help="overwrite FILE if it exists")
+
+
+def run(args) -> int:
+    from planner import presets_lib, project
+
+    if args.command == "presets":
+        for n in presets_lib.names():
+            mark = " (demo)" if n == presets_lib.DEMO else ""
+            print(f"{n:<16} {presets_lib.describe(n)}{mark}")
+        return 0
+    name = args.preset or presets_lib.DEMO
+    proj = presets_lib.load(name)
+    out = Path(args.file)
+    if out.exists() and not args.force:
+        from planner.errors import ProjectError
+
+        raise ProjectError(f"{str(out)!r} exists already; use --force to overwrite it",
+                           field="FILE")
+    if out.parent and not out.parent.exists():
+        from planner.errors import ProjectError
+
+        raise ProjectError(f"folder {str(out.parent)!r} does not exist", field="FILE")
+    # Write the preset's own text (it keeps its description and layout), checked above.
+    project.atomic_write_text(out, presets_lib.text(name))
+    print(f"wrote {out} from preset {name!r} ({proj.name})")
+    return 0

@@ -1,0 +1,303 @@
+"""From a project to its designs, responses and check report.
+
+This module strings the pure DSP layer together for a :class:`~planner.model.Project`:
+each filter is designed once per sample rate (cached by its parameters),
+each band's chain is evaluated with all the others in one vectorised pass,
+and the summed response is checked against the project's limits.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import lru_cache
+
+import numpy as np
+
+from planner import filters as fk
+from planner.dsp import analysis as an
+from planner.dsp.response import BandResponses, band_responses
+from planner.model import Band, Filter, Project
+
+__all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
+           "CrossingResult", "BandResult", "Warning_"]
+
+
+@lru_cache(maxsize=4096)
+def _design_cached(flt: Filter, fs_hz: float) -> fk.FilterDesign:
+    d = fk.design(flt.kind, flt.params, fs_hz)
+    sos = np.array(d.sos, dtype=float).reshape(-1, 6)
+    sos.setflags(write=False)
+    fir = None
+    if d.fir is not None:
+        fir = np.array(d.fir, dtype=float)
+        fir.setflags(write=False)
+    return fk.FilterDesign(sos, fir)
+
+
+def design_filter(flt: Filter, fs_hz: float) -> fk.FilterDesign:
+    """Design one filter at ``fs_hz`` (cached by parameters and rate; arrays are read-only)."""
+    return _design_cached(flt, float(fs_hz))
+
+
+@dataclass(frozen=True)
+class BandDesign:
+    """A band's chain at one rate: all sections in order, and the FIR taps (convolved) if any."""
+
+    sos: np.ndarray
+    fir: np.ndarray | None
+    gain_db: float
+    delay_samples: float
+    invert: bool
+
+    @property
+    def n_sections(self) -> int:
+        return len(self.sos)
+
+
+def design_band(band: Band, fs_hz: float) -> BandDesign:
+    """Design every (not bypassed) filter of a band at ``fs_hz``."""
+    sos, fir = [], None
+    for f in band.filters:
+        if f.bypass:
+            continue
+        d = design_filter(f, fs_hz)
+        if len(d.sos):
+            sos.append(d.sos)
+        if d.fir is not None:
+            fir = d.fir if fir is None else np.convolve(fir, d.fir)
+    return BandDesign(np.vstack(sos) if sos else np.zeros((0, 6)), fir, band.gain_db,
+                      band.delay_ms * fs_hz / 1000.0, band.invert)
+
+
+def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:
+    """Responses of designed bands on a grid (see :func:`planner.dsp.response.band_responses`)."""
+    return band_responses([d.sos for d in designs], freqs_hz, fs_hz,
+                          gains_db=[d.gain_db for d in designs],
+                          delays_samples=[d.delay_samples for d in designs],
+                          invert=[d.invert for d in designs],
+                          firs=[d.fir for d in designs])
+
+
+@dataclass(frozen=True)
+class CrossingResult:
+    """A crossing of two bands, named in project order (``bands[0]`` first)."""
+
+    bands: tuple[str, str]
+    band_index: tuple[int, int]
+    freq_hz: float
+    phase_diff_deg: float
+    level_db: float
+    checked: bool     # above the crossing floor: it counts
+    ok: bool
+
+    def to_dict(self) -> dict:
+        return {"bands": list(self.bands), "freq_hz": self.freq_hz,
+                "phase_diff_deg": self.phase_diff_deg, "level_db": self.level_db, "ok": self.ok}
+
+
+@dataclass(frozen=True)
+class BandResult:
+    """Per-band figures of the report."""
+
+    name: str
+    active: bool
+    peak_gain_db: float
+    peak_at_hz: float
+    sections: int
+    fir_taps: int
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "active": self.active, "peak_gain_db": self.peak_gain_db,
+                "peak_at_hz": self.peak_at_hz, "sections": self.sections,
+                "fir_taps": self.fir_taps}
+
+
+@dataclass(frozen=True)
+class Warning_:
+    """A plain-language warning, pointing at a band (and filter) where it can."""
+
+    text: str
+    band: int | None = None
+    filter: int | None = None
+    code: str = ""
+
+
+@dataclass
+class Report:
+    """The result of checking a project at its sample rate.
+
+    The arrays (``freqs_hz``, ``responses``, ``sum_h``) are there for plots;
+    :meth:`to_dict` gives the JSON form of ``crossplan check --json``.
+    """
+
+    project: Project
+    designs: list[BandDesign]
+    freqs_hz: np.ndarray
+    responses: BandResponses
+    active: list[bool]
+    sum_h: np.ndarray
+    max_dev_db: float
+    at_hz: float
+    ripple_db: float
+    flat_ok: bool
+    crossings: list[CrossingResult]
+    bands: list[BandResult]
+    warnings: list[Warning_] = field(default_factory=list)
+
+    @property
+    def checked_crossings(self) -> list[CrossingResult]:
+        return [c for c in self.crossings if c.checked]
+
+    @property
+    def worst_crossing(self) -> CrossingResult | None:
+        cc = self.checked_crossings
+        return max(cc, key=lambda c: abs(c.phase_diff_deg)) if cc else None
+
+    @property
+    def phase_ok(self) -> bool:
+        return all(c.ok for c in self.checked_crossings)
+
+    @property
+    def ok(self) -> bool:
+        return self.flat_ok and self.phase_ok and any(self.active)
+
+    def sum_group_delay_ms(self) -> np.ndarray:
+        return self.responses.sum_group_delay_samples(self.active) * 1000.0 / self.project.sample_rate
+
+    def band_group_delay_ms(self) -> np.ndarray:
+        return self.responses.group_delay_samples() * 1000.0 / self.project.sample_rate
+
+    def to_dict(self) -> dict:
+        a = self.project.analysis
+        gd = self.sum_group_delay_ms()
+        gd = gd[np.isfinite(gd)]
+        return {
+            "ok": self.ok,
+            "name": self.project.name,
+            "sample_rate": self.project.sample_rate,
+            "sum": {"max_dev_db": self.max_dev_db, "at_hz": self.at_hz,
+                    "ripple_db": self.ripple_db, "limit_db": a.flatness_db, "ok": self.flat_ok,
+                    "group_delay_ms": {"min": float(gd.min()) if gd.size else None,
+                                       "max": float(gd.max()) if gd.size else None}},
+            "crossovers": [c.to_dict() for c in self.checked_crossings],
+            "crossings_below_floor": [c.to_dict() for c in self.crossings if not c.checked],
+            "phase_limit_deg": a.phase_deg,
+            "crossing_floor_db": a.crossing_floor_db,
+            "bands": [b.to_dict() for b in self.bands],
+            "warnings": [w.text for w in self.warnings],
+        }
+
+
+def _grid(project: Project) -> np.ndarray:
+    a = project.analysis
+    extra = [f.params["freq"] for b in project.bands for f in b.filters
+             if "freq" in f.params and not f.bypass]
+    return an.log_grid(a.f_min, a.f_max, a.points, extra)
+
+
+def analyse(project: Project, points: int | None = None) -> Report:
+    """Design, evaluate and check every band of ``project`` at its sample rate.
+
+    Parameters
+    ----------
+    project : Project
+    points : int, optional
+        Grid points instead of ``project.analysis.points``.
+    """
+    from dataclasses import replace
+
+    if points is not None:
+        project = replace(project, analysis=replace(project.analysis, points=int(points)))
+    fs = project.sample_rate
+    a = project.analysis
+    designs = [design_band(b, fs) for b in project.bands]
+    freqs = _grid(project)
+    resp = evaluate(designs, freqs, fs)
+    active = project.active()
+    act_idx = [i for i, on in enumerate(active) if on]
+    sum_h = resp.sum(active)
+    if act_idx:
+        max_dev, at, ripple = an.flatness(freqs, sum_h)
+    else:
+        max_dev, at, ripple = float("-inf"), float(freqs[0]), 0.0
+    flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+
+    crossings: list[CrossingResult] = []
+    if len(act_idx) >= 2:
+        sub = resp.h[act_idx]
+        sub_designs = [designs[i] for i in act_idx]
+
+        def _eval(f):
+            return evaluate(sub_designs, f, fs).h
+
+        for c in an.find_crossings(freqs, sub, evaluate=_eval):
+            ia, ib = act_idx[c.a], act_idx[c.b]
+            checked = c.level_db >= a.crossing_floor_db
+            crossings.append(CrossingResult(
+                (project.bands[ia].name, project.bands[ib].name), (ia, ib), c.freq_hz,
+                c.phase_diff_deg, c.level_db, checked,
+                (abs(c.phase_diff_deg) <= a.phase_deg) if checked else True))
+
+    peak, peak_at = an.peak_gain(freqs, resp.h)
+    bands = [BandResult(b.name, active[i], float(peak[i]), float(peak_at[i]),
+                        designs[i].n_sections,
+                        0 if designs[i].fir is None else len(designs[i].fir))
+             for i, b in enumerate(project.bands)]
+    report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
+                    crossings, bands)
+    report.warnings.extend(_warnings(report))
+    return report
+
+
+def _fmt_hz(f: float) -> str:
+    return fk.format_hz(f)
+
+
+def _warnings(r: Report) -> list[Warning_]:
+    """Plain-language warnings about the sum, the crossings, headroom and risky filters."""
+    p, a = r.project, r.project.analysis
+    out: list[Warning_] = []
+    if not any(r.active):
+        out.append(Warning_("every band is muted: nothing is summed", code="all-muted"))
+        return out
+    if not r.flat_ok:
+        out.append(Warning_(
+            f"the sum deviates by {r.max_dev_db:+.2f} dB at {_fmt_hz(r.at_hz)} "
+            f"(limit +/-{a.flatness_db:g} dB)", code="flatness"))
+    for c in r.checked_crossings:
+        if c.ok:
+            continue
+        deg = abs(c.phase_diff_deg)
+        where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {_fmt_hz(c.freq_hz)}"
+        if deg >= 150:
+            hint = "try inverting one"
+        else:
+            hint = "try matching the slopes of the two filters, or adjust delay_ms"
+        out.append(Warning_(f"{where}: {hint}", band=c.band_index[1], code="phase"))
+    for i, b in enumerate(r.bands):
+        if b.active and b.peak_gain_db > 0.05:
+            out.append(Warning_(
+                f"band {b.name} peaks at {b.peak_gain_db:+.1f} dB near {_fmt_hz(b.peak_at_hz)}: "
+                f"lower its gain by {b.peak_gain_db:.1f} dB (or attenuate its input) "
+                "so that it cannot clip", band=i, code="headroom"))
+    for i, band in enumerate(p.bands):
+        live = [(j, f) for j, f in enumerate(band.filters) if not f.bypass]
+        for j, f in live:
+            g = f.params.get("gain_db", 0.0)
+            if f.type in ("peaking", "low_shelf", "high_shelf") and g > 6.0:
+                out.append(Warning_(
+                    f"band {band.name}, filter {j + 1}: a {g:+.1f} dB boost drives the driver "
+                    "harder and eats headroom; check the manufacturer's limits",
+                    band=i, filter=j, code="boost"))
+        hps = [(j, f) for j, f in live if f.type == "highpass"]
+        if hps:
+            j, top = max(hps, key=lambda jf: jf[1].params["freq"])
+            order = top.params.get("order", 2)
+            if top.params["freq"] >= 1000.0 and order < 2 and top.family != "fir":
+                # Common practice, no published source: a tweeter wants a
+                # highpass of at least 12 dB/octave.
+                out.append(Warning_(
+                    f"band {band.name} is protected only by a first-order (6 dB/octave) "
+                    f"highpass at {_fmt_hz(top.params['freq'])}: a tweeter usually needs "
+                    "12 dB/octave or more", band=i, filter=j, code="shallow-highpass"))
+    return out

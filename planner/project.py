@@ -1,0 +1,292 @@
+"""Project files: JSON in, checked model out, and back, atomically.
+
+The file shape (``"format": "crossplan-project", "version": 1``) is a
+contract: fields are added, never renamed. Unknown keys at any level are kept
+in the model's ``extra`` and written back on save.
+
+Every problem is reported as one :class:`~planner.errors.ProjectError` whose
+field is the path of the bad value, e.g.
+``bands[1].filters[0].freq: 30000 Hz is above Nyquist (24000 Hz) for sample_rate 48000``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+from typing import Any, Mapping
+
+from planner import filters as fk
+from planner.errors import CrossplanError, ProjectError
+from planner.model import FORMAT, VERSION, Analysis, Band, Filter, Project
+
+__all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
+           "check_band", "atomic_write_text"]
+
+_PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "bands"}
+_ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db"}
+_BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver"}
+_FILTER_BASE = {"type", "family", "bypass"}
+
+
+def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit="",
+         lo_open=False) -> float:
+    if key not in d:
+        if default is None:
+            raise ProjectError("missing", field=key)
+        return default
+    v = d[key]
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        raise ProjectError(f"must be a number, not {v!r}", field=key)
+    if not math.isfinite(v):
+        raise ProjectError(f"must be a finite number, not {v!r}", field=key)
+    u = f" {unit}" if unit else ""
+    if lo is not None and (v <= lo if lo_open else v < lo):
+        raise ProjectError(f"{v:g}{u} must be {'above' if lo_open else 'at least'} {lo:g}{u}",
+                           field=key)
+    if hi is not None and v > hi:
+        raise ProjectError(f"{v:g}{u} must be at most {hi:g}{u}", field=key)
+    return v
+
+
+def _bool(d: Mapping, key: str) -> bool:
+    v = d.get(key, False)
+    if not isinstance(v, bool):
+        raise ProjectError(f"must be true or false, not {v!r}", field=key)
+    return v
+
+
+def _obj(v: Any, field: str) -> Mapping:
+    if not isinstance(v, dict):
+        raise ProjectError(f"must be an object {{...}}, not {type(v).__name__}", field=field)
+    return v
+
+
+def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
+    """Check one filter's JSON form at ``fs_hz`` and return the :class:`Filter`.
+
+    The filter is also designed once, so that a filter that cannot be made
+    (for example an FIR spec that cannot be met) is refused here.
+    """
+    raw = _obj(raw, "")
+    if "type" not in raw:
+        raise ProjectError("missing; every filter needs a type", field="type")
+    if not isinstance(raw["type"], str):
+        raise ProjectError(f"must be a string, not {raw['type']!r}", field="type")
+    family = raw.get("family")
+    if family is not None and not isinstance(family, str):
+        raise ProjectError(f"must be a string, not {family!r}", field="family")
+    kind = fk.lookup(raw["type"], family)
+    params = fk.check_params(kind, raw, fs_hz)
+    known = _FILTER_BASE | {f.name for f in kind.fields}
+    extra = {k: v for k, v in raw.items() if k not in known}
+    flt = Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
+    from planner.engine import design_filter  # the design cache lives there
+
+    design_filter(flt, fs_hz)
+    return flt
+
+
+def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
+    """Check one band's JSON form and return the :class:`Band`."""
+    raw = _obj(raw, "")
+    name = raw.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise ProjectError(f"must be a non-empty string, not {name!r}", field="name")
+    flist = raw.get("filters", [])
+    if not isinstance(flist, list):
+        raise ProjectError(f"must be a list, not {type(flist).__name__}", field="filters")
+    chain = []
+    for j, f in enumerate(flist):
+        try:
+            chain.append(check_filter(f, fs_hz))
+        except CrossplanError as e:
+            raise e.at(f"filters[{j}]") from None
+    driver = raw.get("driver")
+    if driver is not None:
+        _obj(driver, "driver")
+    return Band(
+        name=name.strip(),
+        gain_db=float(_num(raw, "gain_db", 0.0, lo=-100, hi=40, unit="dB")),
+        delay_ms=float(_num(raw, "delay_ms", 0.0, lo=0, hi=1000, unit="ms")),
+        invert=_bool(raw, "invert"),
+        mute=_bool(raw, "mute"),
+        solo=_bool(raw, "solo"),
+        filters=tuple(chain),
+        driver=driver,
+        extra={k: v for k, v in raw.items() if k not in _BAND_KEYS},
+    )
+
+
+def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
+    d = Analysis()
+    f_min = _num(raw, "f_min", d.f_min, lo=0, lo_open=True, unit="Hz")
+    f_max = _num(raw, "f_max", min(d.f_max, fs_hz / 2), unit="Hz")
+    if f_max > fs_hz / 2:
+        raise ProjectError(f"{f_max:g} Hz is above Nyquist ({fs_hz / 2:g} Hz) for sample_rate "
+                           f"{fs_hz:g}", field="f_max")
+    if f_max <= f_min:
+        raise ProjectError(f"{f_max:g} Hz must be above f_min ({f_min:g} Hz)", field="f_max")
+    points = _num(raw, "points", d.points, lo=16, hi=65536)
+    if int(points) != points:
+        raise ProjectError(f"must be a whole number, not {points!r}", field="points")
+    return Analysis(
+        f_min=float(f_min), f_max=float(f_max), points=int(points),
+        flatness_db=float(_num(raw, "flatness_db", d.flatness_db, lo=0, lo_open=True, hi=40,
+                               unit="dB")),
+        phase_deg=float(_num(raw, "phase_deg", d.phase_deg, lo=0, lo_open=True, hi=180,
+                             unit="deg")),
+        crossing_floor_db=float(_num(raw, "crossing_floor_db", d.crossing_floor_db, lo=-200,
+                                     hi=0, unit="dB")),
+        extra={k: v for k, v in raw.items() if k not in _ANALYSIS_KEYS},
+    )
+
+
+def from_dict(raw: Any) -> Project:
+    """Check a project's JSON form (already parsed) and return the :class:`Project`.
+
+    Raises
+    ------
+    ProjectError
+        With the path of the first bad field.
+    """
+    raw = _obj(raw, "project")
+    fmt = raw.get("format")
+    if fmt != FORMAT:
+        raise ProjectError(f"must be {FORMAT!r}, not {fmt!r} (is this a crossplan project?)",
+                           field="format")
+    version = raw.get("version")
+    if isinstance(version, bool) or not isinstance(version, int):
+        raise ProjectError(f"must be a whole number, not {version!r}", field="version")
+    if version > VERSION:
+        raise ProjectError(f"{version} is newer than this crossplan reads ({VERSION}); "
+                           "update crossplan to open it", field="version")
+    if version < 1:
+        raise ProjectError(f"{version} is not a valid version (1 or later)", field="version")
+    name = raw.get("name", "untitled")
+    if not isinstance(name, str):
+        raise ProjectError(f"must be a string, not {name!r}", field="name")
+    fs = _num(raw, "sample_rate", lo=1000, hi=1_536_000, unit="Hz")
+    try:
+        analysis = _analysis(_obj(raw.get("analysis", {}), ""), fs)
+    except CrossplanError as e:
+        raise e.at("analysis") from None
+    blist = raw.get("bands")
+    if not isinstance(blist, list) or not blist:
+        raise ProjectError(f"must be a non-empty list of bands, not {blist!r}", field="bands")
+    bands, seen = [], {}
+    for i, b in enumerate(blist):
+        try:
+            band = check_band(b, fs)
+        except CrossplanError as e:
+            raise e.at(f"bands[{i}]") from None
+        if band.name in seen:
+            raise ProjectError(f"{band.name!r} is the name of bands[{seen[band.name]}] already; "
+                               "band names must be unique", field=f"bands[{i}].name")
+        seen[band.name] = i
+        bands.append(band)
+    return Project(name=name, sample_rate=float(fs) if fs != int(fs) else int(fs),
+                   bands=tuple(bands), analysis=analysis,
+                   extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS})
+
+
+def _filter_dict(f: Filter) -> dict:
+    d: dict[str, Any] = {"type": f.type}
+    if f.family is not None:
+        d["family"] = f.family
+    for k, v in f.params.items():
+        d[k] = list(v) if isinstance(v, tuple) else v
+    if f.bypass:
+        d["bypass"] = True
+    d.update(f.extra)
+    return d
+
+
+def to_dict(project: Project) -> dict:
+    """The JSON form of a project, with the unknown keys it was loaded with."""
+    a = project.analysis
+    out: dict[str, Any] = {
+        "format": FORMAT, "version": VERSION, "name": project.name,
+        "sample_rate": project.sample_rate,
+        "analysis": {"f_min": a.f_min, "f_max": a.f_max, "points": a.points,
+                     "flatness_db": a.flatness_db, "phase_deg": a.phase_deg,
+                     "crossing_floor_db": a.crossing_floor_db, **a.extra},
+        "bands": [],
+    }
+    for b in project.bands:
+        bd: dict[str, Any] = {"name": b.name, "gain_db": b.gain_db, "delay_ms": b.delay_ms,
+                              "invert": b.invert}
+        if b.mute:
+            bd["mute"] = True
+        if b.solo:
+            bd["solo"] = True
+        bd["filters"] = [_filter_dict(f) for f in b.filters]
+        if b.driver is not None:
+            bd["driver"] = dict(b.driver)
+        bd.update(b.extra)
+        out["bands"].append(bd)
+    out.update(project.extra)
+    return out
+
+
+def loads(text: str) -> Project:
+    """Parse and check a project from JSON text."""
+    try:
+        raw = json.loads(text)
+    except json.JSONDecodeError as e:
+        raise ProjectError(f"not valid JSON: {e.msg} at line {e.lineno} column {e.colno}",
+                           field="file") from None
+    except RecursionError:
+        raise ProjectError("not valid JSON: nested too deeply", field="file") from None
+    return from_dict(raw)
+
+
+def dumps(project: Project) -> str:
+    """The project as JSON text (2-space indent, trailing newline)."""
+    return json.dumps(to_dict(project), indent=2, ensure_ascii=False) + "\n"
+
+
+def load(path: str | os.PathLike) -> Project:
+    """Read and check a project file."""
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ProjectError(f"no such file: {str(p)!r}", field="file") from None
+    except (OSError, UnicodeDecodeError) as e:
+        raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
+    return loads(text)
+
+
+def atomic_write_text(path: str | os.PathLike, text: str) -> None:
+    """Write ``text`` to ``path`` so that a crash never leaves a half-written file.
+
+    The text goes to a temporary file in the same folder, is flushed to disk,
+    and is then renamed over ``path`` (an atomic step on POSIX and Windows).
+    """
+    p = Path(path)
+    folder = p.parent if str(p.parent) else Path(".")
+    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=folder)
+    try:
+        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
+            fh.write(text)
+            fh.flush()
+            os.fsync(fh.fileno())
+        if p.exists():
+            os.chmod(tmp, p.stat().st_mode & 0o7777)
+        else:
+            os.chmod(tmp, 0o644)
+        os.replace(tmp, p)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def save(project: Project, path: str | os.PathLike) -> None:
+    """Write a project file atomically (see :func:`atomic_write_text`)."""
+    atomic_write_text(path, dumps(project))

@@ -1,0 +1,1 @@
+"""The preset project files shipped with crossplan (data only; see planner.library)."""
