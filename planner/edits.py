@@ -1,0 +1,320 @@
+"""Edits of a project: each takes a :class:`~planner.model.Project` and returns a NEW one.
+
+Every edit goes through the project file's own checks
+(:func:`planner.project.from_dict`, hence :func:`planner.project.check_filter`),
+so an edit can never make a project that would not load. A bad value raises
+:class:`~planner.errors.ProjectError` whose field is the path of the value
+(``bands[0].filters[1].freq: 30000 Hz is above Nyquist ...``); the project
+passed in is never changed (it is frozen).
+
+Indices are 0-based: ``band`` is an index into ``project.bands`` and
+``flt`` an index into that band's chain.
+
+Changing the sample rate (:func:`set_sample_rate`) redesigns every filter at
+the new rate. When a filter frequency would be at or above the new Nyquist
+frequency the change is refused, with every such filter named, because a
+project with such a filter could not be saved or loaded again; the user
+lowers those filters first. ``analysis.f_max`` is lowered to the new
+Nyquist frequency when it would be above it (it is a view setting).
+"""
+
+from __future__ import annotations
+
+from typing import Any, Callable
+
+from planner import filters as fk
+from planner import project as pj
+from planner.errors import ProjectError
+from planner.model import Project
+
+__all__ = [
+    "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
+    "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
+    "set_filter_type", "toggle_bypass", "set_analysis", "set_sample_rate", "nyquist_problems",
+    "DEFAULT_FILTER", "BAND_FLAGS",
+]
+
+#: A new filter: a peaking EQ of 0 dB changes nothing until it is edited.
+DEFAULT_FILTER = {"type": "peaking", "freq": 1000.0, "gain_db": 0.0, "q": 1.0}
+#: The band settings :func:`toggle_band` flips.
+BAND_FLAGS = ("invert", "mute", "solo")
+_BAND_SETTINGS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo"}
+_ANALYSIS_SETTINGS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db"}
+_Q_DEFAULT = 0.7071067811865476
+
+
+def _rebuild(p: Project, change: Callable[[dict], None]) -> Project:
+    """Apply ``change`` to the JSON form of ``p`` and check the result as a file would be."""
+    d = pj.to_dict(p)
+    change(d)
+    return pj.from_dict(d)
+
+
+def _band(d: dict, i: int) -> dict:
+    n = len(d["bands"])
+    if not isinstance(i, int) or not 0 <= i < n:
+        raise ProjectError(f"no band {i!r}: the project has bands 0..{n - 1}", field="bands")
+    return d["bands"][i]
+
+
+def _chain(d: dict, i: int, j: int | None = None) -> list:
+    chain = _band(d, i)["filters"]
+    if j is not None and (not isinstance(j, int) or not 0 <= j < len(chain)):
+        raise ProjectError(f"no filter {j!r}: band {d['bands'][i]['name']!r} has "
+                           + (f"filters 0..{len(chain) - 1}" if chain else "no filters"),
+                           field=f"bands[{i}].filters")
+    return chain
+
+
+def _unique(names: set[str], base: str) -> str:
+    if base not in names:
+        return base
+    k = 2
+    while f"{base} {k}" in names:
+        k += 1
+    return f"{base} {k}"
+
+
+def _move(seq: list, i: int, delta: int, what: str, field: str) -> None:
+    k = i + delta
+    if not 0 <= k < len(seq):
+        raise ProjectError(f"cannot move {what} {i} by {delta:+d}: it would leave 0..{len(seq) - 1}",
+                           field=field)
+    seq.insert(k, seq.pop(i))
+
+
+# -- bands --------------------------------------------------------------------------------
+
+def add_band(p: Project, name: str | None = None, index: int | None = None) -> Project:
+    """Insert an empty band (no filters) at ``index`` (default: at the end).
+
+    Its name is ``name`` or ``"band N"``, made unique.
+    """
+    def change(d):
+        names = {b["name"] for b in d["bands"]}
+        new = {"name": name if name is not None else _unique(names, f"band {len(names) + 1}"),
+               "gain_db": 0.0, "delay_ms": 0.0, "invert": False, "filters": []}
+        d["bands"].insert(len(d["bands"]) if index is None else index, new)
+    return _rebuild(p, change)
+
+
+def remove_band(p: Project, band: int) -> Project:
+    """Remove band ``band``; the last band cannot be removed (a project needs one)."""
+    def change(d):
+        _band(d, band)
+        if len(d["bands"]) == 1:
+            raise ProjectError("cannot remove the only band: a project needs at least one",
+                               field="bands")
+        del d["bands"][band]
+    return _rebuild(p, change)
+
+
+def move_band(p: Project, band: int, delta: int) -> Project:
+    """Move band ``band`` by ``delta`` places (-1: up, +1: down)."""
+    return _rebuild(p, lambda d: (_band(d, band), _move(d["bands"], band, delta, "band",
+                                                        "bands")))
+
+
+def duplicate_band(p: Project, band: int) -> Project:
+    """Insert a copy of band ``band`` just after it, named ``"<name> copy"`` (made unique)."""
+    def change(d):
+        src = _band(d, band)
+        names = {b["name"] for b in d["bands"]}
+        copy = dict(src, filters=[dict(f) for f in src["filters"]],
+                    name=_unique(names, f"{src['name']} copy"))
+        d["bands"].insert(band + 1, copy)
+    return _rebuild(p, change)
+
+
+def set_band(p: Project, band: int, **settings: Any) -> Project:
+    """Change band settings: ``name``, ``gain_db`` (dB), ``delay_ms`` (ms), ``invert``, ``mute``, ``solo``."""
+    def change(d):
+        b = _band(d, band)
+        for key, value in settings.items():
+            if key not in _BAND_SETTINGS:
+                raise ProjectError(f"is not a band setting; settings: {', '.join(sorted(_BAND_SETTINGS))}",
+                                   field=f"bands[{band}].{key}")
+            b[key] = value
+    return _rebuild(p, change)
+
+
+def toggle_band(p: Project, band: int, flag: str) -> Project:
+    """Flip ``invert`` (polarity), ``mute`` or ``solo`` of band ``band``."""
+    if flag not in BAND_FLAGS:
+        raise ProjectError(f"must be one of {', '.join(BAND_FLAGS)}, not {flag!r}", field="flag")
+    current = getattr(p.bands[band], flag) if 0 <= band < len(p.bands) else False
+    return set_band(p, band, **{flag: not current})
+
+
+# -- filters ------------------------------------------------------------------------------
+
+def add_filter(p: Project, band: int, raw: dict | None = None, index: int | None = None) -> Project:
+    """Insert a filter (JSON form; default :data:`DEFAULT_FILTER`) into a band's chain.
+
+    ``index`` is its place in the chain (default: at the end).
+    """
+    def change(d):
+        chain = _chain(d, band)
+        chain.insert(len(chain) if index is None else index, dict(raw or DEFAULT_FILTER))
+    return _rebuild(p, change)
+
+
+def remove_filter(p: Project, band: int, flt: int) -> Project:
+    """Remove filter ``flt`` from band ``band``'s chain."""
+    return _rebuild(p, lambda d: _chain(d, band, flt).pop(flt))
+
+
+def move_filter(p: Project, band: int, flt: int, delta: int) -> Project:
+    """Move filter ``flt`` by ``delta`` places in its chain (-1: earlier, +1: later)."""
+    return _rebuild(p, lambda d: _move(_chain(d, band, flt), flt, delta, "filter",
+                                       f"bands[{band}].filters"))
+
+
+def duplicate_filter(p: Project, band: int, flt: int) -> Project:
+    """Insert a copy of filter ``flt`` just after it."""
+    def change(d):
+        chain = _chain(d, band, flt)
+        chain.insert(flt + 1, dict(chain[flt]))
+    return _rebuild(p, change)
+
+
+def toggle_bypass(p: Project, band: int, flt: int) -> Project:
+    """Bypass a filter (kept in the chain, not applied), or bring it back."""
+    def change(d):
+        f = _chain(d, band, flt)[flt]
+        if f.get("bypass"):
+            f.pop("bypass")
+        else:
+            f["bypass"] = True
+    return _rebuild(p, change)
+
+
+def set_filter_params(p: Project, band: int, flt: int, **params: Any) -> Project:
+    """Change parameters of one filter (``freq`` in Hz, ``gain_db`` in dB, ``q``, ``order``, ...).
+
+    A value of None removes the parameter (e.g. ``q=None`` to give a shelf a ``slope``).
+    """
+    def change(d):
+        f = _chain(d, band, flt)[flt]
+        for key, value in params.items():
+            if key in ("type", "family"):
+                raise ProjectError("use set_filter_type to change the type or family",
+                                   field=f"bands[{band}].filters[{flt}].{key}")
+            if value is None:
+                f.pop(key, None)
+            else:
+                f[key] = value
+    return _rebuild(p, change)
+
+
+def _fallback(spec: fk.FieldSpec, old: dict, family: str | None) -> Any:
+    """A value for a required field the old filter did not have."""
+    if spec.kind == "freq":
+        return old.get("freq", 1000.0)
+    if spec.kind == "db":
+        return 0.0
+    if spec.kind == "q":
+        return _Q_DEFAULT
+    if spec.kind == "int" and spec.choices:
+        for want in (4 if family == "linkwitz-riley" else 2, spec.choices[0]):
+            if want in spec.choices:
+                return want
+    if spec.kind == "choice" and spec.choices:
+        return spec.choices[0]
+    return None
+
+
+def set_filter_type(p: Project, band: int, flt: int, type_: str,
+                    family: str | None = None) -> Project:
+    """Change a filter's type (and family), keeping the parameters that still apply.
+
+    With ``family=None`` for a type that has families, the current family is
+    kept when the new type has it, else the type's first family is used.
+    Parameters the new kind does not have are dropped; required ones it
+    lacks get plain values (1 kHz, 0 dB, Q 0.707, order 2 or LR order 4).
+    """
+    fams = fk.families_of(type_)
+    if family is None and fams and fams != [None]:
+        cur = p.bands[band].filters[flt].family if 0 <= band < len(p.bands) and \
+            0 <= flt < len(p.bands[band].filters) else None
+        family = cur if cur in fams else fams[0]
+    try:
+        kind = fk.lookup(type_, family)
+    except ProjectError as e:
+        raise e.at(f"bands[{band}].filters[{flt}]") from None
+
+    def change(d):
+        old = _chain(d, band, flt)[flt]
+        new: dict[str, Any] = {"type": kind.type}
+        if kind.family is not None:
+            new["family"] = kind.family
+        for spec in kind.fields:
+            if spec.name in old and not (spec.kind == "int" and spec.choices
+                                         and old[spec.name] not in spec.choices):
+                new[spec.name] = old[spec.name]
+            elif spec.required and spec.default is None or (kind.type == "allpass"
+                                                              and spec.kind == "q"):
+                value = _fallback(spec, old, kind.family)
+                if value is not None:
+                    new[spec.name] = value
+        if old.get("bypass"):
+            new["bypass"] = True
+        _chain(d, band)[flt] = new
+    return _rebuild(p, change)
+
+
+# -- analysis and rate --------------------------------------------------------------------
+
+def set_analysis(p: Project, **settings: Any) -> Project:
+    """Change analysis settings: ``f_min``, ``f_max`` (Hz), ``points``, ``flatness_db`` (dB),
+    ``phase_deg`` (deg), ``crossing_floor_db`` (dB)."""
+    def change(d):
+        for key, value in settings.items():
+            if key not in _ANALYSIS_SETTINGS:
+                raise ProjectError(f"is not an analysis setting; settings: "
+                                   f"{', '.join(sorted(_ANALYSIS_SETTINGS))}",
+                                   field=f"analysis.{key}")
+            d["analysis"][key] = value
+    return _rebuild(p, change)
+
+
+def nyquist_problems(p: Project, sample_rate_hz: float) -> list[str]:
+    """The filters whose frequencies would be at or above Nyquist at ``sample_rate_hz``.
+
+    Each is one text naming the path, the band and the filter, e.g.
+    ``"bands[1].filters[0].freq (tweeter, LR4 highpass 30 kHz): 30000 Hz"``.
+    """
+    nyq = sample_rate_hz / 2
+    out = []
+    for i, b in enumerate(p.bands):
+        for j, f in enumerate(b.filters):
+            for spec in f.kind.fields:
+                v = f.params.get(spec.name)
+                if spec.kind == "freq" and v is not None and v >= nyq:
+                    out.append(f"bands[{i}].filters[{j}].{spec.name} ({b.name}, {f.label()}): "
+                               f"{v:g} Hz")
+    return out
+
+
+def set_sample_rate(p: Project, sample_rate_hz: float) -> Project:
+    """Change the sample rate and redesign every filter at it.
+
+    Refused (:class:`ProjectError` on ``sample_rate``, listing them) when any
+    filter frequency would be at or above the new Nyquist frequency.
+    ``analysis.f_max`` is lowered to the new Nyquist frequency if needed.
+    """
+    def change(d):
+        d["sample_rate"] = sample_rate_hz
+        if isinstance(sample_rate_hz, (int, float)) and sample_rate_hz > 0:
+            d["analysis"]["f_max"] = min(d["analysis"]["f_max"], sample_rate_hz / 2)
+
+    try:
+        return _rebuild(p, change)   # the rate itself is checked first, then every filter
+    except ProjectError as e:
+        bad = nyquist_problems(p, sample_rate_hz) if (e.field or "").startswith("bands") else []
+        if not bad:
+            raise
+        raise ProjectError(
+            f"{sample_rate_hz:g} Hz puts {len(bad)} filter(s) at or above its Nyquist "
+            f"frequency ({sample_rate_hz / 2:g} Hz): {'; '.join(bad)}; lower them first",
+            field="sample_rate") from None

@@ -1,0 +1,138 @@
+"""Values as people type them, and back: ``"2k"``, ``"2.2 kHz"``, ``"-3 dB"``, ``"1.5ms"``.
+
+:func:`parse` reads one number with an optional SI prefix and unit and
+returns it in the field's own unit (Hz, dB, ms or none); :func:`format`
+writes a value so that :func:`parse` reads it back (to 10 significant
+digits). Both are presentation helpers for the terminal UI; the range rules
+(Nyquist, Q > 0, ...) stay in :mod:`planner.filters` and
+:mod:`planner.project`.
+
+A bad text raises :class:`~planner.errors.ProjectError` naming the field
+and the text, e.g. ``freq: cannot read 'abc' as a frequency (e.g. 2k, 2.2 kHz, 350)``.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+
+from planner.errors import ProjectError
+
+__all__ = ["parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
+           "format_freq_hz", "UNITS"]
+
+#: Units a field may have, and the unit words accepted for each (lower case).
+UNITS = {
+    "Hz": {"hz": 1.0, "khz": 1e3, "mhz": 1e6},
+    "dB": {"db": 1.0},
+    "ms": {"ms": 1.0, "s": 1e3, "us": 1e-3, "µs": 1e-3, "sec": 1e3},
+    "": {},
+}
+
+_EXAMPLES = {"Hz": "2k, 2.2 kHz, 350", "dB": "-3, -3 dB, +1.5", "ms": "1.5, 1.5ms, 250us",
+             "": "0.7, 4"}
+_WHAT = {"Hz": "a frequency", "dB": "a level in dB", "ms": "a time", "": "a number"}
+
+# number, optional SI prefix, optional unit word; spaces allowed between.
+_RE = re.compile(r"""^\s*(?P<num>[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:e[+-]?\d+)?)
+                     \s*(?P<rest>[a-zµ]*)\s*$""", re.X | re.I)
+
+
+def parse(text: str, unit: str = "", field: str = "value") -> float:
+    """Read ``text`` as a number in ``unit`` (``"Hz"``, ``"dB"``, ``"ms"`` or ``""``).
+
+    Parameters
+    ----------
+    text : str
+        What was typed: ``"2k"``, ``"2.2 kHz"``, ``"2,2k"``, ``"350"``, ``"-3 dB"``,
+        ``"0.7"``, ``"1.5ms"``, ``"250us"``, ``"0.002 s"``. A decimal comma is read
+        as a point.
+    unit : str
+        The field's unit; the value is returned in it.
+    field : str
+        Field name for the error.
+
+    Returns
+    -------
+    float
+
+    Raises
+    ------
+    ProjectError
+        When the text is empty, not a number, has a unit of another kind
+        (``"3 dB"`` for a frequency) or is not finite.
+    """
+    if unit not in UNITS:
+        raise ValueError(f"unit must be one of {', '.join(repr(u) for u in UNITS)}, not {unit!r}")
+    s = str(text).strip()
+    if not s:
+        raise ProjectError(f"empty; type {_WHAT[unit]} (e.g. {_EXAMPLES[unit]})", field=field)
+    m = _RE.match(s)
+    if not m:
+        raise ProjectError(f"cannot read {s!r} as {_WHAT[unit]} (e.g. {_EXAMPLES[unit]})",
+                           field=field)
+    value = float(m.group("num").replace(",", "."))
+    rest = m.group("rest")
+    scale = _scale(rest, unit)
+    if scale is None:
+        raise ProjectError(f"cannot read {s!r} as {_WHAT[unit]}: unknown unit {rest!r} "
+                           f"(e.g. {_EXAMPLES[unit]})", field=field)
+    value *= scale
+    if not math.isfinite(value):
+        raise ProjectError(f"{s!r} is not a finite number", field=field)
+    return value
+
+
+def _scale(rest: str, unit: str) -> float | None:
+    words = UNITS[unit]
+    low = rest.lower()
+    if not low:
+        return 1.0
+    if low in words:
+        return words[low]
+    if unit == "Hz" and low == "k":  # "2k" is the usual way to write 2 kHz
+        return 1e3
+    return None
+
+
+def parse_freq_hz(text: str, field: str = "freq") -> float:
+    """``"2k" -> 2000.0``, ``"2.2 kHz" -> 2200.0``, ``"350" -> 350.0`` (Hz)."""
+    return parse(text, "Hz", field)
+
+
+def parse_db(text: str, field: str = "gain_db") -> float:
+    """``"-3 dB" -> -3.0``, ``"+1.5" -> 1.5`` (dB)."""
+    return parse(text, "dB", field)
+
+
+def parse_ms(text: str, field: str = "delay_ms") -> float:
+    """``"1.5ms" -> 1.5``, ``"250us" -> 0.25``, ``"0.002 s" -> 2.0`` (ms)."""
+    return parse(text, "ms", field)
+
+
+def parse_number(text: str, field: str = "value") -> float:
+    """``"0.7" -> 0.7`` (no unit)."""
+    return parse(text, "", field)
+
+
+def _num(v: float, digits: int) -> str:
+    return f"{v:.{digits}g}"  # very small or large values use e-notation, which parse reads
+
+
+def format_freq_hz(freq_hz: float, digits: int = 10) -> str:
+    """``2200 -> '2.2 kHz'``, ``350 -> '350 Hz'`` (up to ``digits`` significant digits)."""
+    if abs(freq_hz) >= 1000:
+        return f"{_num(freq_hz / 1000, digits)} kHz"
+    return f"{_num(freq_hz, digits)} Hz"
+
+
+def format(value: float, unit: str = "", digits: int = 10) -> str:  # noqa: A001 - module API
+    """Write ``value`` in ``unit`` so that :func:`parse` reads it back.
+
+    ``format(2200, "Hz") -> '2.2 kHz'``, ``format(-3, "dB") -> '-3 dB'``,
+    ``format(1.5, "ms") -> '1.5 ms'``, ``format(0.7) -> '0.7'``.
+    """
+    if unit == "Hz":
+        return format_freq_hz(value, digits)
+    text = _num(value, digits)
+    return f"{text} {unit}" if unit else text

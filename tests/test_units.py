@@ -1,0 +1,87 @@
+"""planner.units: values as people type them, and back.
+
+The expected numbers are the SI prefix definitions (k = 10**3, u = 10**-6,
+BIPM SI Brochure, 9th ed., 2019, table 7) applied to the typed text.
+"""
+
+import math
+
+import pytest
+from hypothesis import given, strategies as st
+
+from planner import units
+from planner.errors import ProjectError
+
+
+@pytest.mark.parametrize("text, unit, value", [
+    ("2k", "Hz", 2000.0),
+    ("2.2 kHz", "Hz", 2200.0),
+    ("2.2kHz", "Hz", 2200.0),
+    ("2,2k", "Hz", 2200.0),          # decimal comma
+    ("350", "Hz", 350.0),
+    ("350 Hz", "Hz", 350.0),
+    ("1e3", "Hz", 1000.0),
+    ("-3 dB", "dB", -3.0),
+    ("+1.5", "dB", 1.5),
+    ("-3dB", "dB", -3.0),
+    ("0.7", "", 0.7),
+    (".5", "", 0.5),
+    ("1.5ms", "ms", 1.5),
+    ("250us", "ms", 0.25),
+    ("0.002 s", "ms", 2.0),
+])
+def test_parse_reads_what_people_type(text, unit, value):
+    assert units.parse(text, unit) == pytest.approx(value, rel=1e-12)  # float rounding only
+
+
+def test_named_parsers():
+    assert units.parse_freq_hz("2.5k") == 2500.0
+    assert units.parse_db("-6 dB") == -6.0
+    assert units.parse_ms("1.5 ms") == 1.5
+    assert units.parse_number("4") == 4.0
+
+
+def test_parse_refuses_other_units_kind():
+    with pytest.raises(ProjectError, match=r"freq: cannot read '3 dB' as a frequency: unknown unit 'dB'"):
+        units.parse("3 dB", "Hz", field="freq")
+
+
+def test_parse_refuses_words():
+    with pytest.raises(ProjectError, match=r"q: cannot read 'abc' as a number"):
+        units.parse("abc", "", field="q")
+
+
+def test_parse_refuses_empty():
+    with pytest.raises(ProjectError, match=r"gain_db: empty; type a level in dB"):
+        units.parse("  ", "dB", field="gain_db")
+
+
+def test_parse_refuses_overflow():
+    with pytest.raises(ProjectError, match=r"is not a finite number"):
+        units.parse("1e308k", "Hz")
+
+
+def test_parse_refuses_unknown_unit_name():
+    with pytest.raises(ValueError, match=r"unit must be one of"):
+        units.parse("1", "V")
+
+
+@pytest.mark.parametrize("value, unit, text", [
+    (2200.0, "Hz", "2.2 kHz"),
+    (350.0, "Hz", "350 Hz"),
+    (-3.0, "dB", "-3 dB"),
+    (1.5, "ms", "1.5 ms"),
+    (0.7, "", "0.7"),
+])
+def test_format_writes_plain_text(value, unit, text):
+    assert units.format(value, unit) == text
+
+
+_finite = st.floats(min_value=-1e9, max_value=1e9, allow_nan=False, allow_infinity=False)
+
+
+@given(_finite, st.sampled_from(["Hz", "dB", "ms", ""]))
+def test_format_then_parse_round_trips(value, unit):
+    # format keeps 10 significant digits: the round trip is exact to 1e-9 relative.
+    back = units.parse(units.format(value, unit), unit)
+    assert math.isclose(back, value, rel_tol=1e-9, abs_tol=1e-300)
