@@ -1,4 +1,12 @@
-"""``crossplan [edit] [FILE]``: the terminal editor (the default command)."""
+"""``crossplan [edit] [FILE]``: the terminal editor (the default command).
+
+With no FILE the built-in demo project opens (saving asks for a file name).
+Textual is imported here only, when the editor really starts. Where there is
+no terminal to draw on (input or output redirected, as in a pipe or a
+script) the editor cannot run: the command says so on stderr and prints the
+check report and a magnitude plot instead, with the exit code of
+``crossplan check``.
+"""
 
 from __future__ import annotations
 
@@ -10,18 +18,28 @@ def add_arguments(p, name):
                    help="project file (JSON); default: the built-in demo")
 
 
+def _is_terminal() -> bool:
+    # Textual reads keys from stdin and draws on the terminal behind stdout/stderr.
+    return all(getattr(s, "isatty", lambda: False)() for s in (sys.stdin, sys.stdout, sys.stderr))
+
+
 def run(args) -> int:
     from planner.cli.common import load_project
 
     proj = load_project(args.file)
-    try:
-        from planner.tui.app import run_editor
-    except ImportError:
-        run_editor = None
-    if run_editor is None or not sys.stdout.isatty():
-        # No terminal UI here (or not a terminal): print the report and a plot.
+    reason = None
+    if not _is_terminal():
+        reason = "not a terminal"
+    else:
+        try:
+            from planner.tui.app import run_editor
+        except ImportError as e:  # textual missing or broken
+            reason = f"the terminal editor cannot start ({e})"
+    if reason is not None:
         from planner import engine, report
 
+        print(f"crossplan: {reason}: printing the check report instead of opening the editor",
+              file=sys.stderr)
         r = engine.analyse(proj)
         print(report.text_report(r))
         print(report.plot_report(r, "magnitude", 80, 22))

@@ -1,0 +1,1 @@
+"""The terminal editor (Textual). Imported only by ``crossplan [edit]``."""

@@ -1,0 +1,687 @@
+"""The crossplan editor: a Textual app over the core (edits, history, engine, report).
+
+The app owns the state (history of projects, the selection, the view and
+the cursor). Widgets post messages up; the app applies an edit through
+:mod:`planner.edits`, records it in :class:`~planner.history.History`, shows
+the new project at once and starts the analysis in a worker thread
+(exclusive: the latest edit wins). The worker's report is pushed down to the
+check bar, the warnings and the plot.
+"""
+
+from __future__ import annotations
+
+import time
+from functools import partial
+from pathlib import Path
+
+from textual import on, work
+from textual.app import App, ComposeResult
+from textual.binding import Binding
+from textual.command import DiscoveryHit, Hit, Hits, Provider
+from textual.containers import Vertical, VerticalScroll
+from textual.widgets import Footer, Input
+
+from planner import edits, engine, project as pj, units
+from planner.errors import CrossplanError, ProjectError
+from planner.history import History
+from planner.model import Project
+from planner.report import SAFETY_NOTE
+from planner.tui import views
+from planner.tui.screens import ChoiceScreen, HelpScreen, PathScreen, SettingsScreen
+from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
+                                 PlotView, Readout, TitleBar, WarningList)
+
+__all__ = ["CrossplanApp", "run_editor", "COMMANDS"]
+
+#: Every action, for the command palette and the help: (action, title, help).
+COMMANDS = (
+    ("save", "Save", "write the project to its file (atomically)"),
+    ("save_as", "Save as", "write the project to a new file"),
+    ("open", "Open", "open a project file"),
+    ("undo", "Undo", "undo the last edit"),
+    ("redo", "Redo", "redo the edit undone last"),
+    ("add('band')", "Add band", "add an empty band after the selected one"),
+    ("add('filter')", "Add filter", "add a filter (0 dB peaking EQ) after the selected one"),
+    ("remove('band')", "Remove band", "remove the selected band"),
+    ("remove('filter')", "Remove filter", "remove the selected filter"),
+    ("duplicate('band')", "Duplicate band", "copy the selected band with its chain"),
+    ("duplicate('filter')", "Duplicate filter", "copy the selected filter"),
+    ("move('band',-1)", "Move band up", "move the selected band up"),
+    ("move('band',1)", "Move band down", "move the selected band down"),
+    ("move('filter',-1)", "Move filter up", "move the selected filter earlier in the chain"),
+    ("move('filter',1)", "Move filter down", "move the selected filter later in the chain"),
+    ("toggle('invert')", "Invert band", "flip the polarity of the selected band"),
+    ("toggle('mute')", "Mute band", "leave the selected band out of the sum, or back in"),
+    ("toggle('solo')", "Solo band", "sum only soloed bands"),
+    ("bypass", "Bypass filter", "keep the filter in the chain but do not apply it"),
+    ("nudge_freq(1)", "Frequency up", "selected filter frequency up 1/12 octave"),
+    ("nudge_freq(-1)", "Frequency down", "selected filter frequency down 1/12 octave"),
+    ("nudge_gain(1)", "Gain up", "filter (or band) gain up 0.5 dB"),
+    ("nudge_gain(-1)", "Gain down", "filter (or band) gain down 0.5 dB"),
+    ("nudge_q(1)", "Q up", "selected filter Q up 10 %"),
+    ("nudge_q(-1)", "Q down", "selected filter Q down 10 %"),
+    ("view(1)", "Next view", "magnitude, phase, group delay, phase/level difference"),
+    ("view(-1)", "Previous view", "step back through the plot views"),
+    ("cursor(1)", "Cursor up", "move the plot cursor up 1/12 octave"),
+    ("cursor(-1)", "Cursor down", "move the plot cursor down 1/12 octave"),
+    ("settings", "Analysis settings", "range, points, limits, sample rate"),
+    ("focus_warnings", "Warnings", "go to the warnings list"),
+    ("help", "Help", "keys and safety notes"),
+    ("quit", "Quit", "leave (asks first when there are unsaved edits)"),
+)
+
+_STEP_OCT = 1 / 12
+_GAIN_STEP_DB = 0.5
+_Q_STEP = 1.10
+#: Show "analysing ..." when a job runs longer than this (s).
+_BUSY_AFTER_S = 0.2
+
+
+class EditorCommands(Provider):
+    """The command palette's list: every editor action, by its title."""
+
+    async def discover(self) -> Hits:
+        for action, title, help_ in COMMANDS:
+            yield DiscoveryHit(title, partial(self.app.run_action, action), help=help_)
+
+    async def search(self, query: str) -> Hits:
+        matcher = self.matcher(query)
+        for action, title, help_ in COMMANDS:
+            score = matcher.match(title)
+            if score > 0:
+                yield Hit(score, matcher.highlight(title), partial(self.app.run_action, action),
+                          help=help_)
+
+
+class CrossplanApp(App):
+    """Edit a project's bands and filters and watch the sum, at any terminal size."""
+
+    CSS_PATH = "app.tcss"
+    TITLE = "crossplan"
+    COMMANDS = App.COMMANDS | {EditorCommands}
+
+    BINDINGS = [
+        Binding("ctrl+s", "save", "Save", priority=True),
+        Binding("ctrl+z", "undo", "Undo", priority=True),
+        Binding("ctrl+y", "redo", "Redo", priority=True),
+        Binding("a", "add", "Add"),
+        Binding("x,delete", "remove", "Remove"),
+        Binding("i", "toggle('invert')", "Invert"),
+        Binding("v", "view(1)", "View"),
+        Binding("e", "settings", "Settings"),
+        Binding("question_mark,f1", "help", "Help"),
+        Binding("q", "quit", "Quit"),
+        Binding("ctrl+q", "quit", "Quit", show=False, priority=True),
+        Binding("c", "duplicate", "Duplicate", show=False),
+        Binding("left_square_bracket", "move(None,-1)", "Move up", show=False),
+        Binding("right_square_bracket", "move(None,1)", "Move down", show=False),
+        Binding("m", "toggle('mute')", "Mute", show=False),
+        Binding("s", "toggle('solo')", "Solo", show=False),
+        Binding("b", "bypass", "Bypass filter", show=False),
+        Binding("left", "nudge_freq(-1)", "Freq down", show=False),
+        Binding("right", "nudge_freq(1)", "Freq up", show=False),
+        Binding("shift+left", "nudge_freq(-4)", "Freq down 1/3 oct", show=False),
+        Binding("shift+right", "nudge_freq(4)", "Freq up 1/3 oct", show=False),
+        Binding("plus,equals_sign", "nudge_gain(1)", "Gain up", show=False),
+        Binding("minus", "nudge_gain(-1)", "Gain down", show=False),
+        Binding("greater_than_sign", "nudge_q(1)", "Q up", show=False),
+        Binding("less_than_sign", "nudge_q(-1)", "Q down", show=False),
+        Binding("full_stop", "cursor(1)", "Cursor up", show=False),
+        Binding("comma", "cursor(-1)", "Cursor down", show=False),
+        Binding("V", "view(-1)", "Previous view", show=False),
+        Binding("f", "focus_field('freq')", "Edit freq", show=False),
+        Binding("t", "focus_field('type')", "Edit type", show=False),
+        Binding("g", "focus_field('gain_db')", "Edit gain", show=False),
+        Binding("w", "focus_warnings", "Warnings", show=False),
+        Binding("S", "save_as", "Save as", show=False),
+        Binding("o,ctrl+o", "open", "Open", show=False),
+        Binding("escape", "back", "Back to chain", show=False),
+    ]
+
+    def __init__(self, project: Project, path: str | None = None) -> None:
+        super().__init__()
+        self.history = History(project)
+        self.path = path
+        self.band_i = 0
+        self.filter_i: int | None = 0 if project.bands[0].filters else None
+        self.view = views.VIEWS[0]
+        self.report: engine.Report | None = None
+        self.cursor_hz = self._default_cursor(project)
+        self.analysis_ms: float | None = None
+        self._gen = 0
+        self._busy = False
+        self._error: str | None = None
+
+    # -- layout ---------------------------------------------------------------------------
+
+    def compose(self) -> ComposeResult:
+        yield TitleBar(id="title")
+        with Vertical(id="main"):
+            with VerticalScroll(id="side"):
+                yield BandList(id="bands")
+                yield ChainList(id="chain")
+                yield FilterForm(id="filter-form")
+                yield BandForm(id="band-form")
+            with Vertical(id="right"):
+                yield PlotView(color=not self.no_color, id="plot")
+                yield Readout(id="readout")
+        yield CheckBar(id="checks")
+        yield WarningList(id="warnings")
+        yield Footer()
+
+    async def on_mount(self) -> None:
+        await self.show_project()
+        self.query_one(ChainList).focus()
+
+    # -- state ----------------------------------------------------------------------------
+
+    @property
+    def project(self) -> Project:
+        return self.history.current
+
+    @staticmethod
+    def _default_cursor(p: Project) -> float:
+        xo = sorted(f.params["freq"] for b in p.bands for f in b.filters
+                    if f.type in ("lowpass", "highpass") and "freq" in f.params)
+        a = p.analysis
+        mid = xo[len(xo) // 2] if xo else (a.f_min * a.f_max) ** 0.5
+        return min(max(mid, a.f_min), a.f_max)
+
+    def _clamp_selection(self) -> None:
+        p = self.project
+        self.band_i = min(max(self.band_i, 0), len(p.bands) - 1)
+        n = len(p.bands[self.band_i].filters)
+        if n == 0:
+            self.filter_i = None
+        else:
+            self.filter_i = min(max(self.filter_i or 0, 0), n - 1)
+        a = p.analysis
+        self.cursor_hz = min(max(self.cursor_hz, a.f_min), a.f_max)
+
+    async def show_project(self) -> None:
+        """Show the current project at once, then analyse it off the UI thread."""
+        self._clamp_selection()
+        p = self.project
+        band = p.bands[self.band_i]
+        self._show_title()
+        self.query_one(BandList).show(p.bands, p.active(), self.band_i)
+        self.query_one(ChainList).show(band, self.filter_i)
+        flt = band.filters[self.filter_i] if self.filter_i is not None else None
+        await self.query_one(FilterForm).show(self.filter_i, flt)
+        await self.query_one(BandForm).show(self.band_i, band)
+        for screen in self.screen_stack:
+            if isinstance(screen, SettingsScreen):
+                screen.show(p)
+        self.request_analysis()
+
+    def _show_title(self) -> None:
+        p = self.project
+        dirty = self.history.dirty
+        self.query_one(TitleBar).show(p.name, self.path, dirty, p.sample_rate, self.view)
+        self.title = f"crossplan - {Path(self.path).name if self.path else 'demo'}" + \
+            (" *" if dirty else "")
+
+    async def commit(self, new: Project, label: str) -> None:
+        """Record an edit and show it."""
+        self.history.push(new, label)
+        await self.show_project()
+
+    # -- analysis -------------------------------------------------------------------------
+
+    def request_analysis(self) -> None:
+        """Start analysing the current project; an older job's result is dropped."""
+        self._gen += 1
+        gen = self._gen
+        self._busy = True
+        self.set_timer(_BUSY_AFTER_S, partial(self._show_busy, gen))
+        self._analyse(self.project, gen)
+
+    def _show_busy(self, gen: int) -> None:
+        if self._busy and gen == self._gen:
+            self.query_one(CheckBar).show(views.check_lines(self.report) if self.report else None,
+                                          busy=True)
+
+    @work(thread=True, exclusive=True, group="analysis")
+    def _analyse(self, project: Project, gen: int) -> None:
+        t0 = time.perf_counter()
+        try:
+            report = engine.analyse(project)
+        except CrossplanError as e:
+            self.call_from_thread(self._analysis_failed, gen, str(e))
+            return
+        self.call_from_thread(self._analysis_done, gen, report,
+                              (time.perf_counter() - t0) * 1000.0)
+
+    def _analysis_failed(self, gen: int, message: str) -> None:
+        if gen == self._gen:
+            self._busy = False
+            self.query_one(CheckBar).show(None, error=message)
+
+    def _analysis_done(self, gen: int, report: engine.Report, ms: float) -> None:
+        if gen != self._gen or report.project is not self.project:
+            return
+        self._busy = False
+        self.report = report
+        self.analysis_ms = ms
+        self.query_one(CheckBar).show(views.check_lines(report))
+        self.query_one(WarningList).show(views.warning_items(report))
+        self.show_plot()
+
+    def show_plot(self) -> None:
+        if self.report is None:
+            return
+        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz)
+        self.query_one(PlotView).data = data
+        self.query_one(Readout).show(data)
+
+    # -- messages from the widgets --------------------------------------------------------
+
+    @on(BandList.Picked)
+    async def _picked(self, event: BandList.Picked) -> None:
+        """The highlight moved in the band list or in the chain (both post ``Picked``)."""
+        if event.source is self.query_one(BandList):
+            if event.index == self.band_i:
+                return
+            self.band_i, self.filter_i = event.index, 0
+        else:
+            if event.index == self.filter_i:
+                return
+            self.filter_i = event.index
+        await self.show_project_selection()
+
+    async def show_project_selection(self) -> None:
+        """The selection moved: show it (no new analysis needed, only the plot's pair)."""
+        self._clamp_selection()
+        p = self.project
+        band = p.bands[self.band_i]
+        self.query_one(BandList).show(p.bands, p.active(), self.band_i)
+        self.query_one(ChainList).show(band, self.filter_i)
+        flt = band.filters[self.filter_i] if self.filter_i is not None else None
+        await self.query_one(FilterForm).show(self.filter_i, flt)
+        await self.query_one(BandForm).show(self.band_i, band)
+        self.show_plot()
+
+    @on(ChainList.OptionSelected, "#chain")
+    def _chain_entered(self) -> None:
+        f = self.query_one(FilterForm)
+        if not f.focus_field("freq"):
+            f.focus_field("type")
+
+    @on(BandList.OptionSelected, "#bands")
+    def _band_entered(self) -> None:
+        self.query_one(ChainList).focus()
+
+    @on(WarningList.Picked)
+    async def _warning_picked(self, event: WarningList.Picked) -> None:
+        w = event.item
+        if w.band is not None:
+            self.band_i = w.band
+            self.filter_i = w.filter if w.filter is not None else self.filter_i
+            if w.filter is None:
+                self.filter_i = 0
+            await self.show_project_selection()
+            self.query_one(ChainList if w.filter is not None else BandList).focus()
+
+    @on(FieldRow.Edited)
+    async def _field_edited(self, event: FieldRow.Edited) -> None:
+        event.stop()
+        form = self.screen if event.target == "settings" else \
+            self.query_one(BandForm if event.target == "band" else FilterForm)
+        try:
+            new, label = self._apply_field(event.target, event.field, event.text)
+        except CrossplanError as e:
+            form.refuse(e.message, event.field)
+            return
+        old = self.project
+        await self.commit(new, label)
+        if event.target == "settings" and new.analysis.f_max < old.analysis.f_max \
+                and event.field == "sample_rate":
+            self.notify(f"'to' lowered to the new Nyquist frequency, "
+                        f"{units.format(new.analysis.f_max, 'Hz', 6)}")
+
+    def _apply_field(self, target: str, name: str, text: str) -> tuple[Project, str]:
+        """Turn a typed value into an edit: (new project, label for undo)."""
+        p = self.project
+        if target == "settings":
+            if name == "sample_rate":
+                fs = units.parse(text, "Hz", name)
+                return edits.set_sample_rate(p, int(fs) if fs == int(fs) else fs), \
+                    f"sample rate {units.format(fs, 'Hz', 7)}"
+            unit = {"f_min": "Hz", "f_max": "Hz", "flatness_db": "dB",
+                    "crossing_floor_db": "dB"}.get(name, "")
+            value = units.parse(text, unit, name)
+            if name == "points" and value == int(value):
+                value = int(value)
+            return edits.set_analysis(p, **{name: value}), f"analysis {name}"
+        band = p.bands[self.band_i]
+        if target == "band":
+            if name == "name":
+                value: object = text.strip()
+            else:
+                value = units.parse(text, "dB" if name == "gain_db" else "ms", name)
+            return edits.set_band(p, self.band_i, **{name: value}), f"{band.name} {name}"
+        if self.filter_i is None:
+            raise ProjectError("no filter selected", field=name)
+        i, j = self.band_i, self.filter_i
+        flt = band.filters[j]
+        label = f"{band.name} filter {j + 1} {name}"
+        if name == "type":
+            return edits.set_filter_type(p, i, j, text.strip().lower()), label
+        if name == "family":
+            return edits.set_filter_type(p, i, j, flt.type, text.strip().lower()), label
+        spec = next((s for s in flt.kind.fields if s.name == name), None)
+        if spec is None:
+            raise ProjectError("is not a field of this filter", field=name)
+        return edits.set_filter_params(p, i, j, **{name: _parse_field(spec, text)}), label
+
+    # -- actions --------------------------------------------------------------------------
+
+    def _scope(self) -> str:
+        w = self.focused
+        while w is not None:
+            if isinstance(w, (BandList, BandForm)):
+                return "band"
+            if isinstance(w, (ChainList, FilterForm)):
+                return "filter"
+            w = w.parent
+        return "filter"
+
+    async def _try(self, make, label: str, select=None) -> bool:
+        """Apply an edit; a refusal is shown as a notice and changes nothing."""
+        try:
+            new = make(self.project)
+        except CrossplanError as e:
+            self.notify(f"refused: {e}", severity="warning", timeout=5)
+            return False
+        if select:
+            select(new)
+        await self.commit(new, label)
+        return True
+
+    async def action_add(self, scope: str | None = None) -> None:
+        """Add a band or a filter after the selected one."""
+        scope = scope or self._scope()
+        i = self.band_i
+        if scope == "band":
+            def sel(p):
+                self.band_i, self.filter_i = i + 1, None
+            await self._try(lambda p: edits.add_band(p, index=i + 1), "add band", sel)
+            return
+        j = self.filter_i + 1 if self.filter_i is not None else 0
+
+        def sel(p):
+            self.filter_i = j
+        if await self._try(lambda p: edits.add_filter(p, i, index=j), "add filter", sel):
+            self.query_one(FilterForm).focus_field("type")
+
+    async def action_remove(self, scope: str | None = None) -> None:
+        """Remove the selected band or filter."""
+        scope = scope or self._scope()
+        i, j = self.band_i, self.filter_i
+        if scope == "band":
+            name = self.project.bands[i].name
+            await self._try(lambda p: edits.remove_band(p, i), f"remove band {name}")
+        elif j is not None:
+            await self._try(lambda p: edits.remove_filter(p, i, j), "remove filter")
+
+    async def action_duplicate(self, scope: str | None = None) -> None:
+        """Copy the selected band or filter just after it."""
+        scope = scope or self._scope()
+        i, j = self.band_i, self.filter_i
+        if scope == "band":
+            def sel(p):
+                self.band_i = i + 1
+            await self._try(lambda p: edits.duplicate_band(p, i), "duplicate band", sel)
+        elif j is not None:
+            def sel(p):
+                self.filter_i = j + 1
+            await self._try(lambda p: edits.duplicate_filter(p, i, j), "duplicate filter", sel)
+
+    async def action_move(self, scope: str | None, delta: int) -> None:
+        """Move the selected band or filter up (-1) or down (+1)."""
+        scope = scope or self._scope()
+        i, j = self.band_i, self.filter_i
+        if scope == "band":
+            def sel(p):
+                self.band_i = i + delta
+            await self._try(lambda p: edits.move_band(p, i, delta), "move band", sel)
+        elif j is not None:
+            def sel(p):
+                self.filter_i = j + delta
+            await self._try(lambda p: edits.move_filter(p, i, j, delta), "move filter", sel)
+
+    async def action_toggle(self, flag: str) -> None:
+        """Flip invert, mute or solo of the selected band."""
+        i = self.band_i
+        name = self.project.bands[i].name
+        await self._try(lambda p: edits.toggle_band(p, i, flag), f"{flag} {name}")
+
+    async def action_bypass(self) -> None:
+        """Bypass the selected filter, or bring it back."""
+        i, j = self.band_i, self.filter_i
+        if j is not None:
+            await self._try(lambda p: edits.toggle_bypass(p, i, j), "bypass filter")
+
+    def _selected_filter(self):
+        if self.filter_i is None:
+            return None
+        return self.project.bands[self.band_i].filters[self.filter_i]
+
+    async def action_nudge_freq(self, steps: int) -> None:
+        """Selected filter frequency by ``steps`` twelfths of an octave."""
+        f = self._selected_filter()
+        if f is None or "freq" not in f.params:
+            self.notify("the selected filter has no frequency to nudge", timeout=3)
+            return
+        new = round(f.params["freq"] * 2 ** (steps * _STEP_OCT), 2)
+        i, j = self.band_i, self.filter_i
+        await self._try(lambda p: edits.set_filter_params(p, i, j, freq=new),
+                        f"nudge freq {units.format(new, 'Hz', 4)}")
+
+    async def action_nudge_gain(self, sign: int) -> None:
+        """Filter gain (or band gain when the band is in focus or the filter has none) by 0.5 dB."""
+        f = self._selected_filter()
+        i, j = self.band_i, self.filter_i
+        if self._scope() == "filter" and f is not None and "gain_db" in f.params:
+            g = round(f.params["gain_db"] + sign * _GAIN_STEP_DB, 3)
+            await self._try(lambda p: edits.set_filter_params(p, i, j, gain_db=g),
+                            f"nudge filter gain {g:+.1f} dB")
+        else:
+            g = round(self.project.bands[i].gain_db + sign * _GAIN_STEP_DB, 3)
+            await self._try(lambda p: edits.set_band(p, i, gain_db=g), f"nudge band gain {g:+.1f} dB")
+
+    async def action_nudge_q(self, sign: int) -> None:
+        """Selected filter Q by 10 %."""
+        f = self._selected_filter()
+        if f is None or f.params.get("q") is None:
+            self.notify("the selected filter has no Q to nudge", timeout=3)
+            return
+        q = round(f.params["q"] * _Q_STEP ** sign, 4)
+        i, j = self.band_i, self.filter_i
+        await self._try(lambda p: edits.set_filter_params(p, i, j, q=q), f"nudge Q {q:g}")
+
+    def action_cursor(self, steps: int) -> None:
+        """Move the plot cursor by ``steps`` twelfths of an octave."""
+        a = self.project.analysis
+        self.cursor_hz = min(max(self.cursor_hz * 2 ** (steps * _STEP_OCT), a.f_min), a.f_max)
+        self.show_plot()
+
+    def action_view(self, step: int) -> None:
+        """Next (or previous) plot view."""
+        k = views.VIEWS.index(self.view)
+        self.view = views.VIEWS[(k + step) % len(views.VIEWS)]
+        self._show_title()
+        self.show_plot()
+
+    async def action_undo(self) -> None:
+        label = self.history.undo()
+        if label is None:
+            self.notify("nothing to undo", timeout=2)
+            return
+        self.notify(f"undone: {label}", timeout=2)
+        await self.show_project()
+
+    async def action_redo(self) -> None:
+        label = self.history.redo()
+        if label is None:
+            self.notify("nothing to redo", timeout=2)
+            return
+        self.notify(f"redone: {label}", timeout=2)
+        await self.show_project()
+
+    def action_focus_field(self, name: str) -> None:
+        form = self.query_one(BandForm if name == "gain_db" and self._scope() == "band"
+                              else FilterForm)
+        if not form.focus_field(name) and name == "gain_db":
+            self.query_one(BandForm).focus_field(name)
+
+    def action_focus_warnings(self) -> None:
+        self.query_one(WarningList).focus()
+
+    def action_back(self) -> None:
+        if isinstance(self.focused, Input) or isinstance(self.focused, WarningList):
+            self.query_one(ChainList).focus()
+
+    def action_help(self) -> None:
+        self.push_screen(HelpScreen(help_text(self)))
+
+    def action_settings(self) -> None:
+        self.push_screen(SettingsScreen(self.project))
+
+    # -- files ----------------------------------------------------------------------------
+
+    def _write(self, path: str) -> bool:
+        try:
+            pj.save(self.project, path)
+        except OSError as e:
+            self.notify(f"not saved: {e}", severity="error", timeout=6)
+            return False
+        self.path = path
+        self.history.mark_saved()
+        self._show_title()
+        self.notify(f"saved {path}", timeout=3)
+        return True
+
+    async def action_save(self) -> None:
+        """Save to the project's file (asks for one the first time)."""
+        if self.path is None:
+            self.action_save_as()   # a worker: it asks for the path
+        else:
+            self._write(self.path)
+
+    @work
+    async def action_save_as(self) -> bool:
+        """Ask for a path and save there (asks before overwriting)."""
+        path = await self.push_screen_wait(PathScreen("Save the project as:", self.path or ""))
+        if not path:
+            return False
+        if Path(path).exists() and path != self.path:
+            answer = await self.push_screen_wait(ChoiceScreen(
+                f"{path} exists. Overwrite it?", [("y", "yes", "Overwrite")]))
+            if answer != "yes":
+                return False
+        return self._write(path)
+
+    @work
+    async def action_open(self) -> None:
+        """Open a project file (asks first when there are unsaved edits)."""
+        if self.history.dirty and not await self._settle_unsaved("open another file"):
+            return
+        path = await self.push_screen_wait(PathScreen("Open project file:"))
+        if not path:
+            return
+        try:
+            proj = pj.load(path)
+        except CrossplanError as e:
+            self.notify(f"not opened: {e}", severity="error", timeout=8)
+            return
+        self.history.reset(proj)
+        self.path = path
+        self.band_i, self.filter_i, self.report = 0, 0, None
+        self.cursor_hz = self._default_cursor(proj)
+        await self.show_project()
+
+    async def _settle_unsaved(self, what: str) -> bool:
+        """Ask what to do with unsaved edits; True when it is fine to go on."""
+        answer = await self.push_screen_wait(ChoiceScreen(
+            f"There are unsaved edits. Save them before you {what}?",
+            [("s", "save", "Save"), ("d", "discard", "Discard")]))
+        if answer == "discard":
+            return True
+        if answer == "save":
+            if self.path is None:
+                path = await self.push_screen_wait(PathScreen("Save the project as:"))
+                return bool(path) and self._write(path)
+            return self._write(self.path)
+        return False
+
+    @work
+    async def action_quit(self) -> None:
+        """Quit; with unsaved edits, ask first (save, discard or keep editing)."""
+        if self.history.dirty and not await self._settle_unsaved("quit"):
+            return
+        self.exit(0)
+
+
+def _parse_field(spec, text: str):
+    """A typed value for a registry field, in the field's unit (None: leave it out)."""
+    t = text.strip()
+    if not t and not spec.required:
+        return None
+    if spec.kind == "choice":
+        return t
+    if spec.kind == "floats":
+        return [units.parse(v, "", spec.name) for v in t.replace(",", " ").split()]
+    unit = {"freq": "Hz", "db": "dB"}.get(spec.kind, spec.unit if spec.unit in units.UNITS else "")
+    v = units.parse(t, unit, spec.name)
+    if spec.kind == "int" and v == int(v):
+        return int(v)
+    return v
+
+
+def help_text(app: App) -> str:
+    """The help screen: keys from the bindings, how edits work, and the safety cautions."""
+    lines = ["KEYS (also in the command palette, ctrl+p)", ""]
+    seen = set()
+    for b in CrossplanApp.BINDINGS:
+        keys = ", ".join(app.get_key_display(Binding(k, "")) for k in b.key.split(","))
+        if b.description in seen:
+            continue
+        seen.add(b.description)
+        lines.append(f"  {keys:<18} {b.description}")
+    lines += [
+        "  tab / shift+tab    next / previous panel or field",
+        "  up / down          select a band or filter",
+        "  enter              on a filter: edit its fields; in a field: apply",
+        "  ctrl+p             command palette (every action)",
+        "",
+        "EDITING",
+        "  Type values as you would write them: 2k, 2.2 kHz, 350, -3 dB, 0.7, 1.5ms.",
+        "  A value that breaks a rule (above Nyquist, Q <= 0, ...) is refused where you",
+        "  typed it, with the reason; the project is not changed. Escape leaves the field.",
+        "  With the band list in focus, a/x/c/[/] act on bands; otherwise on filters.",
+        "  Nudges: left/right frequency 1/12 octave (shift: 1/3), +/- gain 0.5 dB,",
+        "  < > Q 10 %. Every edit can be undone (ctrl+z) and redone (ctrl+y).",
+        "  Band list markers: M muted, S solo, I polarity inverted; 'off' = not summed.",
+        "",
+        "CHECKS (bottom bar; states read ok / FAIL)",
+        "  sum: largest deviation of the summed response from 0 dB, against the limit;",
+        "  crossing: the worst phase difference where two bands cross above the floor;",
+        "  headroom: each band's peak gain (above 0 dB it can clip). Warnings: select",
+        "  one (w, then enter) to go to its band or filter.",
+        "",
+        "SAMPLE RATE (e: analysis settings)",
+        "  A new rate redesigns every filter. It is refused, naming them, while any filter",
+        "  would be at or above the new Nyquist frequency: lower those filters first, so",
+        "  that the project always stays valid and saveable. 'to' is lowered to Nyquist.",
+        "",
+        "SAFETY",
+        "  " + SAFETY_NOTE,
+    ]
+    return "\n".join(lines)
+
+
+def run_editor(project: Project, path: str | None) -> int:
+    """Run the editor on ``project`` (from ``path``, or None for the demo); return an exit code."""
+    result = CrossplanApp(project, path).run()
+    return int(result or 0)

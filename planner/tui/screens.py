@@ -1,0 +1,155 @@
+"""The editor's modal screens: help, a yes/no/cancel question, a path prompt, the analysis settings."""
+
+from __future__ import annotations
+
+from textual import on
+from textual.app import ComposeResult
+from textual.binding import Binding
+from textual.containers import Horizontal, Vertical, VerticalScroll
+from textual.screen import ModalScreen
+from textual.widgets import Button, Input, Label, Static
+
+from planner import units
+from planner.model import Project
+from planner.tui.widgets import FieldRow
+
+__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "SettingsScreen"]
+
+
+class HelpScreen(ModalScreen[None]):
+    """The keys, the sample-rate rule and the safety cautions."""
+
+    BINDINGS = [Binding("escape,q,question_mark,f1", "dismiss", "Close")]
+
+    def __init__(self, text: str) -> None:
+        super().__init__()
+        self._text = text
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="help-box") as box:
+            box.border_title = "Help (Escape closes; arrows scroll)"
+            yield Static(self._text, id="help-text", markup=False)
+
+    def on_mount(self) -> None:
+        self.query_one("#help-box").focus()
+
+
+class ChoiceScreen(ModalScreen[str | None]):
+    """A question with a few answers, each on a key; Escape answers None (cancel)."""
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+
+    def __init__(self, question: str, answers: list[tuple[str, str, str]]) -> None:
+        """``answers``: (key, value, label) triples, e.g. ("s", "save", "Save and quit")."""
+        super().__init__()
+        self._question = question
+        self._answers = answers
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="choice-box"):
+            yield Label(self._question, id="choice-question", markup=False)
+            with Horizontal(id="choice-buttons"):
+                for key, value, label in self._answers:
+                    yield Button(f"{label} [{key}]", id=f"answer-{value}")
+                yield Button("Cancel [esc]", id="answer-cancel")
+
+    def on_key(self, event) -> None:
+        for key, value, _ in self._answers:
+            if event.key == key:
+                event.stop()
+                self.dismiss(value)
+
+    @on(Button.Pressed)
+    def _pressed(self, event: Button.Pressed) -> None:
+        value = (event.button.id or "").removeprefix("answer-")
+        self.dismiss(None if value == "cancel" else value)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+class PathScreen(ModalScreen[str | None]):
+    """Ask for a file path (open, save as). Enter answers; Escape cancels."""
+
+    BINDINGS = [Binding("escape", "cancel", "Cancel")]
+
+    def __init__(self, prompt: str, value: str = "") -> None:
+        super().__init__()
+        self._prompt = prompt
+        self._value = value
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="path-box"):
+            yield Label(self._prompt)
+            yield Input(self._value, id="path-input", placeholder="e.g. my-speaker.json")
+            yield Label("Enter: ok   Escape: cancel", classes="hint")
+
+    @on(Input.Submitted)
+    def _submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        self.dismiss(event.value.strip() or None)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
+#: (field, label, unit) of the settings screen; "sample_rate" is the project's rate.
+SETTINGS = (
+    ("sample_rate", "sample rate", "Hz"),
+    ("f_min", "from", "Hz"),
+    ("f_max", "to", "Hz"),
+    ("points", "points", ""),
+    ("flatness_db", "flat +/-", "dB"),
+    ("phase_deg", "phase deg", ""),
+    ("crossing_floor_db", "floor", "dB"),
+)
+
+
+class SettingsScreen(ModalScreen[None]):
+    """Analysis range, points, limits and the sample rate; each field applies on Enter.
+
+    The rows post :class:`~planner.tui.widgets.FieldRow.Edited` with target
+    ``"settings"`` up to the app, which applies the edit and calls
+    :meth:`show` or :meth:`refuse`.
+    """
+
+    BINDINGS = [Binding("escape", "dismiss", "Close")]
+
+    def __init__(self, project: Project) -> None:
+        super().__init__()
+        self._project = project
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="settings-box") as box:
+            box.border_title = "Analysis settings (Enter applies a field, Escape closes)"
+            for name, label, unit in SETTINGS:
+                yield FieldRow("settings", name, label, self._text(name, unit))
+            yield Static("", classes="refusal", id="settings-refusal", markup=False)
+            yield Static("Changing the sample rate redesigns every filter. It is refused, "
+                         "naming them, while a filter would be at or above the new Nyquist "
+                         "frequency; 'to' is lowered to Nyquist if needed.", classes="hint")
+
+    def _text(self, name: str, unit: str) -> str:
+        p = self._project
+        value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
+        if name == "points":
+            return str(value)
+        if name == "sample_rate":
+            return units.format(value, "Hz", 7)
+        return units.format(value, unit, 6)
+
+    def on_mount(self) -> None:
+        self.query(Input).first().focus()
+
+    def show(self, project: Project) -> None:
+        """The project changed: show its values and clear any refusal."""
+        self._project = project
+        for row in self.query(FieldRow):
+            unit = next(u for n, _, u in SETTINGS if n == row.field_name)
+            row.set_value(self._text(row.field_name, unit))
+        self.refuse(None)
+
+    def refuse(self, message: str | None, name: str | None = None) -> None:
+        self.query_one("#settings-refusal", Static).update(f"refused: {message}" if message else "")
+        for r in self.query(FieldRow):
+            r.input.set_class(bool(message) and r.field_name == name, "-refused")

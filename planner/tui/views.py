@@ -1,0 +1,147 @@
+"""What the editor shows, computed from a report: plot data, the cursor readout, check texts.
+
+Plain functions of a :class:`~planner.engine.Report` (no Textual here), so
+that the widgets only draw. Every state reads as text ("ok", "FAIL"), never
+by colour alone.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.dsp.analysis import db
+from planner.engine import Report
+from planner.filters import format_hz
+from planner.plots import Series
+from planner.report import phase_difference_deg, view_series
+
+__all__ = ["VIEWS", "PlotData", "plot_data", "crossing_pair", "readout", "check_lines",
+           "WarningItem", "warning_items"]
+
+#: The plot views, in the order the view key steps through them.
+VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference")
+
+#: How far the difference views reach either side of their crossing (octaves).
+_DIFF_SPAN_OCT = 2.0
+
+
+@dataclass(frozen=True, eq=False)
+class PlotData:
+    """Everything one plot needs, ready to draw (arrays already computed; compared by identity)."""
+
+    series: tuple[Series, ...]
+    unit: str
+    ylim: tuple[float, float] | None
+    title: str
+    marks_hz: tuple[float, ...]
+    cursor_hz: float
+    hline: float | None
+
+
+def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
+    """The two bands the difference views compare, for the selected ``band``.
+
+    The crossing of ``band`` with the largest phase difference (checked
+    crossings first); without one, ``band`` and its neighbour. Returns
+    ``(a, b, crossing_hz or None)`` with ``a`` before ``b`` in project order.
+    """
+    mine = [c for c in r.crossings if band in c.band_index]
+    mine.sort(key=lambda c: (not c.checked, -abs(c.phase_diff_deg)))
+    if mine:
+        a, b = mine[0].band_index
+        return a, b, mine[0].freq_hz
+    n = len(r.project.bands)
+    if n < 2:
+        return band, band, None
+    other = band + 1 if band + 1 < n else band - 1
+    return min(band, other), max(band, other), None
+
+
+def plot_data(r: Report, view: str, band: int, cursor_hz: float) -> PlotData:
+    """The series, unit, range and marks of ``view`` (one of :data:`VIEWS`)."""
+    marks = tuple(c.freq_hz for c in r.checked_crossings)
+    name = r.project.name
+    if view in ("magnitude", "phase", "delay"):
+        series, unit, ylim = view_series(r, view)
+        return PlotData(tuple(series), unit, ylim, f"{view} ({unit})", marks, cursor_hz,
+                        0.0 if view == "magnitude" else None)
+    if view not in VIEWS:
+        raise ValueError(f"view must be one of {', '.join(VIEWS)}, not {view!r}")
+    a, b, fc = crossing_pair(r, band)
+    f = r.freqs_hz
+    na, nb = r.project.bands[a].name, r.project.bands[b].name
+    if a == b:
+        return PlotData((), "", None, f"{view}: needs two bands", (), cursor_hz, None)
+    if fc is not None:
+        keep = (f >= fc / 2 ** _DIFF_SPAN_OCT) & (f <= fc * 2 ** _DIFF_SPAN_OCT)
+        where = f"near {format_hz(fc)}"
+    else:
+        keep = np.ones(len(f), bool)
+        where = "(no crossing)"
+    if view == "phase difference":
+        y = phase_difference_deg(r, a, b)
+        unit, ylim, label = "deg", (-180.0, 180.0), f"{na} - {nb} phase"
+    else:
+        y = db(r.responses.h[a]) - db(r.responses.h[b])
+        unit, ylim, label = "dB", (-24.0, 24.0), f"{na} - {nb} level"
+    s = Series(label, f[keep], y[keep], bold=True)
+    return PlotData((s,), unit, ylim, f"{na} - {nb} {where} ({unit})",
+                    tuple(m for m in ((fc,) if fc else ())), cursor_hz, 0.0)
+
+
+def _at(s: Series, f_hz: float) -> float:
+    x = np.asarray(s.x, float)
+    if not len(x) or f_hz < x[0] or f_hz > x[-1]:
+        return float("nan")
+    return float(np.interp(np.log10(f_hz), np.log10(x), np.asarray(s.y, float)))
+
+
+def readout(d: PlotData) -> str:
+    """``"cursor 2.4 kHz: dB woofer -6.0  tweeter -6.0  sum +0.0"`` (interpolated linearly in log f)."""
+    parts = []
+    for s in d.series:
+        v = _at(s, d.cursor_hz)
+        label = s.label.replace(" (off)", "")
+        parts.append(f"{label} {v:+.1f}" if np.isfinite(v) else f"{label} --")
+    unit = f" {d.unit}" if d.unit else ""
+    return f"cursor {format_hz(d.cursor_hz)}:{unit} " + "  ".join(parts)
+
+
+def _state(ok: bool) -> str:
+    return "ok" if ok else "FAIL"
+
+
+def check_lines(r: Report) -> tuple[str, str, str]:
+    """The check bar: sum flatness; worst crossing; headroom per band (each one line at 80 columns)."""
+    a = r.project.analysis
+    if any(r.active):
+        s = (f"sum       {_state(r.flat_ok):<4} {r.max_dev_db:+.2f} dB at {format_hz(r.at_hz)} "
+             f"(limit +/-{a.flatness_db:g} dB, ripple {r.ripple_db:.2f} dB)")
+    else:
+        s = "sum       FAIL every band is muted"
+    w = r.worst_crossing
+    if w is None:
+        x = f"crossing  --   none above the floor ({a.crossing_floor_db:g} dB)"
+    else:
+        x = (f"crossing  {_state(r.phase_ok):<4} {w.phase_diff_deg:+.1f} deg at "
+             f"{format_hz(w.freq_hz)} {w.bands[0]}/{w.bands[1]} (limit {a.phase_deg:g} deg)")
+    head_ok = all(b.peak_gain_db <= 0.05 for b in r.bands if b.active)
+    heads = ", ".join(f"{b.name} {b.peak_gain_db:+.1f}" + ("" if b.active else " off")
+                      for b in r.bands)
+    return s, x, f"headroom  {_state(head_ok):<4} peak dB: {heads}"
+
+
+@dataclass(frozen=True)
+class WarningItem:
+    """A warning as listed, and what selecting it selects."""
+
+    text: str
+    band: int | None
+    filter: int | None
+
+
+def warning_items(r: Report) -> list[WarningItem]:
+    """The report's warnings, each with the band (and filter) it is about."""
+    return [WarningItem(w.text, w.band, w.filter) for w in r.warnings]

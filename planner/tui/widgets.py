@@ -1,0 +1,322 @@
+"""The editor's widgets. Each draws what the app gives it and posts a message up; none
+reaches into another, and none holds DSP."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual import on
+from textual.app import ComposeResult
+from textual.containers import Horizontal, Vertical
+from textual.message import Message
+from textual.reactive import reactive
+from textual.suggester import SuggestFromList
+from textual.widget import Widget
+from textual.widgets import Input, Label, OptionList, Static
+from textual.widgets.option_list import Option
+
+from planner import units
+from planner.filters import FieldSpec, families_of, kinds
+from planner.model import Band, Filter
+from planner.plots import freq_plot
+from planner.tui.views import PlotData, WarningItem, readout
+
+__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "FilterForm",
+           "PlotView", "Readout", "CheckBar", "WarningList", "field_text"]
+
+
+class TitleBar(Static):
+    """One line: file name, unsaved marker, rate and project name."""
+
+    def show(self, name: str, path: str | None, dirty: bool, fs_hz: float, view: str) -> None:
+        where = path or "demo, not saved yet"
+        mark = " [modified]" if dirty else ""
+        self.update(Text.assemble(("crossplan ", "bold"), f"{where}{mark}",
+                                  f"  {fs_hz / 1000:g} kHz  {name}"))
+
+
+# -- lists ----------------------------------------------------------------------------------
+
+def _plain(text: str) -> Option:
+    """An option whose text is shown as is (a band called "[x]" is not markup)."""
+    return Option(Text(text))
+
+
+class _PickList(OptionList):
+    """An option list whose highlight is the app's selection; moving it posts ``Picked``."""
+
+    class Picked(Message):
+        def __init__(self, source: "_PickList", index: int) -> None:
+            super().__init__()
+            self.source = source
+            self.index = index
+
+    def set_items(self, prompts: list[str], selected: int | None, empty: str) -> None:
+        with self.prevent(OptionList.OptionHighlighted):
+            if prompts:
+                self.set_options([_plain(p) for p in prompts])
+                self.highlighted = min(selected or 0, len(prompts) - 1)
+            else:
+                self.set_options([Option(Text(empty), disabled=True)])
+
+    @on(OptionList.OptionHighlighted)
+    def _moved(self, event: OptionList.OptionHighlighted) -> None:
+        event.stop()
+        self.post_message(self.Picked(self, event.option_index))
+
+
+class BandList(_PickList):
+    """The bands: name, gain, and M(ute) S(olo) I(nvert) markers as letters."""
+
+    BORDER_TITLE = "Bands (M mute S solo I inv)"
+
+    def show(self, bands: tuple[Band, ...], active: list[bool], selected: int) -> None:
+        rows = []
+        for b, on_ in zip(bands, active):
+            flags = ("M" if b.mute else "-") + ("S" if b.solo else "-") + ("I" if b.invert else "-")
+            off = "" if on_ else " off"
+            rows.append(f"{b.name[:11]:<11} {b.gain_db:+5.1f}dB {flags}{off}")
+        self.set_items(rows, selected, "(no bands)")
+
+
+class ChainList(_PickList):
+    """The chain of the selected band, one filter label a line."""
+
+    def show(self, band: Band, selected: int | None) -> None:
+        self.border_title = f"Chain: {band.name}"
+        self.set_items([f"{j + 1} {f.label()}" for j, f in enumerate(band.filters)], selected,
+                       "(empty: a adds a filter)")
+
+
+# -- forms ----------------------------------------------------------------------------------
+
+def field_text(spec_kind: str, unit: str, value: Any) -> str:
+    """A parameter's value as the form shows it (and :mod:`planner.units` reads back)."""
+    if value is None:
+        return ""
+    if spec_kind == "freq":
+        return units.format(value, "Hz", digits=6)
+    if spec_kind in ("db", "q", "float"):
+        return units.format(value, unit if unit in units.UNITS else "", digits=6)
+    if spec_kind == "floats":
+        return ", ".join(units.format(v, digits=6) for v in value)
+    return str(value)
+
+
+class FieldRow(Horizontal):
+    """A label and a one-line input; Enter posts :class:`FieldRow.Edited`."""
+
+    class Edited(Message):
+        def __init__(self, row: "FieldRow", text: str) -> None:
+            super().__init__()
+            self.row = row
+            self.target = row.target
+            self.field = row.field_name
+            self.text = text
+
+    def __init__(self, target: str, name: str, label: str, value: str, suggest=(),
+                 help_: str = "") -> None:
+        super().__init__(classes="field")
+        self.target = target
+        self.field_name = name
+        self._label = label
+        self._value = value
+        self._suggest = list(suggest)
+        self.tooltip = help_ or None
+
+    def compose(self) -> ComposeResult:
+        yield Label(self._label, classes="field-label")
+        sug = SuggestFromList(self._suggest, case_sensitive=False) if self._suggest else None
+        yield Input(self._value, suggester=sug, id=f"{self.target}-{self.field_name}",
+                    select_on_focus=True)
+
+    @property
+    def input(self) -> Input:
+        return self.query_one(Input)
+
+    def set_value(self, text: str) -> None:
+        self._value = text
+        if self.is_mounted:
+            inp = self.input
+            inp.value = text
+            inp.remove_class("-refused")
+            if inp.has_focus:
+                inp.select_all()   # the next typing replaces the value
+
+    @on(Input.Submitted)
+    def _submitted(self, event: Input.Submitted) -> None:
+        event.stop()
+        if event.value.strip() == self._value.strip():
+            self.input.remove_class("-refused")
+            return
+        self.post_message(self.Edited(self, event.value))
+
+
+class _Form(Vertical):
+    """A titled column of field rows with one line for a refusal."""
+
+    target = ""
+
+    def compose(self) -> ComposeResult:
+        yield Vertical(classes="rows")
+        yield Static("", classes="refusal", markup=False)
+
+    async def set_rows(self, signature: tuple, rows: list[FieldRow]) -> None:
+        """Replace the rows when the fields differ; else only update the values."""
+        box = self.query_one(".rows", Vertical)
+        if signature != getattr(self, "_signature", None):
+            had = self.app.focused
+            focus_name = had.id if isinstance(had, Input) and had in box.query(Input) else None
+            await box.remove_children()
+            await box.mount_all(rows)
+            self._signature = signature
+            if focus_name:
+                for r in rows:
+                    if r.input.id == focus_name:
+                        r.input.focus()
+        else:
+            for old, new in zip(box.query(FieldRow), rows):
+                old.set_value(new._value)
+        self.refuse(None)
+
+    def refuse(self, message: str | None, name: str | None = None) -> None:
+        """Show why a typed value was refused (the project is unchanged), or clear it."""
+        self.query_one(".refusal", Static).update(f"refused: {message}" if message else "")
+        self.set_class(bool(message), "-refused")
+        for r in self.query(FieldRow):
+            r.input.set_class(bool(message) and r.field_name == name, "-refused")
+
+    def focus_field(self, name: str) -> bool:
+        for r in self.query(FieldRow):
+            if r.field_name == name:
+                r.input.focus()
+                return True
+        return False
+
+
+class BandForm(_Form):
+    """Name, gain (dB) and delay (ms) of the selected band; polarity as text."""
+
+    target = "band"
+
+    async def show(self, index: int, band: Band) -> None:
+        self.border_title = f"Band {index + 1}: {'inverted' if band.invert else 'normal'} polarity"
+        rows = [
+            FieldRow("band", "name", "name", band.name),
+            FieldRow("band", "gain_db", "gain", units.format(band.gain_db, "dB", 6),
+                     help_="band gain in dB, e.g. -2.5"),
+            FieldRow("band", "delay_ms", "delay", units.format(band.delay_ms, "ms", 6),
+                     help_="band delay in ms, e.g. 0.12 or 120us"),
+        ]
+        await self.set_rows(("band",), rows)
+
+
+class FilterForm(_Form):
+    """Type, family and the fields (from the filter registry) of the selected filter."""
+
+    target = "filter"
+
+    async def show(self, index: int | None, flt: Filter | None) -> None:
+        if flt is None:
+            self.border_title = "Filter: none selected"
+            await self.set_rows((), [])
+            return
+        self.border_title = f"Filter {index + 1}" + (" (bypassed)" if flt.bypass else "")
+        types = sorted({k.type for k in kinds()})
+        rows = [FieldRow("filter", "type", "type", flt.type, types, "filter type")]
+        fams = [f for f in families_of(flt.type) if f]
+        if fams:
+            rows.append(FieldRow("filter", "family", "family", flt.family or "", fams,
+                                 "one of: " + ", ".join(fams)))
+        specs: list[FieldSpec] = list(flt.kind.fields)
+        for s in specs:
+            choices = [str(c) for c in s.choices]
+            unit = f" {s.unit}" if s.unit and s.kind not in ("freq", "db") else ""
+            hint = s.help + (f" ({', '.join(choices)})" if choices else "")
+            rows.append(FieldRow("filter", s.name, _short(s.name) + unit,
+                                 field_text(s.kind, s.unit, flt.params.get(s.name)),
+                                 choices, hint))
+        await self.set_rows((flt.type, flt.family, tuple(s.name for s in specs)), rows)
+
+
+def _short(name: str) -> str:
+    return {"gain_db": "gain", "freq": "freq"}.get(name, name)
+
+
+# -- plot -----------------------------------------------------------------------------------
+
+class PlotView(Widget):
+    """A plotext plot of :class:`PlotData`, drawn at the widget's own size on each render."""
+
+    data: reactive[PlotData | None] = reactive(None)
+
+    def __init__(self, color: bool, **kw) -> None:
+        super().__init__(**kw)
+        self.color = color
+
+    def render(self) -> Text:
+        d = self.data
+        w, h = self.size.width, self.size.height
+        if d is None:
+            return Text("analysing ...")
+        if w < 20 or h < 6:
+            return Text("(too small for a plot)")
+        marks = (*d.marks_hz, d.cursor_hz)
+        s = freq_plot(d.series, width=w, height=h, ylabel=d.unit, ylim=d.ylim, title=d.title,
+                      color=self.color, marks_hz=marks, hline=d.hline)
+        return Text.from_ansi(s, no_wrap=True)
+
+
+class Readout(Static):
+    """The values of each series at the cursor frequency."""
+
+    def __init__(self, **kw) -> None:
+        super().__init__("", markup=False, **kw)
+
+    def show(self, data: PlotData | None) -> None:
+        self.update(readout(data) if data is not None else "")
+
+
+# -- checks ---------------------------------------------------------------------------------
+
+class CheckBar(Static):
+    """Sum flatness, worst crossing and headroom, always on screen ("ok"/"FAIL" as text)."""
+
+    def __init__(self, **kw) -> None:
+        super().__init__("analysing ...", markup=False, **kw)
+
+    def show(self, lines: tuple[str, ...] | None, busy: bool = False, error: str | None = None
+             ) -> None:
+        if error:
+            self.update(f"analysis FAIL: {error}")
+            return
+        if lines is None:
+            self.update("analysing ...")
+            return
+        text = "\n".join(lines)
+        self.update(text + ("  (analysing ...)" if busy else ""))
+        self.set_class(" FAIL" in text, "-fail")
+
+
+class WarningList(OptionList):
+    """The analysis warnings; selecting one posts ``Picked`` with its band and filter."""
+
+    class Picked(Message):
+        def __init__(self, item: WarningItem) -> None:
+            super().__init__()
+            self.item = item
+
+    def show(self, items: list[WarningItem]) -> None:
+        self._items = items
+        self.border_title = f"Warnings ({len(items)})" if items else "Warnings: none"
+        with self.prevent(OptionList.OptionHighlighted):
+            self.set_options([_plain(f"! {w.text}") for w in items]
+                             or [Option(Text("no warnings"), disabled=True)])
+
+    @on(OptionList.OptionSelected)
+    def _picked(self, event: OptionList.OptionSelected) -> None:
+        event.stop()
+        items = getattr(self, "_items", [])
+        if 0 <= event.option_index < len(items):
+            self.post_message(self.Picked(items[event.option_index]))

@@ -1,0 +1,13 @@
+"""Fixtures of the editor tests."""
+
+import pytest
+
+from planner import presets_lib, project
+
+
+@pytest.fixture
+def two_way_file(tmp_path):
+    """The two-way preset saved to a file of its own."""
+    path = tmp_path / "two-way.json"
+    project.save(presets_lib.load("two-way"), path)
+    return path

@@ -1,0 +1,390 @@
+"""The editor driven with Textual's Pilot at 80x24: model state first, screen text second.
+
+The preset "two-way" is woofer [BW2 highpass 25 Hz, LR4 lowpass 2.4 kHz] and
+tweeter [LR4 highpass 2.4 kHz, peaking -0.8 dB at 7.5 kHz].
+"""
+
+import pytest
+
+from planner import engine, presets_lib, project
+from planner.report import SAFETY_NOTE
+from planner.tui import views
+from planner.tui.app import CrossplanApp
+from planner.tui.screens import ChoiceScreen, HelpScreen, PathScreen, SettingsScreen
+from planner.tui.widgets import PlotView
+
+from tui_helpers import screen_text, settle
+
+SIZE = (80, 24)
+
+
+def make_app(path=None, name="two-way"):
+    proj = project.load(path) if path else presets_lib.load(name)
+    return CrossplanApp(proj, str(path) if path else None)
+
+
+async def goto_freq_field(app, pilot, filter_index=1):
+    """Select filter ``filter_index`` of the selected band and enter its form (freq field)."""
+    app.query_one("#chain").focus()
+    for _ in range(filter_index):
+        await pilot.press("down")
+    await pilot.press("enter")
+    await pilot.pause()
+    assert app.focused.id == "filter-freq"
+
+
+async def test_typing_2_5k_sets_the_crossover_and_the_checks_follow():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        before = screen_text(app)
+        old_cross = app.report.worst_crossing
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"2.5k", "enter")
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[1].params["freq"] == 2500.0
+        assert app.history.dirty
+        # The check readout is the one of the new project, and it changed.
+        fresh = engine.analyse(app.project)
+        assert app.report.project is app.project
+        assert app.report.worst_crossing.phase_diff_deg == pytest.approx(
+            fresh.worst_crossing.phase_diff_deg, abs=1e-9)  # same computation, same inputs
+        assert app.report.worst_crossing.phase_diff_deg != old_cross.phase_diff_deg
+        after = screen_text(app)
+        for line in views.check_lines(fresh):
+            assert line in after
+        assert after != before
+        assert "LR4 lowpass 2.5 kHz" in after
+        assert "[modified]" in after
+
+
+async def test_above_nyquist_is_refused_in_place_and_nothing_changes():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"30k", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert not app.history.can_undo and not app.history.dirty
+        text = screen_text(app)
+        assert "refused: 30000 Hz is above" in text
+        assert "Nyquist (24000 Hz)" in text
+        assert app.focused.has_class("-refused")
+
+
+async def test_q_zero_is_refused():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        app.query_one("#bands").focus()
+        await pilot.press("down")          # tweeter
+        app.query_one("#chain").focus()
+        await pilot.press("down")          # its peaking EQ
+        await pilot.pause()
+        assert app.filter_i == 1 and app.band_i == 1
+        app.query_one("#filter-form").focus_field("q")
+        await pilot.press(*"0", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert "refused: Q must be above 0" in screen_text(app)
+
+
+async def test_a_word_is_refused_with_examples():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"lots", "enter")
+        await pilot.pause()
+        assert app.project is p0
+        assert "refused: cannot read" in screen_text(app)
+        refusal = app.query_one("#filter-form .refusal")
+        assert "cannot read 'lots' as a frequency (e.g. 2k" in str(refusal.render())
+
+
+async def test_undo_and_redo():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"2.5k", "enter")
+        await settle(app, pilot)
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[1].params["freq"] == 2400.0
+        assert not app.history.dirty
+        assert "LR4 lowpass 2.4 kHz" in screen_text(app)
+        await pilot.press("ctrl+y")
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[1].params["freq"] == 2500.0
+
+
+async def test_save_then_reload_gives_the_same_project(two_way_file):
+    app = make_app(two_way_file)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"2.5k", "enter")
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("i")               # invert the woofer
+        await settle(app, pilot)
+        await pilot.press("ctrl+s")
+        await settle(app, pilot)
+        assert not app.history.dirty
+        reloaded = project.load(two_way_file)
+        assert reloaded == app.project
+        assert reloaded.bands[0].invert and reloaded.bands[0].filters[1].params["freq"] == 2500.0
+        assert "[modified]" not in screen_text(app)
+
+
+async def test_save_of_the_demo_asks_for_a_path(tmp_path):
+    app = make_app()
+    target = tmp_path / "mine.json"
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("ctrl+s")
+        await pilot.pause()
+        assert isinstance(app.screen, PathScreen)
+        await pilot.press(*str(target), "enter")
+        await settle(app, pilot)
+        assert project.load(target) == app.project
+        assert app.path == str(target)
+
+
+async def test_quit_with_unsaved_edits_asks_first():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("m")                # mute the woofer: an unsaved edit
+        await settle(app, pilot)
+        assert app.project.bands[0].mute
+        await pilot.press("q")
+        await pilot.pause()
+        assert isinstance(app.screen, ChoiceScreen)
+        assert "unsaved edits" in screen_text(app)
+        await pilot.press("escape")           # keep editing
+        await pilot.pause()
+        assert not isinstance(app.screen, ChoiceScreen) and app.is_running
+        await pilot.press("q")
+        await pilot.pause()
+        await pilot.press("d")                # discard and quit
+        await pilot.pause()
+    assert app.return_code == 0
+
+
+async def test_quit_without_edits_does_not_ask():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("q")
+        await pilot.pause()
+        asked = any(isinstance(s, ChoiceScreen) for s in app.screen_stack)
+    assert app.return_code == 0 and not asked
+
+
+async def test_band_keys_invert_mute_solo_and_markers():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("down", "i", "s")
+        await settle(app, pilot)
+        b = app.project.bands[1]
+        assert b.invert and b.solo and not b.mute
+        assert app.project.active() == [False, True]
+        text = screen_text(app)
+        assert "-SI" in text            # tweeter markers: not muted, solo, inverted
+        assert "off" in text            # the woofer is not summed
+
+
+async def test_add_duplicate_move_and_remove_bands():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("a")
+        await settle(app, pilot)
+        assert [b.name for b in app.project.bands] == ["woofer", "band 3", "tweeter"]
+        assert app.band_i == 1
+        app.query_one("#bands").focus()
+        await pilot.press("x")
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("c")
+        await settle(app, pilot)
+        assert [b.name for b in app.project.bands][:2] == ["woofer", "woofer copy"] or \
+            [b.name for b in app.project.bands][1:] == ["tweeter", "tweeter copy"]
+        app.query_one("#bands").focus()
+        await pilot.press("left_square_bracket")
+        await settle(app, pilot)
+        assert len(app.project.bands) == 3
+
+
+async def test_add_filter_then_change_its_type_by_typing():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#chain").focus()
+        await pilot.press("a")                 # new 0 dB peaking EQ after filter 1
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[1].type == "peaking"
+        assert app.focused.id == "filter-type"
+        await pilot.press(*"notch", "enter")
+        await settle(app, pilot)
+        f = app.project.bands[0].filters[1]
+        assert f.type == "notch" and f.params["freq"] == 1000.0
+        app.query_one("#chain").focus()
+        await pilot.press("b")                 # bypass it
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[1].bypass
+        await pilot.press("x")
+        await settle(app, pilot)
+        assert [f.type for f in app.project.bands[0].filters] == ["highpass", "lowpass"]
+
+
+async def test_nudges_frequency_gain_and_q():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#chain").focus()
+        await pilot.press("down", "right")
+        await settle(app, pilot)
+        # one equal-tempered semitone: a factor 2**(1/12) (1/12 octave), rounded to 0.01 Hz
+        assert app.project.bands[0].filters[1].params["freq"] == pytest.approx(
+            2400 * 2 ** (1 / 12), abs=0.005)
+        app.query_one("#bands").focus()
+        await pilot.press("down")
+        app.query_one("#chain").focus()
+        await pilot.press("down", "plus", "greater_than_sign")
+        await settle(app, pilot)
+        f = app.project.bands[1].filters[1]
+        assert f.params["gain_db"] == pytest.approx(-0.3)
+        assert f.params["q"] == pytest.approx(2.2)
+        app.query_one("#bands").focus()
+        await pilot.press("minus")
+        await settle(app, pilot)
+        assert app.project.bands[1].gain_db == -0.5
+
+
+async def test_views_cycle_and_the_cursor_reads_values():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#chain").focus()
+        plot = app.query_one(PlotView)
+        assert plot.data.title.startswith("magnitude")
+        f0 = app.cursor_hz
+        await pilot.press("full_stop")
+        assert app.cursor_hz == pytest.approx(f0 * 2 ** (1 / 12))
+        assert "cursor 2.54 kHz: dB woofer" in screen_text(app)
+        for expected in ("phase", "delay", "phase difference", "level difference"):
+            await pilot.press("v")
+            assert app.view == expected
+        assert plot.data.title.startswith("woofer - tweeter near 2.4 kHz")
+        assert "woofer - tweeter level" in screen_text(app)
+
+
+async def test_settings_refuse_a_rate_that_puts_filters_above_nyquist():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await pilot.press("e")
+        await pilot.pause()
+        assert isinstance(app.screen, SettingsScreen)
+        assert app.focused.id == "settings-sample_rate"
+        await pilot.press(*"8k", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert "refused: 8000 Hz puts 1 filter(s) at or above" in screen_text(app)
+        app.focused.value = ""
+        await pilot.press(*"96k", "enter")
+        await settle(app, pilot)
+        assert app.project.sample_rate == 96000
+        assert app.report.project.sample_rate == 96000
+        await pilot.press("escape")
+        await pilot.pause()
+        assert "96 kHz" in screen_text(app)
+
+
+async def test_selecting_a_warning_selects_its_filter():
+    proj = presets_lib.load("two-way")
+    from planner import edits
+    proj = edits.set_filter_params(proj, 1, 1, gain_db=8.0)   # a boost above 6 dB warns
+    app = CrossplanApp(proj, None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        boost = [w for w in app.report.warnings if w.code == "boost"]
+        assert boost and (boost[0].band, boost[0].filter) == (1, 1)
+        await pilot.press("w")
+        wl = app.query_one("#warnings")
+        assert app.focused is wl
+        codes = [w.code for w in app.report.warnings]
+        wl.highlighted = codes.index("boost")
+        await pilot.press("enter")
+        await pilot.pause()
+        assert (app.band_i, app.filter_i) == (1, 1)
+        assert wl is not app.focused
+
+
+async def test_help_lists_keys_and_the_safety_note():
+    app = make_app()
+    async with app.run_test(size=(100, 60)) as pilot:
+        await settle(app, pilot)
+        await pilot.press("f1")
+        await pilot.pause()
+        await pilot.pause()
+        assert isinstance(app.screen, HelpScreen)
+        shown = screen_text(app)
+        assert "KEYS" in shown and "Undo" in shown
+        help_text = str(app.screen.query_one("#help-text").render())
+        assert SAFETY_NOTE in help_text           # start low, protect tweeters, limits, rules
+        # key names are shown as text, not read as markup ("[" moves up)
+        assert any(line.split()[:3] == ["[", "Move", "up"] for line in help_text.splitlines()
+                   if line.strip())
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, HelpScreen)
+
+
+async def test_command_palette_runs_an_action():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("ctrl+p")
+        await pilot.pause()
+        await pilot.press(*"Invert band")
+        await pilot.pause(0.5)
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.bands[0].invert
+
+
+async def test_resize_and_no_horizontal_scroll():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        for size in ((120, 40), (80, 24), (60, 20), (80, 24)):
+            await pilot.resize_terminal(*size)
+            await pilot.pause()
+            side = app.query_one("#side")
+            assert side.max_scroll_x == 0
+            lines = screen_text(app).splitlines()
+            assert len(lines) == size[1] and all(len(line) <= size[0] for line in lines)
+
+
+async def test_no_color_plots_plain_text(monkeypatch):
+    monkeypatch.setenv("NO_COLOR", "1")
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        plot = app.query_one(PlotView)
+        assert plot.color is False
+        rendered = plot.render()
+        assert not rendered.spans and "\x1b" not in rendered.plain

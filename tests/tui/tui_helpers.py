@@ -1,0 +1,13 @@
+"""Helpers for driving the editor headless with Textual's Pilot."""
+
+
+def screen_text(app) -> str:
+    """The text on the app's current screen, line by line (what a person reads)."""
+    return "\n".join(strip.text.rstrip() for strip in app.screen._compositor.render_strips())
+
+
+async def settle(app, pilot) -> None:
+    """Let messages run and the analysis worker finish (other workers may be waiting on a screen)."""
+    await pilot.pause()
+    await app.workers.wait_for_complete([w for w in app.workers if w.group == "analysis"])
+    await pilot.pause()
