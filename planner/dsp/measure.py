@@ -272,13 +272,25 @@ def ir_to_response(ir, fs_hz: float, freqs_hz, t0_samples: float = 0.0):
         raise CrossplanError(f"must be finite frequencies in [0, {fs / 2:g}] Hz (Nyquist)",
                              field="freqs_hz")
     w = 2.0 * np.pi * f / fs
-    n = np.arange(len(h))
+    # Two-level DTFT: with n = k B + m, H(w) = sum_k e^{-jwkB} sum_m h[kB+m] e^{-jwm}.
+    # The inner sums of all K blocks are one matrix product with a (B, F)
+    # table of e^{-jwm}; only (B + K) F complex exponentials are evaluated
+    # instead of N F, with B ~ sqrt(N). Frequencies are taken in blocks to
+    # bound memory; within a block everything is vectorised.
+    n_taps = len(h)
+    b_len = int(np.ceil(np.sqrt(n_taps)))
+    k_len = -(-n_taps // b_len)
+    blocks = np.zeros(k_len * b_len)
+    blocks[:n_taps] = h
+    blocks = blocks.reshape(k_len, b_len)
+    m = np.arange(b_len)
+    k = np.arange(k_len) * b_len
     out = np.empty(len(f), dtype=complex)
-    # Blocks of frequencies keep the (freqs x taps) matrix near 2^21 values;
-    # within a block the DTFT is one matrix-vector product.
-    step = max(1, (1 << 21) // len(h))
+    step = max(1, (1 << 20) // (b_len + k_len))
     for i in range(0, len(f), step):
-        out[i:i + step] = np.exp(-1j * np.outer(w[i:i + step], n)) @ h
+        wb = w[i:i + step]
+        inner = blocks @ np.exp(-1j * np.outer(m, wb))          # (K, F)
+        out[i:i + step] = np.einsum("kf,kf->f", inner, np.exp(-1j * np.outer(k, wb)))
     out *= np.exp(-1j * w * t0_samples)
     mag = 20.0 * np.log10(np.maximum(np.abs(out), 1e-300))
     ph = np.degrees(np.angle(out))

@@ -243,3 +243,23 @@ def test_parse_empty_raises():
 def test_parse_nonpositive_frequency_raises():
     with pytest.raises(CrossplanError, match=r"line 1: frequency 0 Hz must be above 0"):
         parse_response_text("0 1\n")
+
+
+@pytest.mark.parametrize("call, match", [
+    (lambda: harmonic_delay_s(0, 20, 20000, 1.0), r"order: must be a whole number >= 1, not 0"),
+    (lambda: deconvolve_sweep(SWEEP, SWEEP, FS, F1, F2, method="division", full=True),
+     r"full: full=True needs method 'inverse'"),
+    (lambda: deconvolve_sweep([np.nan, 1.0], SWEEP, FS, F1, F2),
+     r"recording: must be a 1-D array of 2 or more finite samples"),
+    (lambda: gate(np.ones(10), 0, 1, 1, 0), r"fs_hz: must be a positive number of Hz, not 0"),
+    (lambda: gate(np.ones(10), FS, -1, 1, 0), r"pre_ms: must be 0 or more ms, not -1.0"),
+    (lambda: ir_to_response(np.ones(4), -5, [1.0]), r"fs_hz: must be a positive number of Hz"),
+    (lambda: format_response_text([1, 2], [0]), r"mag_db: freqs_hz, mag_db and phase_deg must be 1-D of one length"),
+    (lambda: format_response_text([1], [np.inf]), r"mag_db: values must be finite numbers"),
+    (lambda: parse_response_text(b"100 0"), r"text: must be text, not bytes"),
+    (lambda: parse_response_text("100\n"), r"line 1: needs at least 2 columns \(freq_hz mag_db\), got '100'"),
+    (lambda: parse_response_text("100 nan\n"), r"line 1: values must be finite, got '100 nan'"),
+])
+def test_measure_argument_errors(call, match):
+    with pytest.raises(CrossplanError, match=match):
+        call()

@@ -312,3 +312,8 @@ def test_suggest_pre_attenuation_for_boost():
     s = suggest_fixes(peaking(1000, 6.0, 1.4, 48000), "q2.30", 48000,
                       np.geomspace(20, 20000, 1001))
     assert any("attenuate the input by 6.00 dB" in x for x in s)
+
+
+def test_bad_sample_rate_raises():
+    with pytest.raises(ExportError, match=r"fs_hz: must be a positive number of Hz, not 0"):
+        peak_internal_gain_db(FRAGILE, [100.0], 0)

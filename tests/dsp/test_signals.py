@@ -215,3 +215,25 @@ def test_fft_convolve_equals_numpy_convolve():
 def test_fft_convolve_bad_mode_raises():
     with pytest.raises(CrossplanError, match=r"mode: must be 'full', 'same' or 'valid', not 'x'"):
         fft_convolve([1.0], [1.0], mode="x")
+
+
+@pytest.mark.parametrize("call, match", [
+    (lambda: exp_sweep(20, 20000, 1.0, FS, fade_in_s=-0.1),
+     r"fade_in_s: must be 0 or more seconds, not -0.1"),
+    (lambda: impulse(2.5, FS), r"n_samples: must be a whole number of samples >= 1, not 2.5"),
+    (lambda: white_noise(10, -1), r"fs_hz: must be a positive number of Hz, not -1"),
+    (lambda: fft_convolve([], [1.0]), r"x: must be a non-empty 1-D array, not shape \(0,\)"),
+])
+def test_signal_argument_errors(call, match):
+    with pytest.raises(CrossplanError, match=match):
+        call()
+
+
+@pytest.mark.parametrize("kwargs, match", [
+    ({"fs_hz": 0.0}, r"fs_hz: must be a positive number of Hz, not 0.0"),
+    ({"max_seconds": 0.0}, r"max_seconds: must be a positive number of seconds, not 0.0"),
+])
+def test_truncate_argument_errors(kwargs, match):
+    args = {"fs_hz": FS} | kwargs
+    with pytest.raises(ExportError, match=match):
+        truncate_iir_impulse(SOS_LOW, **args)
