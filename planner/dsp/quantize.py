@@ -219,8 +219,7 @@ def pole_radius(sos) -> np.ndarray:
     radius : ndarray, shape (n,)
     """
     sos = np.atleast_2d(np.asarray(sos, dtype=float))
-    a0, a1, a2 = sos[:, 3], sos[:, 4] / sos[:, 3], sos[:, 5] / sos[:, 3]
-    del a0
+    a1, a2 = sos[:, 4] / sos[:, 3], sos[:, 5] / sos[:, 3]
     disc = a1 * a1 - 4.0 * a2
     complex_pair = disc < 0
     root_disc = np.sqrt(np.where(complex_pair, 0.0, disc))
