@@ -98,15 +98,20 @@ def _at(s: Series, f_hz: float) -> float:
     return float(np.interp(np.log10(f_hz), np.log10(x), np.asarray(s.y, float)))
 
 
+def _r1(v: float) -> float:
+    """Rounded to 0.1 without a "-0.0"."""
+    return round(v, 1) + 0.0
+
+
 def readout(d: PlotData) -> str:
-    """``"cursor 2.4 kHz: dB woofer -6.0  tweeter -6.0  sum +0.0"`` (interpolated linearly in log f)."""
+    """``"at 2.4 kHz dB: woofer -6.0 tweeter -6.0 sum +0.0"`` (interpolated linearly in log f)."""
     parts = []
     for s in d.series:
         v = _at(s, d.cursor_hz)
         label = s.label.replace(" (off)", "")
-        parts.append(f"{label} {v:+.1f}" if np.isfinite(v) else f"{label} --")
+        parts.append(f"{label} {_r1(v):+.1f}" if np.isfinite(v) else f"{label} --")
     unit = f" {d.unit}" if d.unit else ""
-    return f"cursor {format_hz(d.cursor_hz)}:{unit} " + "  ".join(parts)
+    return f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
 
 
 def _state(ok: bool) -> str:
@@ -128,7 +133,7 @@ def check_lines(r: Report) -> tuple[str, str, str]:
         x = (f"crossing  {_state(r.phase_ok):<4} {w.phase_diff_deg:+.1f} deg at "
              f"{format_hz(w.freq_hz)} {w.bands[0]}/{w.bands[1]} (limit {a.phase_deg:g} deg)")
     head_ok = all(b.peak_gain_db <= 0.05 for b in r.bands if b.active)
-    heads = ", ".join(f"{b.name} {b.peak_gain_db:+.1f}" + ("" if b.active else " off")
+    heads = ", ".join(f"{b.name} {_r1(b.peak_gain_db):+.1f}" + ("" if b.active else " off")
                       for b in r.bands)
     return s, x, f"headroom  {_state(head_ok):<4} peak dB: {heads}"
 

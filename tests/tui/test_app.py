@@ -282,7 +282,7 @@ async def test_views_cycle_and_the_cursor_reads_values():
         f0 = app.cursor_hz
         await pilot.press("full_stop")
         assert app.cursor_hz == pytest.approx(f0 * 2 ** (1 / 12))
-        assert "cursor 2.54 kHz: dB woofer" in screen_text(app)
+        assert "at 2.54 kHz dB: woofer" in screen_text(app)
         for expected in ("phase", "delay", "phase difference", "level difference"):
             await pilot.press("v")
             assert app.view == expected

@@ -1,0 +1,77 @@
+"""planner.tui.views: what the editor shows, checked against published crossover facts."""
+
+import pytest
+
+from planner import edits, engine, presets_lib, project
+from planner.tui import views
+
+
+def lr4_pair(invert=False, fc=2000.0):
+    return project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": "lr4", "sample_rate": 48000,
+        "analysis": {"f_min": 20, "f_max": 20000, "points": 512},
+        "bands": [
+            {"name": "low", "filters": [{"type": "lowpass", "family": "linkwitz-riley",
+                                          "order": 4, "freq": fc}]},
+            {"name": "high", "invert": invert,
+             "filters": [{"type": "highpass", "family": "linkwitz-riley", "order": 4,
+                          "freq": fc}]}]})
+
+
+def test_readout_at_the_crossover_reads_minus_6_db_per_band_and_flat_sum():
+    # Linkwitz and Riley 1976: each LR4 output is -6.02 dB at the cut-off and the sum is flat.
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "magnitude", 0, 2000.0)
+    assert d.cursor_hz == 2000.0
+    assert views.readout(d) == "at 2 kHz dB: low -6.0 high -6.0 sum +0.0"
+
+
+def test_phase_difference_view_is_zero_for_lr4_in_phase():
+    # Linkwitz and Riley 1976: LR4 low and high outputs are in phase at every frequency.
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "phase difference", 0, 2000.0)
+    (s,) = d.series
+    assert s.x.min() == pytest.approx(500.0, rel=0.02) and s.x.max() == pytest.approx(8000.0,
+                                                                                      rel=0.02)
+    assert abs(s.y).max() < 1e-6   # degrees; float rounding only
+
+
+def test_level_difference_view_crosses_zero_at_the_crossover():
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "level difference", 1, 2000.0)
+    assert views.readout(d) == "at 2 kHz dB: low - high level +0.0"
+
+
+def test_check_lines_read_fail_as_text_for_inverted_lr4():
+    # Linkwitz and Riley 1976: LR4 with one output inverted cancels at the crossover (deep null).
+    r = engine.analyse(lr4_pair(invert=True))
+    s, x, h = views.check_lines(r)
+    assert s.startswith("sum       FAIL")
+    assert x.startswith("crossing  FAIL") and "low/high" in x
+    assert h.startswith("headroom  ok")
+
+
+def test_check_lines_when_all_muted():
+    p = lr4_pair()
+    p = edits.toggle_band(edits.toggle_band(p, 0, "mute"), 1, "mute")
+    s, x, _ = views.check_lines(engine.analyse(p))
+    assert s == "sum       FAIL every band is muted"
+
+
+def test_crossing_pair_prefers_the_selected_bands_crossing():
+    r = engine.analyse(presets_lib.load("three-way"))
+    a, b, fc = views.crossing_pair(r, 2)
+    assert (a, b) == (1, 2) and fc == pytest.approx(3000.0, rel=0.01)
+
+
+def test_unknown_view_is_refused():
+    r = engine.analyse(lr4_pair())
+    with pytest.raises(ValueError, match=r"view must be one of magnitude"):
+        views.plot_data(r, "waterfall", 0, 1000.0)
+
+
+def test_warning_items_point_at_band_and_filter():
+    p = edits.set_filter_params(presets_lib.load("two-way"), 1, 1, gain_db=8.0)
+    items = views.warning_items(engine.analyse(p))
+    boost = [w for w in items if "boost" in w.text]
+    assert boost and (boost[0].band, boost[0].filter) == (1, 1)
