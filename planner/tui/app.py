@@ -103,7 +103,7 @@ class CrossplanApp(App):
     BINDINGS = [
         Binding("ctrl+s", "save", "Save", priority=True),
         Binding("ctrl+z", "undo", "Undo", priority=True),
-        Binding("ctrl+y", "redo", "Redo", priority=True),
+        Binding("ctrl+y", "redo", "Redo", show=False, priority=True),
         Binding("a", "add", "Add"),
         Binding("x,delete", "remove", "Remove"),
         Binding("i", "toggle('invert')", "Invert"),
@@ -167,7 +167,7 @@ class CrossplanApp(App):
                 yield Readout(id="readout")
         yield CheckBar(id="checks")
         yield WarningList(id="warnings")
-        yield Footer()
+        yield Footer(compact=True)
 
     async def on_mount(self) -> None:
         await self.show_project()
@@ -641,7 +641,7 @@ def _parse_field(spec, text: str):
 
 def help_text(app: App) -> str:
     """The help screen: keys from the bindings, how edits work, and the safety cautions."""
-    lines = ["KEYS (also in the command palette, ctrl+p)", ""]
+    lines = ["SAFETY", "  " + SAFETY_NOTE, "", "KEYS (also in the command palette, ctrl+p)", ""]
     seen = set()
     for b in CrossplanApp.BINDINGS:
         keys = ", ".join(app.get_key_display(Binding(k, "")) for k in b.key.split(","))
@@ -674,9 +674,6 @@ def help_text(app: App) -> str:
         "  A new rate redesigns every filter. It is refused, naming them, while any filter",
         "  would be at or above the new Nyquist frequency: lower those filters first, so",
         "  that the project always stays valid and saveable. 'to' is lowered to Nyquist.",
-        "",
-        "SAFETY",
-        "  " + SAFETY_NOTE,
     ]
     return "\n".join(lines)
 

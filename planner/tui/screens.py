@@ -149,6 +149,11 @@ class SettingsScreen(ModalScreen[None]):
             row.set_value(self._text(row.field_name, unit))
         self.refuse(None)
 
+    @on(FieldRow.Restored)
+    def _restored(self, event: FieldRow.Restored) -> None:
+        event.stop()
+        self.refuse(None)
+
     def refuse(self, message: str | None, name: str | None = None) -> None:
         self.query_one("#settings-refusal", Static).update(f"refused: {message}" if message else "")
         for r in self.query(FieldRow):

@@ -144,6 +144,18 @@ class FieldRow(Horizontal):
             if inp.has_focus:
                 inp.select_all()   # the next typing replaces the value
 
+    class Restored(Message):
+        """A typed value was left without being applied: the field shows the project again."""
+
+    @on(Input.Blurred)
+    def _left(self, event: Input.Blurred) -> None:
+        # Leaving a field with a refused or unapplied value shows the value the project holds.
+        event.stop()
+        if event.value.strip() != self._value.strip() or event.input.has_class("-refused"):
+            event.input.value = self._value
+            event.input.remove_class("-refused")
+            self.post_message(self.Restored())
+
     @on(Input.Submitted)
     def _submitted(self, event: Input.Submitted) -> None:
         event.stop()
@@ -178,6 +190,11 @@ class _Form(Vertical):
         else:
             for old, new in zip(box.query(FieldRow), rows):
                 old.set_value(new._value)
+        self.refuse(None)
+
+    @on(FieldRow.Restored)
+    def _restored(self, event: FieldRow.Restored) -> None:
+        event.stop()
         self.refuse(None)
 
     def refuse(self, message: str | None, name: str | None = None) -> None:

@@ -388,3 +388,19 @@ async def test_no_color_plots_plain_text(monkeypatch):
         assert plot.color is False
         rendered = plot.render()
         assert not rendered.spans and "\x1b" not in rendered.plain
+
+
+async def test_leaving_a_refused_field_shows_the_project_value_again():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await goto_freq_field(app, pilot)
+        await pilot.press(*"30k", "enter")
+        await pilot.pause()
+        assert "refused:" in screen_text(app)
+        await pilot.press("escape")           # back to the chain
+        await pilot.pause()
+        assert app.project is p0
+        assert app.query_one("#filter-freq").value == "2.4 kHz"
+        assert "refused:" not in screen_text(app)
