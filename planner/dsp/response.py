@@ -38,6 +38,31 @@ def _omega(freqs_hz: np.ndarray, fs_hz: float) -> np.ndarray:
     return 2.0 * np.pi * np.asarray(freqs_hz, dtype=float) / fs_hz
 
 
+def _basis(w: np.ndarray) -> np.ndarray:
+    """Powers ``[1, z^-1, z^-2]`` on the unit circle as interleaved real/imag rows, shape (3, 2n).
+
+    With this layout a real matrix product of coefficients ``(m, 3) @ basis``
+    is directly the complex value of ``m`` quadratics, seen as a complex view:
+    one BLAS call evaluates every section of every band.
+    """
+    basis = np.empty((3, len(w), 2))
+    basis[0, :, 0], basis[0, :, 1] = 1.0, 0.0
+    basis[1, :, 0], basis[1, :, 1] = np.cos(w), -np.sin(w)
+    basis[2, :, 0], basis[2, :, 1] = np.cos(2 * w), -np.sin(2 * w)
+    return basis.reshape(3, 2 * len(w))
+
+
+def _quadratics(coef: np.ndarray, basis: np.ndarray) -> np.ndarray:
+    """``c0 + c1 z^-1 + c2 z^-2`` for each row of ``coef`` (m, 3): complex, shape (m, n)."""
+    return np.ascontiguousarray(coef @ basis).view(complex)
+
+
+#: Complex values held at once per block (about 1.5 MB) when the derivative
+#: is wanted: its several large temporaries cost more in fresh memory pages
+#: than in arithmetic, so long grids are then evaluated in blocks.
+_BLOCK_VALUES = 98304
+
+
 def sos_response(stacked: np.ndarray, w: np.ndarray, derivative: bool = False):
     """Response of stacked chains at normalised angular frequencies ``w`` (rad/sample).
 
@@ -53,19 +78,48 @@ def sos_response(stacked: np.ndarray, w: np.ndarray, derivative: bool = False):
     h : ndarray, shape (n_bands, n_freqs), complex
     dlog : ndarray, shape (n_bands, n_freqs), complex (only with ``derivative``)
     """
-    z1 = np.exp(-1j * w)                      # z^-1 on the unit circle
-    z2 = z1 * z1
-    b0, b1, b2 = (stacked[..., k, None] for k in (0, 1, 2))
-    a0, a1, a2 = (stacked[..., k, None] for k in (3, 4, 5))
-    num = b0 + b1 * z1 + b2 * z2              # (bands, sections, freqs)
-    den = a0 + a1 * z1 + a2 * z2
-    h = np.prod(num, axis=1) / np.prod(den, axis=1)
+    w = np.asarray(w, dtype=float)
+    nb, ns, _ = stacked.shape
+    block = max(256, _BLOCK_VALUES // max(1, 2 * nb * ns))
+    if not derivative or len(w) <= block:
+        # Without the derivative one pass over the whole grid is fastest.
+        return _sos_block(stacked, w, derivative)
+    parts = [_sos_block(stacked, w[i:i + block], derivative) for i in range(0, len(w), block)]
+    return (np.concatenate([q[0] for q in parts], axis=1),
+            np.concatenate([q[1] for q in parts], axis=1))
+
+
+def _sos_block(stacked: np.ndarray, w: np.ndarray, derivative: bool):
+    """:func:`sos_response` on one block of frequencies."""
+    nb, ns, _ = stacked.shape
+    nf = len(w)
+    basis = _basis(np.asarray(w, dtype=float))
+    # Numerator and denominator coefficients of section k of every band: (ns, 2 nb, 3).
+    coef = np.concatenate([stacked[:, :, 0:3], stacked[:, :, 3:6]]).transpose(1, 0, 2)
+    # The chain is multiplied section by section: a loop over sections,
+    # never over frequencies.
+    # Every numerator and denominator of every band in one matrix product.
+    z = _quadratics(coef.reshape(-1, 3), basis).reshape(ns, 2 * nb, nf)
+    p = z[0].copy()
     if not derivative:
-        return h
-    dnum = -1j * (b1 * z1 + 2.0 * b2 * z2)
-    dden = -1j * (a1 * z1 + 2.0 * a2 * z2)
+        for k in range(1, ns):
+            p *= z[k]
+        return p[:nb] / p[nb:]
+    # With the derivative, the product rule is carried along the chain
+    # (P' <- P' z_k + P z_k'), so no per-section division is needed.
+    # d/dw (c0 + c1 e^-jw + c2 e^-2jw) = -j (c1 e^-jw + 2 c2 e^-2jw)
+    dz = _quadratics((coef * np.array([0.0, 1.0, 2.0])).reshape(-1, 3), basis)
+    dz = dz.reshape(ns, 2 * nb, nf)
+    dp = dz[0].copy()
+    for k in range(1, ns):
+        dp *= z[k]
+        t = dz[k] * p
+        dp += t
+        p *= z[k]
+    dp *= -1j
+    h = p[:nb] / p[nb:]
     with np.errstate(divide="ignore", invalid="ignore"):
-        dlog = np.sum(dnum / num - dden / den, axis=1)
+        dlog = dp[:nb] / p[:nb] - dp[nb:] / p[nb:]
     return h, dlog
 
 
@@ -94,11 +148,19 @@ class BandResponses:
         d(ln h)/dw per band (w in rad/sample).
     """
 
-    def __init__(self, freqs_hz, h, dlog, fs_hz):
+    def __init__(self, freqs_hz, h, fs_hz, dlog_fn):
         self.freqs_hz = freqs_hz
         self.h = h
-        self.dlog = dlog
         self.fs_hz = fs_hz
+        self._dlog_fn = dlog_fn
+        self._dlog = None
+
+    @property
+    def dlog(self) -> np.ndarray:
+        """d(ln h)/dw per band, computed on first use (only group delay needs it)."""
+        if self._dlog is None:
+            self._dlog = self._dlog_fn()
+        return self._dlog
 
     def sum(self, active: Sequence[bool] | None = None) -> np.ndarray:
         """Complex sum of the active bands."""
@@ -154,17 +216,27 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
     freqs_hz = np.asarray(freqs_hz, dtype=float)
     nb = len(sos_list)
     w = _omega(freqs_hz, fs_hz)
-    h, dlog = sos_response(stack_sos(sos_list), w, derivative=True)
+    stacked = stack_sos(sos_list)
+    h = sos_response(stacked, w)
     g = 10.0 ** (np.asarray(gains_db if gains_db is not None else np.zeros(nb), float) / 20.0)
     if invert is not None:
         g = g * np.where(np.asarray(invert, bool), -1.0, 1.0)
     d = np.asarray(delays_samples if delays_samples is not None else np.zeros(nb), float)
-    h = h * g[:, None] * np.exp(-1j * np.outer(d, w))
-    dlog = dlog - 1j * d[:, None]
+    if np.any(d):
+        h = h * (g[:, None] * np.exp(-1j * np.outer(d, w)))
+    else:
+        h = h * g[:, None]
+    fir_h = {}
     if firs is not None:
         for i, taps in enumerate(firs):
             if taps is not None:
-                hf, lf = poly_response(taps, w, derivative=True)
-                h[i] *= hf
-                dlog[i] += lf
-    return BandResponses(freqs_hz, h, dlog, fs_hz)
+                fir_h[i] = poly_response(taps, w)
+                h[i] *= fir_h[i]
+
+    def dlog():
+        out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
+        for i in fir_h:
+            out[i] += poly_response(firs[i], w, derivative=True)[1]
+        return out
+
+    return BandResponses(freqs_hz, h, fs_hz, dlog)

@@ -1,0 +1,84 @@
+"""Time the analysis of a 4-band project (12 sections per band, 4096 points).
+
+Baseline, in the same process: scipy.signal.sosfreqz called band by band on
+the same grid (the plain way to get the band responses, before any check).
+Prints the time of each and the ratio baseline / crossplan (above 1: faster).
+
+Run:  python benchmarks/bench_check.py
+"""
+
+from __future__ import annotations
+
+import time
+
+import numpy as np
+from scipy import signal
+
+from planner import engine, project
+
+
+def four_band_project(points: int = 4096) -> dict:
+    """4 bands x 12 sections: LR8 crossovers plus EQ (each LR8 = 4 sections)."""
+    xo = [120.0, 900.0, 4500.0]
+
+    def lr8(kind, f):
+        return {"type": kind, "family": "linkwitz-riley", "order": 8, "freq": f}
+
+    def eq(n, base):
+        return [{"type": "peaking", "freq": base * (1.3 ** i), "gain_db": -1.0, "q": 2.0}
+                for i in range(n)]
+
+    bands = [
+        {"name": "sub", "filters": [lr8("lowpass", xo[0])] + eq(8, 40)},
+        {"name": "low", "filters": [lr8("highpass", xo[0]), lr8("lowpass", xo[1])] + eq(4, 200)},
+        {"name": "mid", "filters": [lr8("highpass", xo[1]), lr8("lowpass", xo[2])] + eq(4, 1200)},
+        {"name": "high", "filters": [lr8("highpass", xo[2])] + eq(8, 2500)},
+    ]
+    return {"format": "crossplan-project", "version": 1, "name": "bench", "sample_rate": 48000,
+            "analysis": {"f_min": 20, "f_max": 20000, "points": points}, "bands": bands}
+
+
+def best(fn, repeat=30):
+    fn()
+    times = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        times.append(time.perf_counter() - t)
+    return min(times)
+
+
+def main() -> None:
+    proj = project.from_dict(four_band_project())
+    designs = [engine.design_band(b, proj.sample_rate) for b in proj.bands]
+    assert all(d.n_sections == 12 for d in designs), [d.n_sections for d in designs]
+    freqs = engine._grid(proj)
+
+    def baseline():
+        return [signal.sosfreqz(d.sos, worN=freqs, fs=proj.sample_rate)[1] for d in designs]
+
+    def responses():
+        return engine.evaluate(designs, freqs, proj.sample_rate)
+
+    def responses_gd():
+        r = engine.evaluate(designs, freqs, proj.sample_rate)
+        return r.group_delay_samples(), r.sum_group_delay_samples()
+
+    def full_check():
+        return engine.analyse(proj).to_dict()  # to_dict includes the sum's group delay
+
+    # The two give the same responses (apart from band gain, which is 0 dB here).
+    np.testing.assert_allclose(responses().h, np.array(baseline()), rtol=1e-9, atol=1e-15)
+    tb, tr, tg, tc = best(baseline), best(responses), best(responses_gd), best(full_check)
+    print(f"grid points: {len(freqs)}, bands: 4, sections per band: 12")
+    print(f"baseline: scipy.signal.sosfreqz per band        {tb * 1e3:7.2f} ms")
+    print(f"responses of all bands                          {tr * 1e3:7.2f} ms"
+          f"  baseline/this = {tb / tr:5.2f}")
+    print(f"responses + exact group delay (bands and sum)   {tg * 1e3:7.2f} ms"
+          f"  baseline/this = {tb / tg:5.2f}")
+    print(f"full check to JSON (crossings, group delay, ...) {tc * 1e3:7.2f} ms"
+          f"  baseline/this = {tb / tc:5.2f}")
+
+
+if __name__ == "__main__":
+    main()

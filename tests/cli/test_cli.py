@@ -1,0 +1,105 @@
+"""The command line, driven in-process through planner.cli.main."""
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from planner.cli import main
+from tests.conftest import two_way
+
+
+def test_check_ok_exit_0(write_project, capsys):
+    assert main(["check", str(write_project(two_way(4)))]) == 0
+    out = capsys.readouterr().out
+    assert "result     ok: all checks pass" in out
+
+
+def test_check_fail_exit_1(write_project, capsys):
+    assert main(["check", str(write_project(two_way(2)))]) == 1
+    assert "try inverting one" in capsys.readouterr().out
+
+
+def test_check_invalid_exit_2_without_traceback(write_project, capsys, example):
+    example["bands"][1]["filters"][0]["freq"] = 30000
+    assert main(["check", str(write_project(example))]) == 2
+    err = capsys.readouterr().err
+    assert err.strip() == ("crossplan: bands[1].filters[0].freq: 30000 Hz is above Nyquist "
+                           "(24000 Hz) for sample_rate 48000")
+    assert "Traceback" not in err
+
+
+def test_check_json(write_project, capsys):
+    assert main(["check", str(write_project(two_way(4))), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["ok"] is True and d["sample_rate"] == 48000
+    assert d["crossovers"][0]["bands"] == ["low", "high"]
+    assert abs(d["sum"]["max_dev_db"]) < 1e-6
+
+
+def test_check_json_all_muted_has_no_nan(write_project, capsys):
+    d = two_way(4)
+    for b in d["bands"]:
+        b["mute"] = True
+    assert main(["check", str(write_project(d)), "--json"]) == 1
+    assert json.loads(capsys.readouterr().out)["sum"]["max_dev_db"] is None
+
+
+def test_plot_no_color(write_project, capsys, monkeypatch):
+    monkeypatch.setenv("NO_COLOR", "1")
+    assert main(["plot", str(write_project(two_way(4))), "--width", "70", "--height", "18"]) == 0
+    out = capsys.readouterr().out
+    assert "\x1b[" not in out
+    assert "1k" in out and "Hz" in out
+    assert max(len(line) for line in out.splitlines()) <= 70
+
+
+@pytest.mark.parametrize("view", ["phase", "delay"])
+def test_plot_views(write_project, capsys, view):
+    assert main(["plot", str(write_project(two_way(4))), "--view", view, "--no-color"]) == 0
+    assert view in capsys.readouterr().out
+
+
+def test_presets_lists_at_least_three(capsys):
+    assert main(["presets"]) == 0
+    lines = capsys.readouterr().out.strip().splitlines()
+    assert len(lines) >= 3
+
+
+def test_new_writes_preset_and_refuses_overwrite(tmp_path, capsys):
+    out = tmp_path / "mine.json"
+    assert main(["new", str(out), "--preset", "three-way"]) == 0
+    assert main(["check", str(out)]) == 0
+    assert main(["new", str(out), "--preset", "three-way"]) == 2
+    assert "exists already" in capsys.readouterr().err
+
+
+def test_new_unknown_preset(tmp_path, capsys):
+    assert main(["new", str(tmp_path / "x.json"), "--preset", "nope"]) == 2
+    assert "no preset called 'nope'" in capsys.readouterr().err
+
+
+def test_usage_error_exit_2(capsys):
+    assert main(["check"]) == 2
+
+
+def test_check_does_not_import_textual(tmp_path):
+    # The non-UI commands must not load the UI toolkit (start-up time, headless boxes).
+    code = ("import sys; from planner.cli import main; "
+            "rc = main(['check', sys.argv[1]]); "
+            "print('TEXTUAL' if any(m.startswith('textual') for m in sys.modules) else 'CLEAN')")
+    p = tmp_path / "p.json"
+    p.write_text(json.dumps(two_way(4)))
+    out = subprocess.run([sys.executable, "-c", code, str(p)], capture_output=True, text=True,
+                         cwd=str(__import__("pathlib").Path(__file__).parents[2]))
+    assert out.stdout.strip().endswith("CLEAN"), out.stderr
+
+
+def test_python_dash_m(tmp_path):
+    p = tmp_path / "p.json"
+    p.write_text(json.dumps(two_way(2)))
+    out = subprocess.run([sys.executable, "-m", "planner", "check", str(p)],
+                         capture_output=True, text=True,
+                         cwd=str(__import__("pathlib").Path(__file__).parents[2]))
+    assert out.returncode == 1

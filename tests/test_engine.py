@@ -1,0 +1,150 @@
+"""Project-level checks: sums, crossings, floor, headroom, warnings, mute and solo."""
+
+import numpy as np
+import pytest
+
+from planner import engine, project
+from planner.presets_lib import load as load_preset, names as preset_names
+from tests.conftest import two_way
+
+
+def analyse(d):
+    return engine.analyse(project.from_dict(d))
+
+
+def test_lr4_pair_passes_flat_and_in_phase():
+    # Linkwitz 1976: LR4 sums to an all-pass: flat, in phase at the crossover.
+    r = analyse(two_way(4))
+    assert r.ok
+    assert abs(r.max_dev_db) < 1e-6
+    [c] = r.checked_crossings
+    assert c.bands == ("low", "high")
+    assert c.freq_hz == pytest.approx(2000, rel=1e-6)
+    assert c.phase_diff_deg == pytest.approx(0, abs=1e-3)
+    assert c.level_db == pytest.approx(-6.02, abs=0.01)
+
+
+def test_lr2_not_inverted_fails_with_hint():
+    # Linkwitz 1976: LR2 outputs are 180 deg apart; the sum nulls at fc.
+    r = analyse(two_way(2))
+    assert not r.ok and not r.flat_ok and not r.phase_ok
+    assert abs(r.checked_crossings[0].phase_diff_deg) == pytest.approx(180, abs=1e-3)
+    assert any("180 deg apart at 2 kHz: try inverting one" in w.text for w in r.warnings)
+
+
+def test_lr2_inverted_passes():
+    r = analyse(two_way(2, invert=True))
+    assert r.ok
+    assert abs(r.max_dev_db) < 1e-6
+
+
+def test_butterworth3_sums_flat_but_fails_phase():
+    # Odd-order Butterworth: flat magnitude, outputs 90 deg apart (Linkwitz 1976).
+    r = analyse(two_way(3, family="butterworth"))
+    assert r.flat_ok and not r.phase_ok
+    assert abs(r.checked_crossings[0].phase_diff_deg) == pytest.approx(90, abs=1e-3)
+    assert any("90 deg apart" in w.text for w in r.warnings)
+
+
+def test_crossing_below_floor_is_information_only():
+    # Woofer (LR4 at 300 Hz) meets the tweeter (LR4 at 4 kHz) far down: listed, never failing.
+    d = two_way(4, fc=300)
+    d["bands"].append({"name": "top", "filters": [
+        {"type": "highpass", "family": "linkwitz-riley", "order": 4, "freq": 4000}]})
+    d["bands"][1]["filters"].append({"type": "lowpass", "family": "linkwitz-riley",
+                                     "order": 4, "freq": 4000})
+    r = analyse(d)
+    low_top = [c for c in r.crossings if c.bands == ("low", "top")]
+    assert low_top and all(not c.checked and c.ok for c in low_top)
+    assert low_top[0].level_db < -20
+    assert all(c.bands != ("low", "top") for c in r.checked_crossings)
+
+
+def test_floor_setting_moves_the_line():
+    d = two_way(4)
+    d["analysis"]["crossing_floor_db"] = -3.0  # the -6 dB crossing is now below the floor
+    r = analyse(d)
+    assert r.checked_crossings == [] and r.crossings[0].checked is False
+
+
+def test_muted_band_left_out_of_sum():
+    d = two_way(4)
+    d["bands"][1]["mute"] = True
+    r = analyse(d)
+    np.testing.assert_allclose(r.sum_h, r.responses.h[0])
+    assert r.crossings == []
+    assert not r.flat_ok  # the lowpass alone is not flat
+
+
+def test_solo_sums_only_soloed():
+    d = two_way(4)
+    d["bands"][0]["solo"] = True
+    r = analyse(d)
+    assert r.active == [True, False]
+
+
+def test_all_muted_fails_plainly():
+    d = two_way(4)
+    for b in d["bands"]:
+        b["mute"] = True
+    r = analyse(d)
+    assert not r.ok
+    assert r.warnings[0].text == "every band is muted: nothing is summed"
+
+
+def test_headroom_and_boost_warning():
+    d = two_way(4)
+    d["bands"][0]["filters"].append({"type": "peaking", "freq": 100, "gain_db": 9.0, "q": 2})
+    r = analyse(d)
+    assert r.bands[0].peak_gain_db == pytest.approx(9.0, abs=0.05)  # cookbook: gain at f0
+    codes = {w.code for w in r.warnings}
+    assert {"headroom", "boost"} <= codes
+    boost = next(w for w in r.warnings if w.code == "boost")
+    assert (boost.band, boost.filter) == (0, 1)
+
+
+def test_shallow_tweeter_highpass_warns():
+    d = two_way(1, family="butterworth", fc=3000)
+    r = analyse(d)
+    assert any(w.code == "shallow-highpass" and w.band == 1 for w in r.warnings)
+
+
+def test_band_delay_shifts_crossing_phase():
+    # A delay of d ms turns the phase at f by -360 f d / 1000 deg (pure delay).
+    d = two_way(4)
+    d["bands"][1]["delay_ms"] = 0.05
+    r = analyse(d)
+    c = r.checked_crossings[0]
+    # the crossing itself stays at 2 kHz (magnitudes unchanged)
+    assert c.freq_hz == pytest.approx(2000, rel=1e-6)
+    assert c.phase_diff_deg == pytest.approx(360 * 2000 * 0.05e-3, abs=1e-3)
+
+
+def test_group_delay_of_lr4_sum_is_positive_and_finite():
+    r = analyse(two_way(4))
+    gd = r.sum_group_delay_ms()
+    assert np.all(np.isfinite(gd)) and gd.min() > 0
+
+
+def test_json_shape(example):
+    r = engine.analyse(project.from_dict(example))
+    d = r.to_dict()
+    assert set(d) >= {"ok", "sample_rate", "sum", "crossovers", "bands", "warnings"}
+    assert set(d["sum"]) >= {"max_dev_db", "at_hz"}
+    assert set(d["crossovers"][0]) >= {"bands", "freq_hz", "phase_diff_deg", "level_db", "ok"}
+    assert d["crossovers"][0]["bands"] == ["woofer", "tweeter"]
+    assert set(d["bands"][0]) >= {"name", "peak_gain_db"}
+
+
+def test_design_cache_returns_read_only_arrays(example):
+    p = project.from_dict(example)
+    d = engine.design_filter(p.bands[0].filters[0], 48000)
+    assert engine.design_filter(p.bands[0].filters[0], 48000) is d
+    with pytest.raises(ValueError):
+        d.sos[0, 0] = 1.0
+
+
+@pytest.mark.parametrize("name", preset_names())
+def test_every_preset_loads_and_passes(name):
+    r = engine.analyse(load_preset(name))
+    assert r.ok, [w.text for w in r.warnings]

@@ -1,0 +1,140 @@
+"""Project files: the JSON contract, round trips, unknown keys, bad input, atomic saves."""
+
+import json
+import os
+
+import pytest
+
+from planner import project
+from planner.errors import ProjectError
+
+
+def test_example_loads(example):
+    p = project.from_dict(example)
+    assert [b.name for b in p.bands] == ["woofer", "tweeter"]
+    assert p.bands[1].filters[1].params == {"freq": 6000.0, "gain_db": -2.0, "q": 1.4}
+    assert p.analysis.crossing_floor_db == -20.0  # documented default
+
+
+def test_round_trip_equal(example):
+    p = project.from_dict(example)
+    assert project.loads(project.dumps(p)) == p
+
+
+def test_unknown_keys_kept_at_every_level(example):
+    example["future_top"] = {"x": [1, 2]}
+    example["analysis"]["smoothing"] = "1/6 oct"
+    example["bands"][0]["driver_offset_mm"] = 12
+    example["bands"][0]["filters"][0]["note"] = "subsonic"
+    out = json.loads(project.dumps(project.from_dict(example)))
+    assert out["future_top"] == {"x": [1, 2]}
+    assert out["analysis"]["smoothing"] == "1/6 oct"
+    assert out["bands"][0]["driver_offset_mm"] == 12
+    assert out["bands"][0]["filters"][0]["note"] == "subsonic"
+
+
+def test_driver_kept(example):
+    example["bands"][0]["driver"] = {"file": "woofer.frd", "offset_mm": 30}
+    p = project.from_dict(example)
+    assert json.loads(project.dumps(p))["bands"][0]["driver"] == {"file": "woofer.frd",
+                                                                  "offset_mm": 30}
+
+
+@pytest.mark.parametrize("mutate, message", [
+    (lambda d: d["bands"][1]["filters"].__setitem__(0, {"type": "highpass",
+                                                        "family": "butterworth", "order": 2,
+                                                        "freq": 30000}),
+     r"^bands\[1\]\.filters\[0\]\.freq: 30000 Hz is above Nyquist \(24000 Hz\) for "
+     r"sample_rate 48000$"),
+    (lambda d: d["bands"][0]["filters"][0].pop("freq"),
+     r"^bands\[0\]\.filters\[0\]\.freq: missing"),
+    (lambda d: d["bands"][0].__setitem__("gain_db", "loud"),
+     r"^bands\[0\]\.gain_db: must be a number, not 'loud'"),
+    (lambda d: d["bands"][1]["filters"][1].__setitem__("q", 0),
+     r"^bands\[1\]\.filters\[1\]\.q: Q must be above 0, not 0"),
+    (lambda d: d["bands"][1]["filters"][1].__setitem__("q", -1.5),
+     r"^bands\[1\]\.filters\[1\]\.q: Q must be above 0, not -1.5"),
+    (lambda d: d["bands"][0]["filters"][1].__setitem__("order", 5),
+     r"^bands\[0\]\.filters\[1\]\.order: 5 is out of range \(allowed: 2, 4, 6, 8\)"),
+    (lambda d: d["bands"][0]["filters"][0].__setitem__("order", 12),
+     r"^bands\[0\]\.filters\[0\]\.order: 12 is out of range"),
+    (lambda d: d["bands"][0]["filters"][0].__setitem__("freq", float("nan")),
+     r"^bands\[0\]\.filters\[0\]\.freq: must be a finite number, not nan"),
+    (lambda d: d["bands"][0]["filters"][0].__setitem__("type", "wobble"),
+     r"^bands\[0\]\.filters\[0\]\.type: unknown filter type 'wobble'; known types: "),
+    (lambda d: d["bands"][0]["filters"][0].__setitem__("family", "chebyshev"),
+     r"^bands\[0\]\.filters\[0\]\.family: unknown highpass family 'chebyshev'"),
+    (lambda d: d.__setitem__("version", 2),
+     r"^version: 2 is newer than this crossplan reads \(1\); update crossplan"),
+    (lambda d: d.__setitem__("format", "something-else"),
+     r"^format: must be 'crossplan-project'"),
+    (lambda d: d.pop("sample_rate"), r"^sample_rate: missing"),
+    (lambda d: d["analysis"].__setitem__("f_max", 30000),
+     r"^analysis\.f_max: 30000 Hz is above Nyquist \(24000 Hz\)"),
+    (lambda d: d["bands"][1].__setitem__("name", "woofer"),
+     r"^bands\[1\]\.name: 'woofer' is the name of bands\[0\] already"),
+    (lambda d: d["bands"][0].__setitem__("invert", "yes"),
+     r"^bands\[0\]\.invert: must be true or false, not 'yes'"),
+    (lambda d: d.__setitem__("bands", []), r"^bands: must be a non-empty list"),
+    (lambda d: d["bands"][0]["filters"][0].__setitem__("freq", True),
+     r"^bands\[0\]\.filters\[0\]\.freq: must be a number, not True"),
+    (lambda d: d["bands"][0].__setitem__("delay_ms", -1),
+     r"^bands\[0\]\.delay_ms: -1 ms must be at least 0 ms"),
+])
+def test_bad_input_names_the_field(example, mutate, message):
+    mutate(example)
+    with pytest.raises(ProjectError, match=message):
+        project.from_dict(example)
+
+
+def test_nan_in_json_text_is_refused(example):
+    text = json.dumps(example).replace('"freq": 35', '"freq": NaN')
+    with pytest.raises(ProjectError, match=r"freq: must be a finite number, not nan"):
+        project.loads(text)
+
+
+def test_invalid_json_names_line():
+    with pytest.raises(ProjectError, match=r"^file: not valid JSON: .* line 1 column"):
+        project.loads("{nope")
+
+
+def test_missing_file():
+    with pytest.raises(ProjectError, match=r"^file: no such file"):
+        project.load("/nonexistent/x.json")
+
+
+def test_save_is_atomic_when_interrupted(example, tmp_path, monkeypatch):
+    # A crash between writing and renaming leaves the old file whole and no temp file.
+    path = tmp_path / "p.json"
+    p = project.from_dict(example)
+    project.save(p, path)
+    before = path.read_bytes()
+
+    def boom(*a, **k):
+        raise OSError("disk full")
+
+    monkeypatch.setattr(os, "replace", boom)
+    with pytest.raises(OSError, match="disk full"):
+        project.save(p.with_band(0, p.bands[0].__class__(name="other")), path)
+    assert path.read_bytes() == before
+    assert [f.name for f in tmp_path.iterdir()] == ["p.json"]
+
+
+def test_save_writes_loadable_file(example, tmp_path):
+    path = tmp_path / "out.json"
+    p = project.from_dict(example)
+    project.save(p, path)
+    assert project.load(path) == p
+
+
+def test_shelf_q_and_slope_both_refused(example):
+    example["bands"][1]["filters"].append({"type": "low_shelf", "freq": 100, "gain_db": 3,
+                                           "q": 0.7, "slope": 1})
+    with pytest.raises(ProjectError, match=r"filters\[2\]\.slope: give q or slope, not both"):
+        project.from_dict(example)
+
+
+def test_allpass_second_order_needs_q(example):
+    example["bands"][1]["filters"].append({"type": "allpass", "freq": 1000})
+    with pytest.raises(ProjectError, match=r"filters\[2\]\.q: missing; a second-order all-pass"):
+        project.from_dict(example)
