@@ -70,6 +70,23 @@ def downsample_log(x: np.ndarray, y: np.ndarray, n: int) -> tuple[np.ndarray, np
     return x[keep], y[keep]
 
 
+def nice_ticks(lo: float, hi: float, max_ticks: int) -> list[float]:
+    """Round tick values (steps of 1, 2, 3, 5, 6 x 10^k) covering [lo, hi], at most ``max_ticks``."""
+    span = hi - lo
+    if not np.isfinite(span) or span <= 0 or max_ticks < 2:
+        return [lo, hi] if np.isfinite(span) else []
+    raw = span / (max_ticks - 1)
+    mag = 10.0 ** np.floor(np.log10(raw))
+    step = next(m * mag for m in (1, 2, 3, 5, 6, 10, 20) if m * mag >= raw)
+    first = np.ceil(lo / step) * step
+    ticks = np.arange(first, hi + step * 1e-9, step)
+    return [float(round(t, 10)) + 0.0 for t in ticks]
+
+
+def _tick_text(v: float) -> str:
+    return f"{v:g}"
+
+
 def _setup(plt, width: int, height: int, color: bool, title: str | None):
     plt.clear_figure()
     plt.plotsize(max(width, 20), max(height, 6))
@@ -142,6 +159,11 @@ def freq_plot(series: Sequence[Series], width: int = 80, height: int = 20,
         plt.hline(hline, "gray" if color else None)
     if ylim is not None:
         plt.ylim(*ylim)
+        if ylabel == "deg" and tuple(ylim) == (-180.0, 180.0):
+            ticks = [-180.0, -90.0, 0.0, 90.0, 180.0]
+        else:
+            ticks = nice_ticks(ylim[0], ylim[1], max(2, (height - 4) // 3))
+        plt.yticks(ticks, [_tick_text(t) for t in ticks])
     plt.xlabel("Hz")
     plt.ylabel(ylabel)
     return _finish(plt, color)
