@@ -13,7 +13,6 @@ Run:  python benchmarks/bench_tui.py
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 from rich.text import Text
@@ -22,7 +21,7 @@ from scipy import signal
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from bench_check import four_band_project  # noqa: E402
+from bench_check import best as best_s, four_band_project  # noqa: E402
 
 from planner import edits, engine, project  # noqa: E402
 from planner.plots import freq_plot  # noqa: E402
@@ -30,13 +29,8 @@ from planner.tui import views  # noqa: E402
 
 
 def best(fn, repeat=20):
-    fn()
-    times = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return min(times) * 1000.0
+    """Best of ``repeat`` runs, in ms."""
+    return best_s(fn, repeat) * 1000.0
 
 
 def main() -> None:
