@@ -337,3 +337,4 @@ register(FilterKind(
               + (f" Q{p['q']:.2g}" if p["order"] == 2 else ""),
     check=_allpass_check,
 ))
+from planner import filters_raw  # noqa: E402,F401
