@@ -1,0 +1,56 @@
+"""``crossplan export FILE --rate R [...] --format F --out DIR [--arith A]``: coefficients for a DSP.
+
+Exit 0 when written and every check passes, 1 when the files are written
+but a check fails at some rate, or when the target arithmetic cannot hold
+the design (then nothing is written), 2 for invalid input (a filter at or
+above a rate's Nyquist frequency, a bad format name, ...).
+"""
+
+from __future__ import annotations
+
+import sys
+
+
+def add_arguments(p, name):
+    from planner.export import FORMATS
+
+    p.add_argument("file", metavar="FILE", help="project file (JSON)")
+    p.add_argument("--rate", type=float, action="append", metavar="HZ",
+                   help="sample rate to export at (repeat for several; default: the project's)")
+    p.add_argument("--format", choices=FORMATS, default="json",
+                   help="json (default), csv, text or wav (impulse response per band)")
+    p.add_argument("--out", required=True, metavar="DIR", help="folder for the files")
+    p.add_argument("--arith", default="float64", metavar="FORMAT",
+                   help="coefficient format of the target: float64 (default), float32 or qM.N "
+                        "(M integer bits including sign), e.g. q1.31, q2.30, q1.23, q1.15")
+    p.add_argument("--negate-feedback", action="store_true",
+                   help="write -a1, -a2 (for engines whose recursion adds the feedback terms)")
+    p.add_argument("--pre-attenuate", action="store_true",
+                   help="lower each band's gain by its peak internal gain (when above 0 dB)")
+
+
+def run(args) -> int:
+    from planner import export
+    from planner.cli.common import load_project
+
+    proj = load_project(args.file)
+    rates = args.rate or [proj.sample_rate]
+    res = export.write_export(proj, rates, args.format, args.out, arith=args.arith,
+                              negate_feedback=args.negate_feedback,
+                              pre_attenuate=args.pre_attenuate, source=args.file)
+    for rx in res.rates:
+        print("\n".join(export.arith_text(rx)))
+    if not res.arith_ok:
+        bad = [(rx, b) for rx in res.rates for b in rx.bands if not b.arith.ok]
+        for rx, b in bad:
+            where = f"section {b.arith.failed_section}" if b.arith.failed_section else "FIR"
+            print(f"crossplan: band {b.name!r} {where}: {rx.arith.name} cannot hold the design "
+                  f"at {rx.fs_hz:g} Hz ({b.arith.reason}); nothing written", file=sys.stderr)
+        return 1
+    for p in res.files + [res.manifest]:
+        print(f"wrote {p}")
+    if not res.checks_ok:
+        failed = ", ".join(f"{rx.fs_hz:g} Hz" for rx in res.rates if not rx.report.ok)
+        print(f"check FAIL at {failed} (see the manifest, or crossplan check)", file=sys.stderr)
+        return 1
+    return 0

@@ -1,0 +1,109 @@
+"""``crossplan export``: exit codes, messages and files, driven through planner.cli.main.
+
+Sources: scipy.io.wavfile (reading the WAVs); numpy polynomial evaluation and
+scipy.signal.sosfreqz (the exported JSON against the design); Oppenheim and
+Schafer 3rd ed. sec. 6.7 (the fragile low-cutoff highpass).
+"""
+
+import json
+
+import numpy as np
+import pytest
+from scipy import signal
+from scipy.io import wavfile
+
+from planner import engine, project
+from planner.cli import main
+from tests.conftest import two_way
+
+FRAGILE = {
+    "format": "crossplan-project", "version": 1, "name": "fragile", "sample_rate": 192000,
+    "analysis": {"f_min": 100},  # the sum (the highpass itself) is flat from here: check ok
+    "bands": [{"name": "sub", "filters": [
+        {"type": "highpass", "family": "butterworth", "order": 8, "freq": 30}]}]}
+
+
+def test_export_json_several_rates(write_project, tmp_path, capsys):
+    path = write_project(two_way())
+    out = tmp_path / "out"
+    assert main(["export", str(path), "--rate", "44100", "--rate", "96000", "--out",
+                 str(out)]) == 0
+    names = sorted(p.name for p in out.iterdir())
+    assert names == ["test-2-way-44100.json", "test-2-way-96000.json", "test-2-way-manifest.json"]
+    d = json.loads((out / "test-2-way-96000.json").read_text())
+    assert d["sample_rate"] == 96000
+    # The 96 kHz file holds the 96 kHz design (not the 48 kHz one): sosfreqz at 96 kHz.
+    f = np.geomspace(20, 20000, 100)
+    z = np.exp(-2j * np.pi * f / 96000)
+    h = np.prod([np.polyval(r[2::-1], z) / np.polyval([r[4], r[3], 1.0], z)
+                 for r in d["bands"][0]["biquads"]], axis=0)
+    ref = signal.sosfreqz(engine.design_band(project.from_dict(two_way()).bands[0], 96000).sos,
+                          worN=f, fs=96000)[1]
+    assert np.max(np.abs(h - ref)) < 1e-9  # float64: 1e-9
+    assert "wrote" in capsys.readouterr().out
+
+
+def test_export_default_rate_is_the_projects(write_project, tmp_path):
+    assert main(["export", str(write_project(two_way())), "--out", str(tmp_path)]) == 0
+    assert (tmp_path / "test-2-way-48000.json").exists()
+
+
+@pytest.mark.parametrize("fmt,ext", [("csv", "csv"), ("text", "txt")])
+def test_export_csv_and_text_files(write_project, tmp_path, fmt, ext):
+    assert main(["export", str(write_project(two_way())), "--format", fmt,
+                 "--out", str(tmp_path)]) == 0
+    assert (tmp_path / f"test-2-way-48000.{ext}").exists()
+
+
+def test_export_wav_readable_float32(write_project, tmp_path):
+    assert main(["export", str(write_project(two_way())), "--format", "wav", "--rate", "44100",
+                 "--out", str(tmp_path)]) == 0
+    wavs = sorted(tmp_path.glob("*.wav"))
+    assert [p.name for p in wavs] == ["test-2-way-44100-high.wav", "test-2-way-44100-low.wav"]
+    for p in wavs:
+        rate, h = wavfile.read(p)
+        assert rate == 44100 and h.dtype == np.float32
+
+
+def test_export_nyquist_exit_2_names_band_and_filter(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way(fc=2000))), "--rate", "4000",
+                 "--out", str(tmp_path)]) == 2
+    err = capsys.readouterr().err
+    assert "band 'low', filter 1 (LR4 lowpass 2 kHz) at 4000 Hz" in err
+    assert "Traceback" not in err
+
+
+def test_export_fragile_q1_15_exit_1_names_band_and_section(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(FRAGILE)), "--arith", "q1.15",
+                 "--out", str(tmp_path / "o")]) == 1
+    cap = capsys.readouterr()
+    assert "band 'sub' section 1: q1.15 cannot hold the design at 192000 Hz" in cap.err
+    assert "try: " in cap.out and "integer bits" in cap.out
+    assert not (tmp_path / "o").exists()
+
+
+def test_export_fragile_float64_exit_0(write_project, tmp_path):
+    assert main(["export", str(write_project(FRAGILE)), "--arith", "float64",
+                 "--out", str(tmp_path)]) == 0
+
+
+def test_export_bad_arith_exit_2(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way())), "--arith", "q0.5x",
+                 "--out", str(tmp_path)]) == 2
+    assert "arith: 'q0.5x' is not a known format" in capsys.readouterr().err
+
+
+def test_export_negate_feedback_and_pre_attenuate_keys(write_project, tmp_path):
+    assert main(["export", str(write_project(two_way())), "--negate-feedback", "--pre-attenuate",
+                 "--out", str(tmp_path)]) == 0
+    d = json.loads((tmp_path / "test-2-way-48000.json").read_text())
+    assert d["negated_feedback"] is True and d["denominator"] == "1 - a1 z^-1 - a2 z^-2"
+    m = json.loads((tmp_path / "test-2-way-manifest.json").read_text())
+    assert m["negated_feedback"] is True and m["pre_attenuate"] is True
+
+
+def test_export_check_failure_exit_1_files_written(write_project, tmp_path, capsys):
+    # An LR2 pair without inversion cancels at the crossover: the check fails.
+    assert main(["export", str(write_project(two_way(2))), "--out", str(tmp_path)]) == 1
+    assert "check FAIL at 48000 Hz" in capsys.readouterr().err
+    assert (tmp_path / "test-2-way-manifest.json").exists()
