@@ -27,6 +27,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "plot": ("planner.cli.plot", "plot a project's responses in the terminal"),
     "new": ("planner.cli.presets", "write a new project file from a preset"),
     "presets": ("planner.cli.presets", "list the built-in presets"),
+    "export": ("planner.cli.export", "write per-band coefficients for a DSP, at one or more rates"),
 }
 
 
