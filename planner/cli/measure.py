@@ -1,0 +1,100 @@
+"""``crossplan measure RECORDING.wav --sweep SWEEP.wav --out response.txt``: a response from a sweep.
+
+The recording of the tool's own exponential sweep (``crossplan render --sweep``)
+is deconvolved into an impulse response (Farina, AES 2000), gated around its
+main peak to drop later reflections, and written in the plain-text response
+format (``freq_hz mag_db phase_deg`` lines after ``*`` comments). The sweep's
+f1 and f2 come from the JSON sidecar written beside it (``SWEEP.json``), or
+from ``--f1`` and ``--f2``.
+"""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+
+
+def add_arguments(p, name):
+    p.add_argument("recording", metavar="RECORDING.wav", help="what the microphone recorded")
+    p.add_argument("--sweep", required=True, metavar="SWEEP.wav", help="the sweep as played")
+    p.add_argument("--out", required=True, metavar="FILE", help="response text file to write")
+    p.add_argument("--gate-ms", type=float, default=5.0,
+                   help="window after the main peak, ms; end it before the first reflection "
+                        "(default 5)")
+    p.add_argument("--pre-ms", type=float, default=1.0, help="kept before the peak, ms (default 1)")
+    p.add_argument("--fade-ms", type=float, default=None,
+                   help="half-Hann fade length, ms (default: the smaller of 1 and --gate-ms)")
+    p.add_argument("--f1", type=float, default=None, help="sweep start, Hz (else from SWEEP.json)")
+    p.add_argument("--f2", type=float, default=None, help="sweep end, Hz (else from SWEEP.json)")
+    p.add_argument("--points", type=int, default=400, help="log-spaced output points (default 400)")
+    p.add_argument("--method", choices=("inverse", "division"), default="inverse",
+                   help="inverse filter (default) or regularised spectral division")
+    p.add_argument("--channel", type=int, default=0, help="recording channel, from 0 (default 0)")
+
+
+def _band(args):
+    from planner.errors import CrossplanError
+
+    f1, f2 = args.f1, args.f2
+    side = Path(args.sweep).with_suffix(".json")
+    if (f1 is None or f2 is None) and side.exists():
+        try:
+            meta = json.loads(side.read_text(encoding="utf-8"))
+            f1 = meta["f1_hz"] if f1 is None else f1
+            f2 = meta["f2_hz"] if f2 is None else f2
+        except (OSError, ValueError, KeyError, TypeError) as e:
+            raise CrossplanError(f"cannot read f1_hz and f2_hz from {str(side)!r}: {e}",
+                                 field="sweep") from None
+    if f1 is None or f2 is None:
+        raise CrossplanError(f"no {side.name} beside the sweep: give --f1 and --f2 (Hz)",
+                             field="sweep")
+    return float(f1), float(f2)
+
+
+def _mono(x, channel, field):
+    from planner.errors import CrossplanError
+
+    if x.ndim == 1:
+        return x
+    if not 0 <= channel < x.shape[1]:
+        raise CrossplanError(f"channel {channel} does not exist ({x.shape[1]} channels)",
+                             field=field)
+    return x[:, channel]
+
+
+def run(args) -> int:
+    import numpy as np
+
+    from planner.dsp import measure
+    from planner.errors import CrossplanError
+    from planner.project import atomic_write_text
+    from planner.render import read_wav
+
+    f1, f2 = _band(args)
+    rec, fs = read_wav(args.recording)
+    sweep, fs_s = read_wav(args.sweep)
+    if fs != fs_s:
+        raise CrossplanError(f"the recording is at {fs:g} Hz but the sweep at {fs_s:g} Hz",
+                             field="recording")
+    rec = _mono(rec, args.channel, "channel")
+    sweep = _mono(sweep, 0, "sweep")
+    if args.points < 2:
+        raise CrossplanError(f"must be 2 or more, not {args.points}", field="points")
+    fade = min(1.0, args.gate_ms) if args.fade_ms is None else args.fade_ms
+    ir = measure.deconvolve_sweep(rec, sweep, fs, f1, f2, method=args.method)
+    g = measure.gate(ir, fs, args.pre_ms, args.gate_ms, fade)
+    freqs = np.geomspace(f1, f2, args.points)
+    mag, ph = measure.ir_to_response(g.ir, fs, freqs, t0_samples=g.start - g.peak)
+    lowest = 1000.0 / (args.pre_ms + args.gate_ms)
+    header = [
+        f"crossplan measure: {Path(args.recording).name} deconvolved with {Path(args.sweep).name}",
+        f"sweep {f1:g} - {f2:g} Hz at {fs:g} Hz, method {args.method} (Farina, AES 2000)",
+        f"gate {args.pre_ms:g} ms before the peak to {args.gate_ms:g} ms after, fades "
+        f"{fade:g} ms; peak at {g.peak / fs * 1000:.3f} ms",
+        f"below about {lowest:.0f} Hz (1 / gate length) the response is smoothed by the gate",
+        "phase is referred to the peak; columns: freq_hz mag_db phase_deg",
+    ]
+    atomic_write_text(args.out, measure.format_response_text(freqs, mag, ph, header))
+    print(f"wrote {args.out} (peak at {g.peak / fs * 1000:.3f} ms; trust it above about "
+          f"{lowest:.0f} Hz)")
+    return 0

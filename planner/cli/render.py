@@ -1,0 +1,118 @@
+"""``crossplan render``: run audio, or a test signal of its own, through each band.
+
+``crossplan render FILE IN.wav --out DIR [--rate R ...]`` runs IN through every
+band with the exported (float64, or ``--arith``) coefficients and writes one
+32-bit float WAV per band and their sum. ``crossplan render FILE --sweep|--impulse|
+--noise [--seconds S --rate R --level-db L] --out DIR`` first writes the test
+signal (with, for the sweep, a JSON sidecar holding f1 and f2 for
+``crossplan measure``) and then the bands' outputs.
+"""
+
+from __future__ import annotations
+
+import json
+import sys
+
+#: Default level of the test signals, dBFS (peak for sweep and impulse, RMS for noise).
+DEFAULT_LEVEL_DB = -20.0
+#: Inputs longer than this many seconds get a progress bar (on a terminal).
+PROGRESS_AFTER_S = 5.0
+
+
+def add_arguments(p, name):
+    p.add_argument("file", metavar="FILE", help="project file (JSON)")
+    p.add_argument("input", metavar="IN.wav", nargs="?", help="audio to run through the bands")
+    sig = p.add_mutually_exclusive_group()
+    sig.add_argument("--sweep", action="store_true",
+                     help="write an exponential sine sweep (Farina) and its band outputs")
+    sig.add_argument("--impulse", action="store_true", help="write a unit impulse and the bands' "
+                                                            "impulse responses")
+    sig.add_argument("--noise", action="store_true", help="write pink noise and its band outputs")
+    p.add_argument("--out", required=True, metavar="DIR", help="folder for the WAV files")
+    p.add_argument("--rate", type=float, action="append", metavar="HZ",
+                   help="designed rate(s); the input must be at one of them (default: the "
+                        "project's). For a test signal, its rate (the first one)")
+    p.add_argument("--seconds", type=float, default=None,
+                   help="test signal length in s (default: sweep 5, impulse 1, noise 10)")
+    p.add_argument("--level-db", type=float, default=DEFAULT_LEVEL_DB,
+                   help="test signal level in dBFS: peak for sweep/impulse, RMS for noise "
+                        f"(default {DEFAULT_LEVEL_DB:g})")
+    p.add_argument("--f1", type=float, default=20.0, help="sweep start, Hz (default 20)")
+    p.add_argument("--f2", type=float, default=None,
+                   help="sweep end, Hz (default: 20000 or 0.45 of the rate, the lower)")
+    p.add_argument("--seed", type=int, default=None, help="noise seed (repeatable noise)")
+    p.add_argument("--arith", default="float64", metavar="FORMAT",
+                   help="coefficients rounded to this format first (run in float64)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+
+
+def _test_signal(args, fs):
+    from planner.dsp import signals
+    from planner.errors import CrossplanError
+
+    amp = 10.0 ** (args.level_db / 20.0)
+    if args.level_db > 0:
+        raise CrossplanError(f"{args.level_db:g} dBFS is above full scale", field="level_db")
+    if args.sweep:
+        secs = 5.0 if args.seconds is None else args.seconds
+        f2 = args.f2 if args.f2 is not None else min(20000.0, 0.45 * fs)
+        fade_in, fade_out = min(0.02, secs / 10), min(0.005, secs / 10)
+        x = signals.exp_sweep(args.f1, f2, secs, fs, fade_in, fade_out, amplitude=amp)
+        meta = {"format": "crossplan-sweep", "version": 1, "sample_rate": fs, "f1_hz": args.f1,
+                "f2_hz": f2, "seconds": secs, "fade_in_s": fade_in, "fade_out_s": fade_out,
+                "level_db": args.level_db}
+        return "sweep", x, meta
+    if args.impulse:
+        secs = 1.0 if args.seconds is None else args.seconds
+        return "impulse", signals.impulse(int(round(secs * fs)), fs, amplitude=amp), None
+    secs = 10.0 if args.seconds is None else args.seconds
+    return "noise", signals.pink_noise(int(round(secs * fs)), fs, seed=args.seed, rms=amp), None
+
+
+def run(args) -> int:
+    from planner import export, render
+    from planner.cli.common import load_project
+    from planner.errors import CrossplanError
+    from planner.report import SAFETY_NOTE
+
+    proj = load_project(args.file)
+    rates = args.rate or [proj.sample_rate]
+    testing = args.sweep or args.impulse or args.noise
+    if testing == bool(args.input):
+        raise CrossplanError("give either IN.wav or one of --sweep, --impulse, --noise",
+                             field="input")
+    written = []
+    if testing:
+        fs = float(rates[0])
+        stem, x, meta = _test_signal(args, fs)
+        print(SAFETY_NOTE)
+        p = render.out_path(args.out, f"{stem}.wav")
+        render.write_wav(p, x, fs)
+        written.append(p)
+        if meta is not None:
+            side = p.with_suffix(".json")
+            side.write_text(json.dumps(meta, indent=1) + "\n", encoding="utf-8")
+            written.append(side)
+    else:
+        x, fs_in = render.read_wav(args.input)
+        fs = render.same_rate_or_refuse(fs_in, rates)
+        from pathlib import Path
+
+        stem = Path(args.input).stem
+    rx = export.export_rate(proj, fs, args.arith)
+    bad = [b for b in rx.bands if not b.arith.ok]
+    if bad:
+        print("\n".join(export.arith_text(rx)), file=sys.stderr)
+        return 1
+    show = (not args.quiet and sys.stderr.isatty() and len(x) > PROGRESS_AFTER_S * fs)
+    out = render.render(x, rx, render.text_progress(sys.stderr) if show else None)
+    for name, y in list(out.bands.items()) + [("sum", out.sum)]:
+        p = render.out_path(args.out, f"{stem}-{export.slug(name)}.wav")
+        render.write_wav(p, y, fs)
+        written.append(p)
+    for p in written:
+        print(f"wrote {p}")
+    for name, frac in out.dropped_fraction_samples.items():
+        print(f"note: band {name}: {frac:.3f} of a sample of its delay is not applied "
+              "(whole samples only)")
+    return 0

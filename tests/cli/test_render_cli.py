@@ -1,0 +1,94 @@
+"""``crossplan render``: files, refusals and the safety note, through planner.cli.main.
+
+Sources: scipy.io.wavfile (reading every WAV written); the exported WAV
+impulse responses (``crossplan export --format wav``) as the reference for
+rendered impulses; Farina, AES 2000 (the sweep's sidecar holds f1 and f2).
+"""
+
+import json
+
+import numpy as np
+from scipy.io import wavfile
+
+from planner.cli import main
+from planner.report import SAFETY_NOTE
+from tests.conftest import two_way
+
+
+def test_render_impulse_equals_exported_wav(write_project, tmp_path, capsys):
+    d = two_way()
+    for b in d["bands"]:
+        b["delay_ms"] = 0.5   # 24 samples (both bands: the sum still checks ok)
+    path = str(write_project(d))
+    assert main(["render", path, "--impulse", "--seconds", "1", "--out", str(tmp_path / "r")]) == 0
+    assert SAFETY_NOTE in capsys.readouterr().out
+    assert main(["export", path, "--format", "wav", "--out", str(tmp_path / "e")]) == 0
+    for band in ("low", "high"):
+        rate, y = wavfile.read(tmp_path / "r" / f"impulse-{band}.wav")
+        rate_h, h = wavfile.read(tmp_path / "e" / f"test-2-way-48000-{band}.wav")
+        assert rate == rate_h == 48000 and y.dtype == h.dtype == np.float32
+        # The impulse is at -20 dBFS (0.1): rendered / 0.1 is the impulse response,
+        # equal to float32 rounding of both files (1e-6 of the peak).
+        np.testing.assert_allclose(y[:len(h)] / np.float32(0.1), h, rtol=0,
+                                   atol=1e-6 * np.max(np.abs(h)))
+
+
+def test_render_sweep_writes_sidecar_and_outputs(write_project, tmp_path):
+    out = tmp_path / "s"
+    assert main(["render", str(write_project(two_way())), "--sweep", "--seconds", "1",
+                 "--f1", "30", "--out", str(out)]) == 0
+    meta = json.loads((out / "sweep.json").read_text())
+    assert meta["f1_hz"] == 30 and meta["f2_hz"] == 20000 and meta["sample_rate"] == 48000
+    for name in ("sweep", "sweep-low", "sweep-high", "sweep-sum"):
+        rate, x = wavfile.read(out / f"{name}.wav")
+        assert rate == 48000 and x.dtype == np.float32 and len(x) == 48000
+    _, x = wavfile.read(out / "sweep.wav")
+    assert abs(np.max(np.abs(x)) - 0.1) < 1e-3  # -20 dBFS peak (default level)
+
+
+def test_render_noise_level_is_rms(write_project, tmp_path):
+    assert main(["render", str(write_project(two_way())), "--noise", "--seconds", "1",
+                 "--level-db", "-30", "--seed", "1", "--out", str(tmp_path)]) == 0
+    _, x = wavfile.read(tmp_path / "noise.wav")
+    # -30 dBFS RMS = 0.0316; float32 rounding only.
+    assert abs(np.sqrt(np.mean(x.astype(float) ** 2)) - 10 ** (-30 / 20)) < 1e-6
+
+
+def test_render_input_file(write_project, tmp_path):
+    x = np.random.default_rng(0).standard_normal((4800, 2)).astype(np.float32) * 0.1
+    wavfile.write(tmp_path / "in.wav", 48000, x)
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "in.wav"),
+                 "--out", str(tmp_path / "o")]) == 0
+    rate, y = wavfile.read(tmp_path / "o" / "in-sum.wav")
+    assert rate == 48000 and y.shape == (4800, 2) and y.dtype == np.float32
+
+
+def test_render_refuses_input_at_another_rate(write_project, tmp_path, capsys):
+    wavfile.write(tmp_path / "in.wav", 44100, np.zeros(100, dtype=np.float32))
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "in.wav"),
+                 "--out", str(tmp_path / "o"), "--rate", "48000", "--rate", "96000"]) == 2
+    assert ("rate: the input is at 44100 Hz but the design is made for 48000, 96000 Hz"
+            in capsys.readouterr().err)
+
+
+def test_render_input_at_a_second_designed_rate(write_project, tmp_path):
+    wavfile.write(tmp_path / "in.wav", 96000, np.zeros(100, dtype=np.float32))
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "in.wav"),
+                 "--out", str(tmp_path / "o"), "--rate", "48000", "--rate", "96000"]) == 0
+
+
+def test_render_needs_input_or_signal(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--out", str(tmp_path)]) == 2
+    assert "give either IN.wav or one of --sweep, --impulse, --noise" in capsys.readouterr().err
+
+
+def test_render_level_above_full_scale_refused(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--noise", "--level-db", "3",
+                 "--out", str(tmp_path)]) == 2
+    assert "level_db: 3 dBFS is above full scale" in capsys.readouterr().err
+
+
+def test_render_no_progress_bar_when_not_a_tty(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--noise", "--seconds", "6",
+                 "--out", str(tmp_path)]) == 0
+    assert "[" not in capsys.readouterr().err
