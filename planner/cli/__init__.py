@@ -28,6 +28,8 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "new": ("planner.cli.presets", "write a new project file from a preset"),
     "presets": ("planner.cli.presets", "list the built-in presets"),
     "export": ("planner.cli.export", "write per-band coefficients for a DSP, at one or more rates"),
+    "render": ("planner.cli.render", "run audio or a test signal through the bands, to WAV files"),
+    "measure": ("planner.cli.measure", "a frequency response from a recorded sweep (Farina)"),
 }
 
 
