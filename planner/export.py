@@ -57,7 +57,8 @@ __all__ = [
     "FORMAT", "VERSION", "MANIFEST_FORMAT", "FORMATS", "MAX_DEVIATION_DB", "FLOOR_DB",
     "WAV_FLOOR_DB", "ArithResult", "BandExport", "RateExport", "ExportResult",
     "content_hash", "slug", "rate_text", "project_at_rate", "export_rate", "to_json_dict",
-    "to_csv_text", "to_text", "band_impulse_response", "arith_text", "write_export",
+    "to_csv_text", "to_text", "band_impulse_response", "arith_text", "arith_dict",
+    "write_export",
 ]
 
 FORMAT = "crossplan-coefficients"
@@ -538,6 +539,14 @@ def arith_text(rx: RateExport) -> list[str]:
                        f"at {rx.fs_hz:g} Hz: {r.reason}")
             out.extend(f"       try: {s}" for s in r.suggestions)
     return out
+
+
+def arith_dict(rx: RateExport) -> dict:
+    """The JSON form of :func:`arith_text` (``crossplan check --arith --json``)."""
+    return {"format": rx.arith.name, "sample_rate": _rate_value(rx.fs_hz), "ok": rx.arith_ok,
+            "bands": [{"name": b.name, "peak_internal_gain_db": b.peak_internal_gain_db,
+                       "peak_internal_at_hz": b.peak_internal_at_hz, "scale": b.scale,
+                       **b.arith.to_dict()} for b in rx.bands]}
 
 
 def _write_bytes_atomic(path: Path, write) -> None:

@@ -107,3 +107,26 @@ def test_export_check_failure_exit_1_files_written(write_project, tmp_path, caps
     assert main(["export", str(write_project(two_way(2))), "--out", str(tmp_path)]) == 1
     assert "check FAIL at 48000 Hz" in capsys.readouterr().err
     assert (tmp_path / "test-2-way-manifest.json").exists()
+
+
+def test_check_arith_q1_15_fails_per_band(write_project, capsys):
+    assert main(["check", str(write_project(FRAGILE)), "--arith", "q1.15"]) == 1
+    out = capsys.readouterr().out
+    assert "arithmetic q1.15 at 192000 Hz" in out and "FAIL sub: max coefficient error" in out
+    assert "band 'sub', section 1: q1.15 cannot hold the design" in out
+    assert "peak internal gain" in out and "min stability margin" in out
+
+
+def test_check_arith_float64_ok(write_project, capsys):
+    assert main(["check", str(write_project(FRAGILE)), "--arith", "float64"]) == 0
+    assert "ok   sub: max coefficient error 0" in capsys.readouterr().out
+
+
+def test_check_arith_json(write_project, capsys):
+    assert main(["check", str(write_project(FRAGILE)), "--arith", "q2.30", "--json"]) in (0, 1)
+    d = json.loads(capsys.readouterr().out)
+    b = d["arith"]["bands"][0]
+    assert d["arith"]["format"] == "q2.30" and b["name"] == "sub"
+    assert {"max_coef_error", "deviation_db", "deviation_at_hz", "pole_radius",
+            "overflow_sections", "peak_internal_gain_db", "ok"} <= set(b)
+    assert d["arith"]["ok"] is b["ok"]
