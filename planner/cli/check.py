@@ -11,6 +11,9 @@ def add_arguments(p, name):
     p.add_argument("--json", action="store_true", help="print one JSON object")
     p.add_argument("--points", type=int, default=None,
                    help="grid points instead of the project's analysis.points")
+    p.add_argument("--arith", default=None, metavar="FORMAT",
+                   help="also round each band to float32, float64 or qM.N and report it per band "
+                        "(exit 1 if the format cannot hold the design)")
 
 
 def run(args) -> int:
@@ -19,11 +22,21 @@ def run(args) -> int:
 
     proj = load_project(args.file)
     r = engine.analyse(proj, points=args.points)
+    rx = None
+    if args.arith is not None:
+        from planner import export
+
+        rx = export.export_rate(proj, proj.sample_rate, args.arith)
     if args.json:
-        print(json.dumps(_finite(r.to_dict()), indent=2, allow_nan=False))
+        d = r.to_dict()
+        if rx is not None:
+            d["arith"] = export.arith_dict(rx)
+        print(json.dumps(_finite(d), indent=2, allow_nan=False))
     else:
         print(report.text_report(r))
-    return 0 if r.ok else 1
+        if rx is not None:
+            print("\n".join(export.arith_text(rx)))
+    return 0 if r.ok and (rx is None or rx.arith_ok) else 1
 
 
 def _finite(x):
