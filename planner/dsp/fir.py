@@ -118,7 +118,7 @@ def _check_freq(freq_hz, fs: float, field: str) -> float:
         raise DesignError(f"must be a number of Hz, not {freq_hz!r}", field=field) from None
     if not (0.0 < f < fs / 2):
         raise DesignError(
-            f"{freq_hz!r} Hz must be above 0 Hz and below Nyquist ({fs / 2:g} Hz) "
+            f"{f:g} Hz must be above 0 Hz and below Nyquist ({fs / 2:g} Hz) "
             f"for sample_rate {fs:g}", field=field)
     return f
 
@@ -264,7 +264,7 @@ def window_fir(kind: str, freq_hz: float, fs_hz: float, taps: int, window: str =
             raise DesignError("a bandpass needs its upper edge freq2, none given", field="freq2")
         f2 = _check_freq(freq2_hz, fs, "freq2")
         if not f2 > f1:
-            raise DesignError(f"{freq2_hz!r} Hz must be above freq ({f1:g} Hz)", field="freq2")
+            raise DesignError(f"{f2:g} Hz must be above freq ({f1:g} Hz)", field="freq2")
     w = _window(window, n, beta)
     m = np.arange(n) - (n - 1) / 2.0
     if kind == "lowpass":
@@ -356,7 +356,7 @@ def kaiser_taps(atten_db: float, transition_hz: float, fs_hz: float) -> int:
     fs = _check_fs(fs_hz)
     tw = _check_positive(transition_hz, "transition_hz", "Hz")
     if tw >= fs / 2:
-        raise DesignError(f"{transition_hz!r} Hz must be below Nyquist ({fs / 2:g} Hz)",
+        raise DesignError(f"{tw:g} Hz must be below Nyquist ({fs / 2:g} Hz)",
                           field="transition_hz")
     d_omega = 2.0 * np.pi * tw / fs
     n = int(math.ceil((a - 7.95) / (2.285 * d_omega) + 1.0))
@@ -487,11 +487,11 @@ def _spec_bands(spec: FirSpec, fs_hz: float):
     fst = _check_freq(spec.stop_hz, fs, "stop_hz")
     if spec.kind == "lowpass":
         if not fp < fst:
-            raise DesignError(f"{spec.stop_hz!r} Hz must be above the pass edge ({fp:g} Hz) "
+            raise DesignError(f"{fst:g} Hz must be above the pass edge ({fp:g} Hz) "
                               "for a lowpass", field="stop_hz")
         return [(0.0, fp), (fst, nyq)], [1.0, 0.0], [True, False], fst - fp
     if not fst < fp:
-        raise DesignError(f"{spec.stop_hz!r} Hz must be below the pass edge ({fp:g} Hz) "
+        raise DesignError(f"{fst:g} Hz must be below the pass edge ({fp:g} Hz) "
                           "for a highpass", field="stop_hz")
     return [(0.0, fst), (fp, nyq)], [0.0, 1.0], [False, True], fp - fst
 
@@ -586,7 +586,7 @@ def least_squares_fir(kind: str, freq_hz: float, fs_hz: float, taps: int, transi
             raise DesignError("a bandpass needs its upper edge freq2, none given", field="freq2")
         f2 = _check_freq(freq2_hz, fs, "freq2")
         if not f2 > f1 + tw:
-            raise DesignError(f"{freq2_hz!r} Hz must be above freq + transition_hz "
+            raise DesignError(f"{f2:g} Hz must be above freq + transition_hz "
                               f"({f1 + tw:g} Hz)", field="freq2")
         spec = FirSpec("bandpass", (f1 + tw / 2, f2 - tw / 2), (f1 - tw / 2, f2 + tw / 2), 1, 1)
     elif kind == "lowpass":
@@ -596,7 +596,7 @@ def least_squares_fir(kind: str, freq_hz: float, fs_hz: float, taps: int, transi
     try:
         bands, desired, is_pass, _ = _spec_bands(spec, fs)
     except DesignError:
-        raise DesignError(f"{transition_hz!r} Hz puts a band edge outside (0, {fs / 2:g}) Hz "
+        raise DesignError(f"{tw:g} Hz puts a band edge outside (0, {fs / 2:g}) Hz "
                           f"around freq {f1:g} Hz", field="transition_hz") from None
     return _firls(n, bands, desired, [1.0 if p else sw for p in is_pass], fs)
 
@@ -922,7 +922,8 @@ def complementary_split(crossovers_hz: Sequence[float], fs_hz: float, taps: int,
     for i, f in enumerate(xo):
         _check_freq(f, fs, f"crossovers[{i}]")
     if np.any(np.diff(xo) <= 0):
-        raise DesignError(f"must be strictly increasing, not {list(xo)!r}", field="crossovers")
+        raise DesignError(f"must be strictly increasing, not {[float(x) for x in xo]!r}",
+                          field="crossovers")
     if design == "window":
         lows = [window_fir("lowpass", f, fs, n, window=window, beta=beta) for f in xo]
     elif design in ("equiripple", "least_squares"):
@@ -931,7 +932,7 @@ def complementary_split(crossovers_hz: Sequence[float], fs_hz: float, taps: int,
                               field="transition_hz")
         tw = _check_positive(transition_hz, "transition_hz", "Hz")
         if xo[0] - tw / 2 <= 0 or xo[-1] + tw / 2 >= fs / 2:
-            raise DesignError(f"{transition_hz!r} Hz puts a band edge outside (0, {fs / 2:g}) "
+            raise DesignError(f"{tw:g} Hz puts a band edge outside (0, {fs / 2:g}) "
                               "Hz around the outer crossovers", field="transition_hz")
         if design == "least_squares":
             lows = [least_squares_fir("lowpass", f, fs, n, tw, stop_weight=stop_weight)
