@@ -37,8 +37,8 @@ def ref_measure(h, spec, fs=FS, points=20001):
 
 
 def deviations(ripple_db, atten_db):
-    # Common definition of peak-to-peak ripple: (1 + dp) / (1 - dp) = 10^(R/20);
-    # stop-band deviation ds = 10^(-A/20) (Oppenheim and Schafer 3rd ed., sec. 7.2).
+    # Common definition of peak-to-peak ripple, (1 + dp) / (1 - dp) = 10^(R/20),
+    # and stop-band deviation ds = 10^(-A/20) (common practice, no single source).
     r = 10 ** (ripple_db / 20)
     return (r - 1) / (r + 1), 10 ** (-atten_db / 20)
 
@@ -176,9 +176,10 @@ class TestKaiserFormulas:
         assert fir.kaiser_beta(a) == pytest.approx(beta_ref, rel=1e-12, abs=1e-15)
 
     def test_kaiser_design_meets_its_attenuation(self):
-        # Kaiser 1974: a Kaiser-window lowpass with beta(A) and N(A, dw) has
-        # stop-band deviation close to 10^(-A/20); his fit is reported good
-        # to within about 1 dB (Oppenheim and Schafer 3rd ed., sec. 7.6.1).
+        # Kaiser 1974 (Oppenheim and Schafer 3rd ed., sec. 7.6.1): a
+        # Kaiser-window lowpass with beta(A) and N(A, dw) has a stop-band
+        # deviation close to 10^(-A/20). The 1 dB allowance is common
+        # practice, no published source.
         a, fc, tw = 60.0, 4000.0, 800.0
         h = fir.window_fir("lowpass", fc, FS, fir.kaiser_taps(a, tw, FS), window="kaiser",
                            beta=fir.kaiser_beta(a))
@@ -250,7 +251,8 @@ class TestEquiripple:
 
     def test_herrmann_estimate_close_to_minimum(self):
         # Herrmann, Rabiner and Chan 1973: the estimate of the optimum lowpass
-        # length is accurate to a few percent; 5% allows for rounding to odd.
+        # length is accurate to a few percent (from memory of the paper); 5%
+        # allows for that and for rounding to odd.
         spec = fir.FirSpec("lowpass", 2150.0, 2250.0, 0.1, 80.0)
         found = fir.min_taps_equiripple(spec, FS).n_taps
         assert fir.estimate_taps(spec, FS) == pytest.approx(found, rel=0.05)
