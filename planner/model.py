@@ -158,6 +158,10 @@ class Analysis:
         A crossing passes when the bands are at most this many degrees apart.
     crossing_floor_db : float
         Crossings below this level are information only.
+    arith : str or None
+        The number format the target DSP computes in (``float64``,
+        ``float32`` or ``qM.N``). When set, the check and the editor also
+        report each band rounded to it; ``None`` means not chosen.
     """
 
     f_min: float = 20.0
@@ -166,6 +170,7 @@ class Analysis:
     flatness_db: float = 1.0
     phase_deg: float = 20.0
     crossing_floor_db: float = -20.0
+    arith: str | None = None
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
 
     def __post_init__(self):

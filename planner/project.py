@@ -26,7 +26,8 @@ __all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filt
            "check_band", "atomic_write_text"]
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "bands"}
-_ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db"}
+_ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
+                  "arith"}
 _BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver"}
 _FILTER_BASE = {"type", "family", "bypass"}
 
@@ -120,6 +121,18 @@ def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
     )
 
 
+def _arith(value: Any) -> str | None:
+    """``analysis.arith``: absent/null, or a number-format name (returned in its canonical form)."""
+    if value is None:
+        return None
+    from planner.dsp.quantize import parse_arith
+
+    try:
+        return parse_arith(value).name
+    except CrossplanError as e:
+        raise ProjectError(str(e).split(": ", 1)[-1], field="arith") from None
+
+
 def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
     d = Analysis()
     f_min = _num(raw, "f_min", d.f_min, lo=0, lo_open=True, unit="Hz")
@@ -140,6 +153,7 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
                              unit="deg")),
         crossing_floor_db=float(_num(raw, "crossing_floor_db", d.crossing_floor_db, lo=-200,
                                      hi=0, unit="dB")),
+        arith=_arith(raw.get("arith")),
         extra={k: v for k, v in raw.items() if k not in _ANALYSIS_KEYS},
     )
 
@@ -212,7 +226,8 @@ def to_dict(project: Project) -> dict:
         "sample_rate": project.sample_rate,
         "analysis": {"f_min": a.f_min, "f_max": a.f_max, "points": a.points,
                      "flatness_db": a.flatness_db, "phase_deg": a.phase_deg,
-                     "crossing_floor_db": a.crossing_floor_db, **a.extra},
+                     "crossing_floor_db": a.crossing_floor_db,
+                     **({"arith": a.arith} if a.arith is not None else {}), **a.extra},
         "bands": [],
     }
     for b in project.bands:

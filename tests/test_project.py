@@ -138,3 +138,23 @@ def test_allpass_second_order_needs_q(example):
     example["bands"][1]["filters"].append({"type": "allpass", "freq": 1000})
     with pytest.raises(ProjectError, match=r"filters\[2\]\.q: missing; a second-order all-pass"):
         project.from_dict(example)
+
+
+def test_analysis_arith_canonical_and_saved(example):
+    # The target number format is stored in its canonical lower-case name.
+    raw = json.loads(json.dumps(example))
+    raw["analysis"]["arith"] = " Q1.31 "
+    p = project.from_dict(raw)
+    assert p.analysis.arith == "q1.31"
+    assert project.to_dict(p)["analysis"]["arith"] == "q1.31"
+
+
+def test_analysis_arith_absent_is_not_written(example):
+    assert "arith" not in project.to_dict(project.from_dict(example))["analysis"]
+
+
+def test_analysis_arith_bad_names_field(example):
+    raw = json.loads(json.dumps(example))
+    raw["analysis"]["arith"] = "q0.5"
+    with pytest.raises(ProjectError, match=r"analysis\.arith: 'q0\.5' is not a known format"):
+        project.from_dict(raw)

@@ -13,7 +13,8 @@ def add_arguments(p, name):
                    help="grid points instead of the project's analysis.points")
     p.add_argument("--arith", default=None, metavar="FORMAT",
                    help="also round each band to float32, float64 or qM.N and report it per band "
-                        "(exit 1 if the format cannot hold the design)")
+                        "(exit 1 if the format cannot hold the design); default: the "
+                        "project's analysis.arith, if set")
 
 
 def run(args) -> int:
@@ -23,10 +24,11 @@ def run(args) -> int:
     proj = load_project(args.file)
     r = engine.analyse(proj, points=args.points)
     rx = None
-    if args.arith is not None:
+    arith = args.arith if args.arith is not None else proj.analysis.arith
+    if arith is not None:
         from planner import export
 
-        rx = export.export_rate(proj, proj.sample_rate, args.arith)
+        rx = export.export_rate(proj, proj.sample_rate, arith)
     if args.json:
         d = r.to_dict()
         if rx is not None:

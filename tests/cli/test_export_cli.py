@@ -130,3 +130,22 @@ def test_check_arith_json(write_project, capsys):
     assert {"max_coef_error", "deviation_db", "deviation_at_hz", "pole_radius",
             "overflow_sections", "peak_internal_gain_db", "ok"} <= set(b)
     assert d["arith"]["ok"] is b["ok"]
+
+
+def _with_arith(raw, arith):
+    d = json.loads(json.dumps(raw))
+    d["analysis"]["arith"] = arith
+    return d
+
+
+def test_check_uses_the_projects_target_arith(write_project, capsys):
+    # analysis.arith is the default of --arith: the fragile case fails in q1.15 ...
+    assert main(["check", str(write_project(_with_arith(FRAGILE, "q1.15")))]) == 1
+    assert "arithmetic q1.15 at 192000 Hz" in capsys.readouterr().out
+
+
+def test_check_arith_flag_overrides_the_projects(write_project, capsys):
+    # ... and --arith float64 on the command line replaces it (and passes).
+    path = write_project(_with_arith(FRAGILE, "q1.15"))
+    assert main(["check", str(path), "--arith", "float64"]) == 0
+    assert "arithmetic float64" in capsys.readouterr().out
