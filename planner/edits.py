@@ -39,7 +39,8 @@ DEFAULT_FILTER = {"type": "peaking", "freq": 1000.0, "gain_db": 0.0, "q": 1.0}
 #: The band settings :func:`toggle_band` flips.
 BAND_FLAGS = ("invert", "mute", "solo")
 _BAND_SETTINGS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo"}
-_ANALYSIS_SETTINGS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db"}
+_ANALYSIS_SETTINGS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
+                      "arith"}
 _Q_DEFAULT = 0.7071067811865476
 
 
@@ -267,7 +268,8 @@ def set_filter_type(p: Project, band: int, flt: int, type_: str,
 
 def set_analysis(p: Project, **settings: Any) -> Project:
     """Change analysis settings: ``f_min``, ``f_max`` (Hz), ``points``, ``flatness_db`` (dB),
-    ``phase_deg`` (deg), ``crossing_floor_db`` (dB)."""
+    ``phase_deg`` (deg), ``crossing_floor_db`` (dB), ``arith`` (a number-format name, or
+    None for none)."""
     def change(d):
         for key, value in settings.items():
             if key not in _ANALYSIS_SETTINGS:

@@ -146,6 +146,7 @@ class CrossplanApp(App):
         self.filter_i: int | None = 0 if project.bands[0].filters else None
         self.view = views.VIEWS[0]
         self.report: engine.Report | None = None
+        self.arith_export = None     # planner.export.RateExport for analysis.arith, if set
         self.cursor_hz = self._default_cursor(project)
         self.analysis_ms: float | None = None
         self._gen = 0
@@ -236,35 +237,51 @@ class CrossplanApp(App):
         self.set_timer(_BUSY_AFTER_S, partial(self._show_busy, gen))
         self._analyse(self.project, gen)
 
+    def _check_lines(self) -> tuple[str, ...] | None:
+        if self.report is None:
+            return None
+        lines = views.check_lines(self.report)
+        if self.arith_export is not None:
+            lines = (*lines, views.arith_line(self.arith_export))
+        return lines
+
     def _show_busy(self, gen: int) -> None:
         if self._busy and gen == self._gen:
-            self.query_one(CheckBar).show(views.check_lines(self.report) if self.report else None,
-                                          busy=True)
+            self.query_one(CheckBar).show(self._check_lines(), busy=True)
 
     @work(thread=True, exclusive=True, group="analysis")
     def _analyse(self, project: Project, gen: int) -> None:
         t0 = time.perf_counter()
         try:
             report = engine.analyse(project)
+            rx = None
+            if project.analysis.arith is not None:
+                from planner import export
+
+                rx = export.export_rate(project, project.sample_rate, project.analysis.arith)
         except CrossplanError as e:
             self.call_from_thread(self._analysis_failed, gen, str(e))
             return
         self.call_from_thread(self._analysis_done, gen, report,
-                              (time.perf_counter() - t0) * 1000.0)
+                              (time.perf_counter() - t0) * 1000.0, rx)
 
     def _analysis_failed(self, gen: int, message: str) -> None:
         if gen == self._gen:
             self._busy = False
             self.query_one(CheckBar).show(None, error=message)
 
-    def _analysis_done(self, gen: int, report: engine.Report, ms: float) -> None:
+    def _analysis_done(self, gen: int, report: engine.Report, ms: float, rx=None) -> None:
         if gen != self._gen or report.project is not self.project:
             return
         self._busy = False
         self.report = report
+        self.arith_export = rx
         self.analysis_ms = ms
-        self.query_one(CheckBar).show(views.check_lines(report))
-        self.query_one(WarningList).show(views.warning_items(report))
+        self.query_one(CheckBar).show(self._check_lines())
+        items = views.warning_items(report)
+        if rx is not None:
+            items += views.arith_warning_items(rx)
+        self.query_one(WarningList).show(items)
         self.show_plot()
 
     def show_plot(self) -> None:
@@ -347,6 +364,9 @@ class CrossplanApp(App):
                 fs = units.parse(text, "Hz", name)
                 return edits.set_sample_rate(p, int(fs) if fs == int(fs) else fs), \
                     f"sample rate {units.format(fs, 'Hz', 7)}"
+            if name == "arith":
+                value = text.strip() or None
+                return edits.set_analysis(p, arith=value), f"target arith {value or 'none'}"
             unit = {"f_min": "Hz", "f_max": "Hz", "flatness_db": "dB",
                     "crossing_floor_db": "dB"}.get(name, "")
             value = units.parse(text, unit, name)

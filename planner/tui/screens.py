@@ -102,6 +102,7 @@ SETTINGS = (
     ("flatness_db", "flat +/-", "dB"),
     ("phase_deg", "phase deg", ""),
     ("crossing_floor_db", "floor", "dB"),
+    ("arith", "target arith", ""),
 )
 
 
@@ -127,11 +128,15 @@ class SettingsScreen(ModalScreen[None]):
             yield Static("", classes="refusal", id="settings-refusal", markup=False)
             yield Static("Changing the sample rate redesigns every filter. It is refused, "
                          "naming them, while a filter would be at or above the new Nyquist "
-                         "frequency; 'to' is lowered to Nyquist if needed.", classes="hint")
+                         "frequency; 'to' is lowered to Nyquist if needed. Target arith "
+                         "(float32, q1.31, q2.30, q1.23, ...; empty for none) re-checks every "
+                         "band rounded to what the DSP computes in.", classes="hint")
 
     def _text(self, name: str, unit: str) -> str:
         p = self._project
         value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
+        if name == "arith":
+            return value or ""
         if name == "points":
             return str(value)
         if name == "sample_rate":

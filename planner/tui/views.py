@@ -18,7 +18,7 @@ from planner.plots import Series
 from planner.report import phase_difference_deg, view_series
 
 __all__ = ["VIEWS", "PlotData", "plot_data", "crossing_pair", "readout", "check_lines",
-           "WarningItem", "warning_items"]
+           "arith_line", "WarningItem", "warning_items", "arith_warning_items"]
 
 #: The plot views, in the order the view key steps through them.
 VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference")
@@ -138,6 +138,26 @@ def check_lines(r: Report) -> tuple[str, str, str]:
     return s, x, f"headroom  {_state(head_ok):<4} peak dB: {heads}"
 
 
+def arith_line(rx) -> str:
+    """The check bar's line for the target arithmetic (a :class:`planner.export.RateExport`).
+
+    ``"arith     ok   q1.31: max dev 0.0001 dB tweeter, inner peak +2.1 dB woofer"``
+    (the largest response deviation from the float64 design, and the highest level inside a
+    chain),
+    or ``FAIL`` naming the failing bands and sections (details in the warnings).
+    """
+    name = rx.arith.name
+    live = [b for b in rx.bands if b.active] or rx.bands
+    if not rx.arith_ok:
+        bad = [f"{b.name} " + (f"sec {b.arith.failed_section}" if b.arith.failed_section
+                               else "FIR") for b in rx.bands if not b.arith.ok]
+        return f"arith     FAIL {name}: cannot hold {', '.join(bad)} (see warnings)"
+    worst = max(live, key=lambda b: b.arith.deviation_db)
+    peak = max(live, key=lambda b: b.peak_internal_gain_db)
+    return (f"arith     ok   {name}: max dev {worst.arith.deviation_db:.2g} dB {worst.name}, "
+            f"inner peak {_r1(peak.peak_internal_gain_db):+.1f} dB {peak.name}")
+
+
 @dataclass(frozen=True)
 class WarningItem:
     """A warning as listed, and what selecting it selects."""
@@ -150,3 +170,23 @@ class WarningItem:
 def warning_items(r: Report) -> list[WarningItem]:
     """The report's warnings, each with the band (and filter) it is about."""
     return [WarningItem(w.text, w.band, w.filter) for w in r.warnings]
+
+
+def arith_warning_items(rx) -> list[WarningItem]:
+    """Warnings from the target arithmetic: a band it cannot hold (with what helps), and a
+    fixed-point chain whose internal level rises above full scale (how much pre-attenuation
+    avoids it; floating point has the range to carry it)."""
+    out = []
+    for i, b in enumerate(rx.bands):
+        a = b.arith
+        if not a.ok:
+            where = f"section {a.failed_section}" if a.failed_section else "its FIR"
+            hint = f"; try {a.suggestions[0]}" if a.suggestions else ""
+            out.append(WarningItem(f"band {b.name}, {where}: {rx.arith.name} cannot hold the "
+                                   f"design at {rx.fs_hz:g} Hz: {a.reason}{hint}", i, None))
+        elif rx.arith.kind == "fixed" and b.active and b.peak_internal_gain_db > 0.05:
+            out.append(WarningItem(
+                f"band {b.name}: its sections peak at {b.peak_internal_gain_db:+.1f} dB inside "
+                f"the chain, above full scale in {rx.arith.name}; attenuate its input by "
+                f"{b.peak_internal_gain_db:.1f} dB (export --pre-attenuate does it)", i, None))
+    return out

@@ -404,3 +404,50 @@ async def test_leaving_a_refused_field_shows_the_project_value_again():
         assert app.project is p0
         assert app.query_one("#filter-freq").value == "2.4 kHz"
         assert "refused:" not in screen_text(app)
+
+
+FRAGILE = {  # a 30 Hz 8th-order Butterworth highpass at 192 kHz: poles crowd z = 1
+    "format": "crossplan-project", "version": 1, "name": "fragile", "sample_rate": 192000,
+    "analysis": {"f_min": 100},
+    "bands": [{"name": "sub", "filters": [
+        {"type": "highpass", "family": "butterworth", "order": 8, "freq": 30}]}]}
+
+
+async def test_target_arith_shows_per_band_in_checks_and_warnings(tmp_path):
+    # The fragile case cannot be held in q1.15 (Oppenheim and Schafer 3rd ed. sec. 6.7:
+    # poles near z = 1 move most under coefficient rounding); float32 holds it.
+    path = tmp_path / "fragile.json"
+    project.save(project.from_dict(FRAGILE), path)
+    app = make_app(path)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        assert "arith " not in screen_text(app)
+        await pilot.press("e")
+        await pilot.pause()
+        app.screen.query_one("#settings-arith").focus()
+        await pilot.press(*"q1.15", "enter")
+        await settle(app, pilot)
+        assert app.project.analysis.arith == "q1.15"
+        await pilot.press("escape")
+        await settle(app, pilot)
+        text = screen_text(app)
+        assert "arith     FAIL q1.15: cannot hold sub sec 1" in text
+        assert any("band sub, section 1: q1.15 cannot hold the design" in w.text
+                   for w in app.query_one("#warnings")._items)
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project.analysis.arith is None and "arith " not in screen_text(app)
+
+
+async def test_bad_target_arith_is_refused_in_place():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await pilot.press("e")
+        await pilot.pause()
+        app.screen.query_one("#settings-arith").focus()
+        await pilot.press(*"q0.9", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert "refused: 'q0.9' is not a known format" in screen_text(app)

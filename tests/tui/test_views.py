@@ -75,3 +75,14 @@ def test_warning_items_point_at_band_and_filter():
     items = views.warning_items(engine.analyse(p))
     boost = [w for w in items if "boost" in w.text]
     assert boost and (boost[0].band, boost[0].filter) == (1, 1)
+
+
+def test_arith_line_ok_reads_worst_deviation_and_internal_peak():
+    from planner import export
+
+    p = presets_lib.load("two-way")
+    rx = export.export_rate(p, p.sample_rate, "float32")
+    line = views.arith_line(rx)
+    assert line.startswith("arith     ok   float32: max dev ")
+    assert len(line) <= 78  # fits the check bar at 80 columns
+    assert views.arith_warning_items(rx) == []  # float32 has the range for any internal peak
