@@ -529,7 +529,7 @@ def arith_text(rx: RateExport) -> list[str]:
             f"       overflow: {', '.join(map(str, r.overflow_sections)) or 'none'}; "
             f"scaled numerators: {', '.join(scaled) or 'none'}"
             + (f" (scale x{b.scale:g})" if b.scale != 1 else "")
-            + f"; peak internal gain {b.peak_internal_gain_db:+.2f} dB"
+            + f"; peak internal gain {round(b.peak_internal_gain_db, 2) + 0.0:+.2f} dB"
             + (f" after stage {b.peak_internal_after} near "
                f"{fk.format_hz(b.peak_internal_at_hz)}" if b.peak_internal_after else "")
             + (f"; pre-attenuated {b.pre_attenuation_db:.2f} dB" if b.pre_attenuation_db else ""))
