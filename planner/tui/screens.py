@@ -114,7 +114,9 @@ class SettingsScreen(ModalScreen[None]):
     :meth:`show` or :meth:`refuse`.
     """
 
-    BINDINGS = [Binding("escape", "dismiss", "Close")]
+    BINDINGS = [Binding("escape", "dismiss", "Close"),
+                Binding("down", "app.focus_next", "Next field", show=False),
+                Binding("up", "app.focus_previous", "Previous field", show=False)]
 
     def __init__(self, project: Project) -> None:
         super().__init__()

@@ -451,3 +451,16 @@ async def test_bad_target_arith_is_refused_in_place():
         await settle(app, pilot)
         assert app.project is p0
         assert "refused: 'q0.9' is not a known format" in screen_text(app)
+
+
+async def test_settings_fields_move_with_up_and_down():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("e")
+        await pilot.pause()
+        assert app.focused.id == "settings-sample_rate"
+        await pilot.press("down", "down")
+        assert app.focused.id == "settings-f_max"
+        await pilot.press("up")
+        assert app.focused.id == "settings-f_min"
