@@ -124,6 +124,8 @@ def lookup(type_: str, family: str | None) -> FilterKind:
             raise ProjectError(f"a {type_} filter has no family (got {family!r})", field="family")
         return _REGISTRY[(type_, None)]
     if family is None:
+        if (type_, None) in _REGISTRY:   # a plain kind beside families (the biquad bandpass)
+            return _REGISTRY[(type_, None)]
         raise ProjectError(f"missing; a {type_} needs one of {', '.join(f for f in fams if f)}",
                            field="family")
     if (type_, family) not in _REGISTRY:
@@ -338,3 +340,4 @@ register(FilterKind(
     check=_allpass_check,
 ))
 from planner import filters_raw  # noqa: E402,F401
+from planner import filters_fir  # noqa: E402,F401

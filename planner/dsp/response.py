@@ -19,6 +19,8 @@ from typing import Sequence
 
 import numpy as np
 
+from planner.dsp.fir import fir_response, fir_response_and_derivative
+
 __all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses"]
 
 _IDENTITY = np.array([1.0, 0.0, 0.0, 1.0, 0.0, 0.0])
@@ -124,14 +126,15 @@ def _sos_block(stacked: np.ndarray, w: np.ndarray, derivative: bool):
 
 
 def poly_response(taps: np.ndarray, w: np.ndarray, derivative: bool = False):
-    """Response of an FIR (polynomial in z^-1) at ``w`` rad/sample, with optional ``H'/H``."""
-    taps = np.asarray(taps, dtype=float)
-    n = np.arange(len(taps))
-    e = np.exp(-1j * np.outer(w, n))          # (freqs, taps)
-    h = e @ taps
+    """Response of an FIR (polynomial in z^-1) at ``w`` rad/sample, with optional ``H'/H``.
+
+    Kept for callers that work in rad/sample; it evaluates by the block method
+    of :func:`planner.dsp.fir.fir_response` (``fs = 2 pi`` makes Hz rad/sample).
+    """
+    w = np.asarray(w, dtype=float)
     if not derivative:
-        return h
-    dh = e @ (-1j * n * taps)
+        return fir_response(taps, w, 2.0 * np.pi)
+    h, dh = fir_response_and_derivative(taps, w, 2.0 * np.pi)
     with np.errstate(divide="ignore", invalid="ignore"):
         return h, dh / h
 
@@ -226,17 +229,23 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         h = h * (g[:, None] * np.exp(-1j * np.outer(d, w)))
     else:
         h = h * g[:, None]
-    fir_h = {}
+    # FIR taps: bands with taps of the same length are evaluated together by
+    # the block method of planner.dsp.fir (one matrix product per length).
+    groups: dict[int, list[int]] = {}
     if firs is not None:
         for i, taps in enumerate(firs):
             if taps is not None:
-                fir_h[i] = poly_response(taps, w)
-                h[i] *= fir_h[i]
+                groups.setdefault(len(taps), []).append(i)
+    for idx in groups.values():
+        h[idx] *= fir_response(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
 
     def dlog():
         out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
-        for i in fir_h:
-            out[i] += poly_response(firs[i], w, derivative=True)[1]
+        for idx in groups.values():
+            hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]),
+                                                 freqs_hz, fs_hz)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                out[idx] += dh / hf
         return out
 
     return BandResponses(freqs_hz, h, fs_hz, dlog)
