@@ -15,6 +15,7 @@ import numpy as np
 
 from planner import filters as fk
 from planner.dsp import analysis as an
+from planner.dsp import fir as dfir
 from planner.dsp.response import BandResponses, band_responses
 from planner.model import Band, Filter, Project
 
@@ -41,22 +42,35 @@ def design_filter(flt: Filter, fs_hz: float) -> fk.FilterDesign:
 
 @dataclass(frozen=True)
 class BandDesign:
-    """A band's chain at one rate: all sections in order, and the FIR taps (convolved) if any."""
+    """A band's chain at one rate: all sections in order, and the FIR taps (convolved) if any.
+
+    ``fir_latency_samples`` is the sum of the latencies of the band's FIR
+    filters (:func:`planner.dsp.fir.latency_samples`: ``(N-1)/2`` for a
+    linear-phase filter of ``N`` taps, else the index of its largest tap);
+    ``fir_linear_phase`` is False when any of them is not linear phase.
+    """
 
     sos: np.ndarray
     fir: np.ndarray | None
     gain_db: float
     delay_samples: float
     invert: bool
+    fir_latency_samples: float = 0.0
+    fir_linear_phase: bool = True
 
     @property
     def n_sections(self) -> int:
         return len(self.sos)
 
+    @property
+    def latency_samples(self) -> float:
+        """FIR latency plus the band's delay, in samples (0 for an undelayed IIR-only band)."""
+        return self.fir_latency_samples + self.delay_samples
+
 
 def design_band(band: Band, fs_hz: float) -> BandDesign:
     """Design every (not bypassed) filter of a band at ``fs_hz``."""
-    sos, fir = [], None
+    sos, fir, latency, linear = [], None, 0.0, True
     for f in band.filters:
         if f.bypass:
             continue
@@ -65,8 +79,11 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
             sos.append(d.sos)
         if d.fir is not None:
             fir = d.fir if fir is None else np.convolve(fir, d.fir)
+            # Delays of cascaded linear-phase filters add (their phases add).
+            latency += dfir.latency_samples(d.fir)
+            linear = linear and dfir.is_linear_phase(d.fir)
     return BandDesign(np.vstack(sos) if sos else np.zeros((0, 6)), fir, band.gain_db,
-                      band.delay_ms * fs_hz / 1000.0, band.invert)
+                      band.delay_ms * fs_hz / 1000.0, band.invert, latency, linear)
 
 
 def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:
@@ -105,11 +122,15 @@ class BandResult:
     peak_at_hz: float
     sections: int
     fir_taps: int
+    latency_samples: float = 0.0
+    latency_ms: float = 0.0
+    fir_linear_phase: bool = True
 
     def to_dict(self) -> dict:
         return {"name": self.name, "active": self.active, "peak_gain_db": self.peak_gain_db,
                 "peak_at_hz": self.peak_at_hz, "sections": self.sections,
-                "fir_taps": self.fir_taps}
+                "fir_taps": self.fir_taps, "latency_samples": self.latency_samples,
+                "latency_ms": self.latency_ms, "fir_linear_phase": self.fir_linear_phase}
 
 
 @dataclass(frozen=True)
@@ -161,6 +182,22 @@ class Report:
     def ok(self) -> bool:
         return self.flat_ok and self.phase_ok and any(self.active)
 
+    @property
+    def latency_samples(self) -> float:
+        """Latency of the sum: the largest latency of the active bands (samples; 0 if none)."""
+        lat = [b.latency_samples for b in self.bands if b.active]
+        return max(lat) if lat else 0.0
+
+    @property
+    def latency_ms(self) -> float:
+        return 1000.0 * self.latency_samples / self.project.sample_rate
+
+    @property
+    def latencies_agree(self) -> bool:
+        """True when every active band has the same latency (within LATENCY_TOL_SAMPLES)."""
+        lat = [b.latency_samples for b in self.bands if b.active]
+        return not lat or max(lat) - min(lat) <= LATENCY_TOL_SAMPLES
+
     def sum_group_delay_ms(self) -> np.ndarray:
         return self.responses.sum_group_delay_samples(self.active) * 1000.0 / self.project.sample_rate
 
@@ -178,7 +215,9 @@ class Report:
             "sum": {"max_dev_db": self.max_dev_db, "at_hz": self.at_hz,
                     "ripple_db": self.ripple_db, "limit_db": a.flatness_db, "ok": self.flat_ok,
                     "group_delay_ms": {"min": float(gd.min()) if gd.size else None,
-                                       "max": float(gd.max()) if gd.size else None}},
+                                       "max": float(gd.max()) if gd.size else None},
+                    "latency_samples": self.latency_samples, "latency_ms": self.latency_ms,
+                    "latencies_agree": self.latencies_agree},
             "crossovers": [c.to_dict() for c in self.checked_crossings],
             "crossings_below_floor": [c.to_dict() for c in self.crossings if not c.checked],
             "phase_limit_deg": a.phase_deg,
@@ -190,8 +229,10 @@ class Report:
 
 def _grid(project: Project) -> np.ndarray:
     a = project.analysis
-    extra = [f.params["freq"] for b in project.bands for f in b.filters
-             if "freq" in f.params and not f.bypass]
+    extra = [f.params[k] for b in project.bands for f in b.filters if not f.bypass
+             for k in ("freq", "freq2") if k in f.params]
+    extra += [x for b in project.bands for f in b.filters if not f.bypass
+              for x in f.params.get("crossovers", ())]
     return an.log_grid(a.f_min, a.f_max, a.points, extra)
 
 
@@ -241,7 +282,9 @@ def analyse(project: Project, points: int | None = None) -> Report:
     peak, peak_at = an.peak_gain(freqs, resp.h)
     bands = [BandResult(b.name, active[i], float(peak[i]), float(peak_at[i]),
                         designs[i].n_sections,
-                        0 if designs[i].fir is None else len(designs[i].fir))
+                        0 if designs[i].fir is None else len(designs[i].fir),
+                        designs[i].latency_samples, 1000.0 * designs[i].latency_samples / fs,
+                        designs[i].fir_linear_phase)
              for i, b in enumerate(project.bands)]
     report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
                     crossings, bands)
@@ -253,6 +296,97 @@ def _fmt_hz(f: float) -> str:
     return fk.format_hz(f)
 
 
+#: Latencies closer than this (samples) count as equal: a thousandth of a
+#: sample is a phase error below 0.4 deg at fs/2 (360 deg x 0.001).
+LATENCY_TOL_SAMPLES = 1e-3
+
+
+def _fmt_samples(x: float) -> str:
+    return f"{x:.0f}" if abs(x - round(x)) < 1e-9 else f"{x:.3f}"
+
+
+def _latency_warnings(r: Report) -> list[Warning_]:
+    """Active bands whose latencies differ, when an FIR is among them.
+
+    Each band that leads the latest one gets a warning naming both, the
+    difference in samples and ms, and the delay_ms that would align it.
+    Projects of IIR bands only are left alone: there a difference of
+    delay_ms is a choice (driver alignment), not an FIR's latency.
+    """
+    p, fs = r.project, r.project.sample_rate
+    act = [i for i, on in enumerate(r.active) if on]
+    if not any(r.designs[i].fir is not None for i in act) or r.latencies_agree:
+        return []
+
+    def what(i):
+        d = r.designs[i]
+        if d.fir is None:
+            return f"IIR, latency {_fmt_samples(d.latency_samples)} samples"
+        return f"FIR, latency {_fmt_samples(d.latency_samples)} samples"
+
+    late = max(act, key=lambda i: r.designs[i].latency_samples)
+    top = r.designs[late].latency_samples
+    out = []
+    for i in act:
+        diff = top - r.designs[i].latency_samples
+        if diff <= LATENCY_TOL_SAMPLES:
+            continue
+        ms = 1000.0 * diff / fs
+        name = p.bands[i].name
+        new = p.bands[i].delay_ms + ms
+        out.append(Warning_(
+            f"band {name} ({what(i)}) leads band {p.bands[late].name} ({what(late)}) by "
+            f"{_fmt_samples(diff)} samples ({ms:.6g} ms): add delay_ms {ms:.6g} to {name}"
+            + (f" (making it {new:.6g})" if p.bands[i].delay_ms else ""),
+            band=i, code="latency"))
+    return out
+
+
+def _split_warnings(r: Report) -> list[Warning_]:
+    """Complementary FIR split bands that do not add up to a pure delay.
+
+    All split filters of the active bands must share crossovers, taps and
+    method, and each band index of the split must be there exactly once.
+    """
+    from planner.filters_fir import describe_split, split_signature
+
+    p = r.project
+    found = [(i, j, f) for i, on in enumerate(r.active) if on
+             for j, f in enumerate(p.bands[i].filters)
+             if not f.bypass and f.type == "split" and f.family == "fir"]
+    if not found:
+        return []
+    out = []
+    i0, j0, f0 = found[0]
+    sig0 = split_signature(f0.params)
+    for i, j, f in found[1:]:
+        if split_signature(f.params) != sig0:
+            out.append(Warning_(
+                f"band {p.bands[i].name}, filter {j + 1}: its FIR split "
+                f"({describe_split(f.params)}) differs from that of band {p.bands[i0].name}, "
+                f"filter {j0 + 1} ({describe_split(f0.params)}): the bands no longer sum to a "
+                "pure delay; give every split filter the same crossovers, taps and method",
+                band=i, filter=j, code="split-mismatch"))
+    if out:
+        return out
+    n_bands = len(f0.params["crossovers"]) + 1
+    where: dict[int, list[int]] = {}
+    for i, j, f in found:
+        where.setdefault(f.params["band"], []).append(i)
+    for k in range(n_bands):
+        names = [p.bands[i].name for i in where.get(k, [])]
+        if not names:
+            out.append(Warning_(
+                f"split band {k} (of 0-{n_bands - 1}) is in no active band: the sum lacks it "
+                "and is not a pure delay", code="split-missing"))
+        elif len(names) > 1:
+            out.append(Warning_(
+                f"split band {k} is in {len(names)} active bands ({', '.join(names)}): it is "
+                "summed twice and the sum is not a pure delay", band=where[k][1],
+                code="split-doubled"))
+    return out
+
+
 def _warnings(r: Report) -> list[Warning_]:
     """Plain-language warnings about the sum, the crossings, headroom and risky filters."""
     p, a = r.project, r.project.analysis
@@ -260,6 +394,8 @@ def _warnings(r: Report) -> list[Warning_]:
     if not any(r.active):
         out.append(Warning_("every band is muted: nothing is summed", code="all-muted"))
         return out
+    out.extend(_split_warnings(r))
+    out.extend(_latency_warnings(r))
     if not r.flat_ok:
         out.append(Warning_(
             f"the sum deviates by {r.max_dev_db:+.2f} dB at {_fmt_hz(r.at_hz)} "

@@ -54,6 +54,11 @@ def text_report(r: Report) -> str:
     gd = gd[np.isfinite(gd)]
     if gd.size:
         lines.append(f"delay      sum group delay {gd.min():.2f} .. {gd.max():.2f} ms")
+    if any(b.latency_samples for b in r.bands):
+        lats = ", ".join(f"{b.name} {b.latency_samples:g}" for b in r.bands if b.active)
+        lines.append(f"latency    {lats} samples; sum {r.latency_samples:g} samples "
+                     f"({r.latency_ms:.2f} ms), "
+                     + ("bands aligned" if r.latencies_agree else "bands NOT aligned"))
     if r.warnings:
         lines.append("warnings")
         lines.extend(f"  - {w.text}" for w in r.warnings)
