@@ -279,7 +279,7 @@ def _not_met(message: str) -> FirSpecNotMetError:
 def _search(p: Mapping[str, Any], kind: str, fs_hz: float, spec: fir.FirSpec) -> np.ndarray:
     method = p["method"]
     search = fir.min_taps_equiripple if method == "remez" else fir.min_taps_least_squares
-    text = f"{_head(p, kind)} ({_METHOD_TEXT[method]}): searching the fewest taps"
+    text = f"{_head(p, kind)} ({_METHOD_TEXT[method]}): fewest taps"
     progress.report(0.0, text)
     try:
         found = search(spec, fs_hz,

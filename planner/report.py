@@ -18,6 +18,10 @@ SAFETY_NOTE = (
 )
 
 
+#: Crossings this many dB or less below the crossing floor are listed as information.
+INFO_SPAN_DB = 20.0
+
+
 def _state(ok: bool) -> str:
     return "ok  " if ok else "FAIL"
 
@@ -41,11 +45,18 @@ def text_report(r: Report) -> str:
         lines.append(f"{head} {_state(c.ok)} {c.bands[0]}/{c.bands[1]} at {format_hz(c.freq_hz)}: "
                      f"{c.phase_diff_deg:+.1f} deg apart, level {c.level_db:.1f} dB "
                      f"(limit {a.phase_deg:g} deg)")
+    # Crossings far below the floor (an FIR's stop-band lobes crossing each
+    # other) are counted, not listed; check --json lists every one.
+    deep = [c for c in r.crossings if not c.checked
+            and c.level_db < a.crossing_floor_db - INFO_SPAN_DB]
     for c in r.crossings:
-        if not c.checked:
+        if not c.checked and c not in deep:
             lines.append(f"           info {c.bands[0]}/{c.bands[1]} at {format_hz(c.freq_hz)}: "
                          f"{c.phase_diff_deg:+.1f} deg, level {c.level_db:.1f} dB "
                          "(below the floor, not checked)")
+    if deep:
+        lines.append(f"           info {len(deep)} more crossing(s) more than {INFO_SPAN_DB:g} dB "
+                     f"below the floor, not listed (see check --json)")
     heads = ", ".join(f"{b.name} {b.peak_gain_db:+.1f} dB" + ("" if b.active else " (muted)")
                       for b in r.bands)
     lines.append(f"headroom   {_state(all(b.peak_gain_db <= 0.05 for b in r.bands if b.active))}"

@@ -1,4 +1,8 @@
-"""``crossplan check FILE [--json]``: the summed-response report."""
+"""``crossplan check FILE [--json]``: the summed-response report.
+
+Exit codes: 0 when every check passes, 1 when one fails or an FIR spec cannot
+be met, 2 for an invalid file, 130 when cancelled (Ctrl-C during a design).
+"""
 
 from __future__ import annotations
 
@@ -18,6 +22,14 @@ def add_arguments(p, name):
 
 
 def run(args) -> int:
+    from planner.cli.common import designing
+
+    # Loading designs every filter (the FIR searches among them): both run
+    # under the progress bar, and Ctrl-C or an unmet FIR spec end cleanly.
+    return designing(lambda: _run(args))
+
+
+def _run(args) -> int:
     from planner import engine, report
     from planner.cli.common import load_project
 

@@ -1,4 +1,4 @@
-"""Helpers shared by the commands: loading a project or the demo."""
+"""Helpers shared by the commands: loading a project or the demo; progress bar and cancel."""
 
 from __future__ import annotations
 
@@ -11,3 +11,85 @@ def load_project(path: str | None) -> Project:
     if path is None:
         return presets.load(presets.DEMO)
     return project.load(path)
+
+
+class ProgressBar:
+    """A one-line progress bar on a terminal stream, redrawn in place with a carriage return.
+
+    ``update(fraction, text)`` is a :func:`planner.progress.scope` report
+    callable; the line is redrawn only when the shown percentage or text
+    changes, and :meth:`clear` wipes it.
+    """
+
+    def __init__(self, stream, width: int | None = None):
+        import shutil
+
+        self.stream = stream
+        self.width = width or shutil.get_terminal_size((80, 24)).columns
+        self._shown: tuple[int, str] | None = None
+
+    def line(self, fraction: float, text: str) -> str:
+        """The bar's text: ``[#####-----]  50% text``, cut to the width (less one column)."""
+        cells = 20
+        full = int(round(fraction * cells))
+        bar = f"[{'#' * full}{'-' * (cells - full)}] {fraction * 100:3.0f}% {text}"
+        return bar[: max(10, self.width - 1)]
+
+    def update(self, fraction: float, text: str = "") -> None:
+        if fraction >= 1.0:       # a design is done: wipe the bar before anything prints
+            self.clear()
+            return
+        key = (int(round(fraction * 100)), text)
+        if key == self._shown:
+            return
+        self._shown = key
+        self.stream.write("\r\033[K" + self.line(fraction, text))
+        self.stream.flush()
+
+    def clear(self) -> None:
+        if self._shown is not None:
+            self.stream.write("\r\033[K")
+            self.stream.flush()
+            self._shown = None
+
+
+#: Exit code of a command stopped by Ctrl-C (128 + SIGINT, the shell's convention).
+EXIT_CANCELLED = 130
+
+
+def designing(work, stream=None) -> int:
+    """Run ``work()`` (a command's body returning its exit code) with progress and cancel.
+
+    Designs made inside report to a one-line bar on ``stream`` (default
+    ``sys.stderr``) when it is a terminal, and nothing is drawn otherwise.
+    A design spec that cannot be met (:class:`~planner.errors.SpecNotMetError`)
+    prints its message and returns 1; Ctrl-C (:class:`KeyboardInterrupt`) or
+    a cancelled design (:class:`planner.dsp.fir.DesignCancelled`) prints
+    ``cancelled`` and returns 130. Nothing is written to the project: the
+    commands only read it, and saves are atomic.
+    """
+    import sys
+
+    from planner import progress
+    from planner.dsp.fir import DesignCancelled
+    from planner.errors import SpecNotMetError
+
+    out = sys.stderr if stream is None else stream
+    isatty = getattr(out, "isatty", None)
+    bar = ProgressBar(out) if isatty is not None and isatty() else None
+    try:
+        with progress.scope(report=bar.update if bar is not None else None):
+            return int(work())
+    except SpecNotMetError as e:
+        if bar is not None:
+            bar.clear()
+        print(f"crossplan: {e}", file=out)
+        return 1
+    except (DesignCancelled, KeyboardInterrupt):
+        if bar is not None:
+            bar.clear()
+        print("crossplan: cancelled", file=out)
+        return EXIT_CANCELLED
+    finally:
+        if bar is not None:
+            bar.clear()
