@@ -7,9 +7,10 @@ import numpy as np
 from planner.dsp.analysis import db, wrap_deg
 from planner.engine import Report
 from planner.filters import format_hz
-from planner.plots import Series, freq_plot
+from planner.plots import Series, freq_plot, time_plot
 
-__all__ = ["text_report", "view_series", "plot_report", "SAFETY_NOTE"]
+__all__ = ["text_report", "view_series", "plot_report", "time_series", "plot_time",
+           "SAFETY_NOTE"]
 
 SAFETY_NOTE = (
     "Caution: start at low volume, protect tweeters (a missing or wrong highpass can destroy "
@@ -118,3 +119,30 @@ def phase_difference_deg(r: Report, a: int, b: int) -> np.ndarray:
     """Phase of band ``a`` minus band ``b`` in degrees, wrapped, on the report's grid."""
     ha, hb = r.responses.h[a], r.responses.h[b]
     return wrap_deg(np.degrees(np.angle(ha) - np.angle(hb)))
+
+
+def time_series(tr, span_ms: float | None = None) -> list[Series]:
+    """Series of a :class:`planner.timeresp.TimeResponse`: one per band plus the sum, time in ms.
+
+    The span shown is ``span_ms`` or, by default, until every response has
+    settled (:func:`planner.timeresp.settle_samples`) plus a tenth.
+    """
+    from planner.timeresp import settle_samples
+
+    if span_ms is None:
+        n = int(np.ceil(settle_samples(tr) * 1.1))
+    else:
+        n = int(np.ceil(span_ms * tr.fs_hz / 1000.0)) + 1
+    n = max(2, min(n, tr.sum.shape[-1]))
+    t = tr.time_ms[:n]
+    out = [Series(name + ("" if on else " (off)"), t, row[:n])
+           for name, on, row in zip(tr.names, tr.active, tr.bands)]
+    out.append(Series("sum", t, tr.sum[:n], bold=True))
+    return out
+
+
+def plot_time(tr, title: str, width: int = 80, height: int = 22, color: bool | None = None,
+              span_ms: float | None = None) -> str:
+    """The impulse or step plot of ``crossplan plot --view impulse|step`` (time in ms)."""
+    return time_plot(time_series(tr, span_ms), width=width, height=height, xlabel="ms",
+                     ylabel="", title=f"{title}: {tr.kind} response", color=color)

@@ -30,6 +30,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "export": ("planner.cli.export", "write per-band coefficients for a DSP, at one or more rates"),
     "render": ("planner.cli.render", "run audio or a test signal through the bands, to WAV files"),
     "measure": ("planner.cli.measure", "a frequency response from a recorded sweep (Farina)"),
+    "compare": ("planner.cli.compare", "IIR versus FIR per band for the same magnitude spec"),
 }
 
 

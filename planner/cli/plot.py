@@ -4,25 +4,58 @@ from __future__ import annotations
 
 import shutil
 
-from planner.plots import VIEWS
+from planner.plots import TIME_VIEWS, VIEWS
 
 
 def add_arguments(p, name):
     p.add_argument("file", metavar="FILE", help="project file (JSON)")
-    p.add_argument("--view", choices=VIEWS, default="magnitude")
+    p.add_argument("--view", choices=VIEWS + TIME_VIEWS, default="magnitude",
+                   help="frequency views (magnitude, phase, delay) or time views "
+                        "(impulse, step: per band and the sum, time in ms)")
     p.add_argument("--width", type=int, default=None, help="columns (default: terminal width)")
     p.add_argument("--height", type=int, default=None, help="rows (default: 24)")
+    p.add_argument("--span-ms", type=_positive_ms, default=None, metavar="MS",
+                   help="time views: how many ms to show (default: until the responses settle)")
     p.add_argument("--no-color", action="store_true", help="plain text (also: NO_COLOR=1)")
 
 
+def _positive_ms(text: str) -> float:
+    import argparse
+    import math
+
+    try:
+        v = float(text)
+    except ValueError:
+        v = float("nan")
+    if not (v > 0 and math.isfinite(v)):
+        raise argparse.ArgumentTypeError(f"must be a positive number of ms, not {text!r}")
+    return v
+
+
 def run(args) -> int:
+    from planner.cli.common import designing
+
+    # Loading designs every filter (FIR tap searches too): under the progress bar.
+    return designing(lambda: _run(args))
+
+
+def _run(args) -> int:
     from planner import engine, report
     from planner.cli.common import load_project
 
     proj = load_project(args.file)
-    r = engine.analyse(proj)
     cols = shutil.get_terminal_size((80, 24)).columns
     width = args.width or cols
     height = args.height or 24
-    print(report.plot_report(r, args.view, width, height, color=False if args.no_color else None))
+    color = False if args.no_color else None
+    if args.view in TIME_VIEWS:
+        from planner import timeresp
+
+        tr = timeresp.project_impulse(proj)
+        if args.view == "step":
+            tr = tr.step()
+        print(report.plot_time(tr, proj.name, width, height, color=color, span_ms=args.span_ms))
+        return 0
+    r = engine.analyse(proj)
+    print(report.plot_report(r, args.view, width, height, color=color))
     return 0
