@@ -515,10 +515,10 @@ def _label_split(p: Mapping[str, Any]) -> str:
 
 
 def _band_kind(kind: str) -> FilterKind:
+    # pass_hz and stop_hz are fields of the bandpass too, so that giving them
+    # there is refused with a reason rather than kept as an unknown key.
     fields = [_FREQ] + ([_FREQ2] if kind == "bandpass" else []) + [
-        _METHOD, _TAPS, _WINDOW, _BETA, _TRANSITION, _RIPPLE, _ATTEN, _MAX_TAPS]
-    if kind != "bandpass":
-        fields[fields.index(_TRANSITION) + 1:fields.index(_TRANSITION) + 1] = [_PASS, _STOP]
+        _METHOD, _TAPS, _WINDOW, _BETA, _TRANSITION, _PASS, _STOP, _RIPPLE, _ATTEN, _MAX_TAPS]
     return FilterKind(kind, "fir", f"FIR {kind}", tuple(fields), _design_band(kind),
                       _label_band(kind), check=_check_band(kind), heavy=True)
 
