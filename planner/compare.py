@@ -79,6 +79,11 @@ IIR_FAMILIES = ("auto", "butterworth", "elliptic")
 #: Highest elliptic order tried (sections stay well conditioned far beyond it).
 MAX_ELLIPTIC_ORDER = 40
 
+#: Orders tried above the formula's before an IIR equivalent is given up.
+_EXTRA_ORDERS = 3
+#: Design margins of the IIR equivalents (see :func:`iir_equivalent`).
+_MARGIN_DB, _MARGIN_REL = 1e-3, 1e-4
+
 #: Points of the log grid the spec is read from (edges are then refined).
 _SPEC_POINTS = 8192
 
@@ -680,12 +685,15 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
     r, a = spec.ripple_db, spec.atten_db
     dp, _ = dfir._deviations(r, a)
     # Attenuation below the pass-band maximum, as scipy's designs count it.
-    a_max = a + 20.0 * math.log10(1.0 + dp)
+    # The designs aim a hair inside the spec (1e-4 of the ripple, 1e-3 dB of
+    # attenuation) so that rounding in the measurement cannot miss it.
+    a_max = a + 20.0 * math.log10(1.0 + dp) + _MARGIN_DB
+    r_in = r * (1.0 - _MARGIN_REL)
     fspec = spec.fir_spec()
-    parts = ([("lowpass", spec.pass_hz, spec.stop_hz, r)] if spec.kind == "lowpass" else
-             [("highpass", spec.pass_hz, spec.stop_hz, r)] if spec.kind == "highpass" else
-             [("highpass", spec.pass_hz[0], spec.stop_hz[0], r / 2),
-              ("lowpass", spec.pass_hz[1], spec.stop_hz[1], r / 2)])
+    parts = ([("lowpass", spec.pass_hz, spec.stop_hz, r_in)] if spec.kind == "lowpass" else
+             [("highpass", spec.pass_hz, spec.stop_hz, r_in)] if spec.kind == "highpass" else
+             [("highpass", spec.pass_hz[0], spec.stop_hz[0], r_in / 2),
+              ("lowpass", spec.pass_hz[1], spec.stop_hz[1], r_in / 2)])
     top = max(iir.FAMILIES["butterworth"])
     orders_bw = [butterworth_order(k, p, s, rr, a_max, fs) for k, p, s, rr in parts]
     if family == "auto":
@@ -695,7 +703,13 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
     else:
         orders = [elliptic_order(k, p, s, rr, a_max, fs) for k, p, s, rr in parts]
         limit = MAX_ELLIPTIC_ORDER
+    first = list(orders)
     while True:
+        if max(orders) - max(first) > _EXTRA_ORDERS:
+            raise SpecNotMetError(
+                f"{fspec.describe()} not met by {family} designs of order {max(first)} to "
+                f"{max(orders) - 1}: reached ripple {ripple:.4g} dB and attenuation "
+                f"{atten:.4g} dB", field="order")
         if max(orders) > limit:
             raise SpecNotMetError(
                 f"{fspec.describe()} needs a {family} order of {max(orders)} per filter, above "
@@ -711,7 +725,7 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
         sos = sos.copy()
         sos[0, :3] *= (1.0 + dp)
         ripple, atten = dfir.measure_spec(_chain_impulse(sos, None, fs), fspec, fs)
-        if ripple <= r * (1 + 1e-9) and atten >= a * (1 - 1e-9):
+        if ripple <= r and atten >= a:
             break
         orders = [n + 1 for n in orders]
     sos[0, :3] *= 10.0 ** (spec.pass_gain_db / 20.0)

@@ -177,10 +177,9 @@ def _build_lines(s) -> list[str]:
 
 def text(c) -> str:
     """The comparison as lines of at most 80 columns."""
-    lines = [f"{c.name}  ({c.sample_rate / 1000:g} kHz): IIR and FIR meeting each band's "
-             "magnitude spec",
-             f"spec read from each band's crossover: ripple {c.ripple_db:g} dB, "
-             f"attenuation {c.atten_db:g} dB", ""]
+    lines = [f"{c.name}  ({c.sample_rate / 1000:g} kHz)",
+             "IIR and FIR meeting the magnitude spec read from each band's crossover:",
+             f"ripple {c.ripple_db:g} dB, attenuation {c.atten_db:g} dB", ""]
     for b in c.bands:
         lines.extend(_band_lines(b))
         lines.append("")
