@@ -1,0 +1,281 @@
+"""IIR versus FIR comparison: specs read from a chain, equivalents, figures, builds."""
+
+import math
+
+import numpy as np
+import pytest
+from scipy import signal
+
+from planner import compare, engine, project
+from planner.dsp import fir as dfir
+from planner.dsp import iir
+from planner.errors import DesignError, SpecNotMetError
+
+from tests.conftest import two_way
+
+FS = 48000.0
+
+
+def _lr12_lowpass(fc=100.0):
+    # Two Butterworth 6 in cascade: a 12th-order (72 dB/octave) Linkwitz-Riley lowpass.
+    return np.vstack([iir.butterworth_sos("lowpass", 6, fc, FS)] * 2)
+
+
+@pytest.fixture(scope="module")
+def steep_iir():
+    """A steep IIR crossover (LR12 lowpass at 100 Hz) against its FIR equivalent."""
+    return compare.compare_chain(_lr12_lowpass(), None, FS, "LR12 lowpass 100 Hz")
+
+
+@pytest.fixture(scope="module")
+def steep_fir():
+    """A steep FIR lowpass (80 dB, 100 Hz transition at 48 kHz) against its IIR equivalent."""
+    spec = dfir.FirSpec("lowpass", 1950.0, 2050.0, 1.0, 80.0)
+    taps = dfir.min_taps_equiripple(spec, FS).taps
+    return compare.compare_chain(np.zeros((0, 6)), taps, FS, "steep FIR", 1.0, 80.0), taps
+
+
+class TestDeriveSpec:
+    def test_lr4_lowpass_edges_match_the_closed_form(self):
+        # LR4 = Butterworth 2 squared: |H|^2 = 1 / (1 + x^4)^2 on the prewarped axis
+        # x = tan(pi f/fs) / tan(pi fc/fs) (Linkwitz and Riley 1976; Oppenheim and
+        # Schafer sec. 7.2 for prewarping). 1 dB down at 1 + x^4 = 10^(1/20), 60 dB at
+        # 1 + x^4 = 10^3 (the peak is 0 dB at DC; the stop level is taken from the
+        # nominal gain, see the next test).
+        sos = iir.linkwitz_riley_sos("lowpass", 4, 2000.0, FS)
+        s = compare.derive_spec(sos, None, FS, 1.0, 60.0)
+        t = np.tan(np.pi * 2000.0 / FS)
+        fp = FS / np.pi * np.arctan(t * (10 ** (1 / 20) - 1) ** 0.25)
+        assert s.kind == "lowpass"
+        assert s.pass_hz == pytest.approx(fp, rel=1e-7)   # root finding to 1e-9
+
+    def test_stop_edge_is_atten_below_the_nominal_gain(self):
+        # Nominal gain = middle of the pass band's linear range [10^(-1/20), 1]
+        # (the FirSpec convention, Parks and McClellan 1972 deviations).
+        sos = iir.linkwitz_riley_sos("lowpass", 4, 2000.0, FS)
+        s = compare.derive_spec(sos, None, FS, 1.0, 60.0)
+        g = (1 + 10 ** (-1 / 20)) / 2
+        assert s.pass_gain_db == pytest.approx(20 * np.log10(g), abs=1e-9)
+        _, h = signal.sosfreqz(sos, worN=[s.stop_hz], fs=FS)   # scipy as reference
+        assert 20 * np.log10(abs(h[0])) == pytest.approx(20 * np.log10(g) - 60.0, abs=1e-6)
+
+    def test_highpass_and_bandpass_kinds(self):
+        hp = iir.butterworth_sos("highpass", 4, 500.0, FS)
+        lp = iir.butterworth_sos("lowpass", 4, 5000.0, FS)
+        assert compare.derive_spec(hp, None, FS).kind == "highpass"
+        s = compare.derive_spec(np.vstack([hp, lp]), None, FS)
+        assert s.kind == "bandpass"
+        assert s.stop_hz[0] < s.pass_hz[0] < s.pass_hz[1] < s.stop_hz[1]
+
+    def test_a_filter_that_never_gets_down_far_enough_is_refused(self):
+        # A 31-tap rectangular-window lowpass: side lobes near -21 dB at first,
+        # decaying only 6 dB/octave (Harris 1978), never 90 dB down before Nyquist.
+        h = dfir.window_fir("lowpass", 2000.0, FS, 31, "boxcar")
+        with pytest.raises(SpecNotMetError, match="atten_db: the crossover never falls 90 dB "
+                                                  "below its peak at either end"):
+            compare.derive_spec(np.zeros((0, 6)), h, FS, 1.0, 90.0)
+
+    def test_bad_numbers_are_refused(self):
+        sos = iir.butterworth_sos("lowpass", 2, 1000.0, FS)
+        with pytest.raises(DesignError, match="ripple_db: must be a positive number of dB"):
+            compare.derive_spec(sos, None, FS, -1.0, 60.0)
+        with pytest.raises(DesignError, match="atten_db: must be a number of dB above"):
+            compare.derive_spec(sos, None, FS, 3.0, 2.0)
+
+
+class TestIirEquivalent:
+    def _spec(self, kind="lowpass", fp=1000.0, fst=1500.0, r=1.0, a=60.0):
+        return compare.DerivedSpec(kind, fp, fst, r, a, 0.0)
+
+    def _scipy_gstop(self, r, a):
+        # The spec counts attenuation below the nominal (mid-ripple) gain, scipy below
+        # the pass-band maximum: gstop = A + 20 log10(1 + delta_p), plus the
+        # designs' 1e-3 dB margin.
+        dp = (10 ** (r / 20) - 1) / (10 ** (r / 20) + 1)
+        return a + 20 * np.log10(1 + dp) + 1e-3
+
+    @pytest.mark.parametrize("fp, fst", [(1000.0, 1500.0), (1000.0, 3000.0), (200.0, 260.0)])
+    def test_butterworth_order_agrees_with_scipy_buttord(self, fp, fst):
+        n = compare.butterworth_order("lowpass", fp, fst, 1.0, self._scipy_gstop(1.0, 60.0), FS)
+        ref, _ = signal.buttord(fp, fst, 1.0, self._scipy_gstop(1.0, 60.0), fs=FS)
+        assert n == ref
+
+    @pytest.mark.parametrize("kind, fp, fst", [("lowpass", 1950.0, 2050.0),
+                                                ("highpass", 2853.7, 2682.2),
+                                                ("lowpass", 246.3, 417.7)])
+    def test_elliptic_order_agrees_with_scipy_ellipord(self, kind, fp, fst):
+        g = self._scipy_gstop(1.0, 80.0)
+        n = compare.elliptic_order(kind, fp, fst, 1.0, g, FS)
+        ref, _ = signal.ellipord(fp, fst, 1.0, g, fs=FS)
+        assert n == ref
+
+    def test_auto_picks_butterworth_while_order_8_suffices(self):
+        sos, label = compare.iir_equivalent(self._spec(fst=3000.0), FS)
+        ref, _ = signal.buttord(1000.0, 3000.0, 1.0, self._scipy_gstop(1.0, 60.0), fs=FS)
+        assert label == f"butterworth order {ref}"
+
+    def test_the_equivalent_meets_the_spec(self):
+        spec = self._spec()
+        sos, _ = compare.iir_equivalent(spec, FS)
+        h = compare._chain_impulse(sos, None, FS)
+        r, a = dfir.measure_spec(h, spec.fir_spec(), FS)   # dense-grid measure
+        assert r <= 1.0 and a >= 60.0
+
+    def test_butterworth_beyond_order_8_is_refused_with_the_order(self):
+        with pytest.raises(SpecNotMetError, match="order: .* needs a butterworth order of "
+                                                  r"\d+ per filter, above the largest 8"):
+            compare.iir_equivalent(self._spec(fst=1100.0), FS, "butterworth")
+
+    def test_unknown_family_is_refused(self):
+        with pytest.raises(DesignError, match="iir_family: must be one of auto, butterworth"):
+            compare.iir_equivalent(self._spec(), FS, "chebyshev")
+
+
+class TestRuleOfThumb:
+    # Common practice, no published source: "an IIR of about 12th order can stand in
+    # for an FIR of around a thousand taps for a steep crossover, some 100x fewer
+    # multiplies per sample". The 100x compares taps with IIR order. In multiplies
+    # per sample a biquad costs 5 multiplies per 2 orders, and a linear-phase FIR
+    # folded needs ceil(N/2), so the honest ratio is about 100 / 2.5 = 40x with the
+    # FIR in direct form and 20x folded. The bands asserted are broad (a factor of 2
+    # below, about 10 above) around those.
+
+    def test_steep_iir_order_is_12(self, steep_iir):
+        assert steep_iir.iir.order == 12
+
+    def test_steep_iir_needs_about_a_thousand_fir_taps(self, steep_iir):
+        assert 500 <= steep_iir.fir.taps <= 2000
+
+    def test_taps_per_order_is_about_100(self, steep_iir):
+        assert 50 <= steep_iir.fir.taps / steep_iir.iir.order <= 200
+
+    def test_direct_form_multiplies_ratio_is_in_the_band(self, steep_iir):
+        ratio = steep_iir.fir.multiplies_per_sample_direct / steep_iir.iir.multiplies_per_sample
+        assert 20 <= ratio <= 500
+
+    def test_folded_multiplies_ratio_is_in_the_band(self, steep_iir):
+        ratio = steep_iir.fir.multiplies_per_sample / steep_iir.iir.multiplies_per_sample
+        assert 10 <= ratio <= 250
+
+    def test_steep_fir_gets_an_iir_of_about_12th_order(self, steep_fir):
+        # The same rule from the other side: ~1200 taps, an elliptic of order ~12.
+        c, taps = steep_fir
+        assert 8 <= c.iir.order <= 16
+        assert c.fir.taps == len(taps)
+
+
+class TestSides:
+    def test_fir_latency_is_exactly_half_its_length(self, steep_iir):
+        # Type I linear phase: delay (N-1)/2 samples (Oppenheim and Schafer sec. 5.7).
+        n = steep_iir.fir.taps
+        assert steep_iir.fir.latency_samples == (n - 1) / 2
+        assert steep_iir.fir.latency_ms == pytest.approx((n - 1) / 2 / FS * 1000, rel=1e-12)
+
+    def test_iir_latency_is_zero(self, steep_iir):
+        assert steep_iir.iir.latency_samples == 0.0
+
+    def test_fir_group_delay_is_constant(self, steep_iir):
+        # Linear phase: constant group delay where H != 0; 1e-9 ms allows rounding.
+        assert steep_iir.fir.group_delay_variation_ms < 1e-9
+
+    def test_iir_group_delay_varies(self, steep_iir):
+        assert steep_iir.iir.group_delay_variation_ms > 1.0
+
+    def test_fir_pre_ringing_is_half_the_energy_off_the_peak(self, steep_iir):
+        # Symmetric taps: the energy before the centre tap equals the energy after it,
+        # so pre = (1 - h_c^2 / sum h^2) / 2 (checked with numpy on the taps).
+        h = steep_iir.fir.fir
+        e = h * h
+        expected = (1 - e[len(h) // 2] / e.sum()) / 2
+        assert steep_iir.fir.pre_ringing == pytest.approx(expected, rel=1e-9)
+        assert steep_iir.fir.pre_ringing_db == pytest.approx(10 * np.log10(expected), rel=1e-9)
+
+    def test_highpass_iir_has_no_pre_ringing(self):
+        # A causal highpass's largest sample is its first one (b0 > 0): nothing before it.
+        c = compare.compare_chain(iir.linkwitz_riley_sos("highpass", 4, 2000.0, FS), None, FS)
+        assert c.iir.pre_ringing == 0.0
+        assert c.iir.pre_ringing_db == -math.inf
+
+    def test_multiplies_count_5_per_section_and_folded_taps(self, steep_iir):
+        # Oppenheim and Schafer sec. 6.3 (5 per biquad), 6.5.3 (folded linear phase).
+        assert steep_iir.iir.multiplies_per_sample == 5 * steep_iir.iir.sections
+        assert steep_iir.fir.multiplies_per_sample == (steep_iir.fir.taps + 1) // 2
+        assert steep_iir.fir.multiplies_per_sample_direct == steep_iir.fir.taps
+
+    def test_fir_equivalent_meets_the_spec(self, steep_iir):
+        assert steep_iir.fir.ripple_db <= 1.0
+        assert steep_iir.fir.atten_db >= 60.0
+
+    def test_fir_equivalent_is_the_shortest(self, steep_iir):
+        # Two taps fewer (odd lengths) misses the spec: the search's minimality,
+        # checked with scipy.signal.remez directly.
+        s = steep_iir.spec
+        n = steep_iir.fir.taps - 2
+        h = dfir.equiripple_fir(s.fir_spec(), FS, n)
+        r, a = dfir.measure_spec(h, s.fir_spec(), FS)
+        assert r > 1.0 or a < 60.0
+
+
+@pytest.fixture(scope="module")
+def lr4():
+    """An LR4 2-way at 2 kHz."""
+    return project.from_dict(two_way(order=4, fc=2000.0))
+
+
+class TestProject:
+    def test_iir_build_of_an_iir_project_is_the_project(self, lr4):
+        # Every band keeps its own design: the sum's flatness is that of `check`.
+        c = compare.compare_project(lr4)
+        r = engine.analyse(lr4)
+        assert c.iir_sum.max_dev_db == pytest.approx(r.max_dev_db, abs=1e-12)
+
+    def test_fir_build_aligns_the_bands(self, lr4):
+        c = compare.compare_project(lr4)
+        lat = [b.fir.latency_samples for b in c.bands]
+        assert [max(lat) - x for x in lat] == c.fir_sum.align_samples
+        assert c.fir_sum.latency_samples == max(lat)
+
+    def test_band_without_crossover_is_listed_not_compared(self):
+        d = two_way()
+        d["bands"].append({"name": "fill", "filters": [
+            {"type": "peaking", "freq": 1000, "gain_db": -3, "q": 2}]})
+        c = compare.compare_project(project.from_dict(d))
+        assert c.bands[2].status == compare.NO_CROSSOVER
+        assert c.ok and c.fir_sum.complete
+
+    def test_unmet_band_makes_the_comparison_fail_and_names_it(self):
+        d = two_way(order=4, fc=2000.0)
+        c = compare.compare_project(project.from_dict(d), 1.0, 60.0, max_taps=9)
+        assert not c.ok
+        assert c.bands[0].status == compare.NOT_MET
+        assert "band low: taps:" in c.bands[0].message
+        assert not c.fir_sum.complete and c.fir_sum.missing
+
+    def test_to_dict_keys(self, lr4):
+        d = compare.compare_project(lr4).to_dict()
+        assert set(d) == {"ok", "name", "sample_rate", "ripple_db", "atten_db", "iir_family",
+                          "bands", "sum"}
+        assert set(d["sum"]) == {"iir", "fir"}
+        assert set(d["bands"][0]["fir"]) == {
+            "source", "design", "order", "taps", "sections", "multiplies_per_sample",
+            "multiplies_per_sample_direct", "latency_samples", "latency_ms",
+            "group_delay_variation_ms", "pre_ringing", "pre_ringing_db", "ripple_db",
+            "atten_db"}
+
+    def test_progress_ends_at_one_and_cancel_stops(self, lr4):
+        seen = []
+        compare.compare_project(lr4, progress=seen.append)
+        assert seen[-1] == 1.0 and all(b >= a for a, b in zip(seen, seen[1:]))
+        with pytest.raises(dfir.DesignCancelled, match="taps: the design was cancelled"):
+            compare.compare_project(lr4, cancel=lambda: True)
+
+    def test_fir_split_project_gets_iir_equivalents(self):
+        # The shipped complementary split: FIR bands, elliptic equivalents; the FIR
+        # build (the project) sums flat to rounding (Oppenheim and Schafer ch. 7).
+        from planner import presets_lib
+
+        p = presets_lib.load("fir-three-way")
+        c = compare.compare_project(p)
+        assert [b.own for b in c.bands] == ["fir", "fir", "fir"]
+        assert all(b.iir.design.startswith("elliptic") for b in c.bands)
+        assert abs(c.fir_sum.max_dev_db) < 1e-9
