@@ -297,7 +297,7 @@ def _fmt_hz(f: float) -> str:
 
 
 #: Latencies closer than this (samples) count as equal: a thousandth of a
-#: sample is a phase error below 0.4 deg at fs/2 (360 deg x 0.001).
+#: sample is a phase error of at most 0.18 deg, reached at fs/2 (180 deg x 0.001).
 LATENCY_TOL_SAMPLES = 1e-3
 
 
