@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from planner.dsp.analysis import db, wrap_deg
@@ -10,6 +12,7 @@ from planner.filters import format_hz
 from planner.plots import Series, freq_plot, time_plot
 
 __all__ = ["text_report", "view_series", "plot_report", "time_series", "plot_time",
+           "compare_text",
            "SAFETY_NOTE"]
 
 SAFETY_NOTE = (
@@ -146,3 +149,138 @@ def plot_time(tr, title: str, width: int = 80, height: int = 22, color: bool | N
     """The impulse or step plot of ``crossplan plot --view impulse|step`` (time in ms)."""
     return time_plot(time_series(tr, span_ms), width=width, height=height, xlabel="ms",
                      ylabel="", title=f"{title}: {tr.kind} response", color=color)
+
+
+# --------------------------------------------------------------------------
+# the IIR-versus-FIR comparison as a table (80 columns; `crossplan compare`, the editor)
+
+_LABEL, _COL = 20, 29   # label and IIR column widths
+
+
+def _hz(f: float) -> str:
+    return format_hz(f)
+
+
+def _spec_line(s) -> str:
+    if s.kind == "lowpass":
+        where = f"pass to {_hz(s.pass_hz)}, stop from {_hz(s.stop_hz)}"
+    elif s.kind == "highpass":
+        where = f"pass from {_hz(s.pass_hz)}, stop below {_hz(s.stop_hz)}"
+    else:
+        where = (f"pass {_hz(s.pass_hz[0])}-{_hz(s.pass_hz[1])}, "
+                 f"stop below {_hz(s.stop_hz[0])} and from {_hz(s.stop_hz[1])}")
+    return f"{s.kind}: {where}, level {s.pass_gain_db:+.2f} dB"
+
+
+def _row(label: str, a: str, b: str) -> list[str]:
+    """One table row; a cell too long for its column goes on to the next lines."""
+    import textwrap
+
+    ca = textwrap.wrap(a, _COL - 1) or [""]
+    cb = textwrap.wrap(b, 80 - _LABEL - _COL) or [""]
+    out = []
+    for k in range(max(len(ca), len(cb))):
+        x = ca[k] if k < len(ca) else ""
+        y = cb[k] if k < len(cb) else ""
+        out.append(f"  {label if k == 0 else '':<{_LABEL - 2}}{x:<{_COL}}{y}".rstrip())
+    return out
+
+
+def _pct(x: float, x_db: float) -> str:
+    if x <= 0:
+        return "none"
+    return f"{100 * x:.1f} % ({x_db:.1f} dB)"
+
+
+def _ratio(x: float | None) -> str:
+    if x is None:
+        return "-"
+    if not math.isfinite(x):
+        return "inf"
+    return f"{x:.3g}x"
+
+
+def _band_lines(b) -> list[str]:
+    lines = [f"{b.name}"]
+    if b.status != "ok":
+        if b.message:
+            lines.append(f"  {b.status}: {b.message}")
+        else:
+            lines.append(f"  {b.status} (full-range EQ only)")
+        return lines
+    lines[0] += f"  {_spec_line(b.spec)}"
+    i, f = b.iir, b.fir
+
+    def who(side, family):
+        return f"{family} ({'project' if side.source == 'project' else 'equivalent'})"
+
+    rows = [
+        ("", who(i, "IIR"), who(f, "FIR")),
+        ("design", i.design, f.design),
+        ("order / taps", f"order {i.order}, {i.sections} sections", f"{f.taps} taps"),
+        ("multiplies/sample", f"{i.multiplies_per_sample}",
+         f"{f.multiplies_per_sample} ({f.multiplies_per_sample_direct} direct)"),
+        ("latency", f"{i.latency_samples:g} smp = {i.latency_ms:.3f} ms",
+         f"{f.latency_samples:g} smp = {f.latency_ms:.3f} ms"),
+        ("group delay var.", f"{i.group_delay_variation_ms:.3f} ms",
+         f"{f.group_delay_variation_ms:.3f} ms"),
+        ("pre-ringing", _pct(i.pre_ringing, i.pre_ringing_db),
+         _pct(f.pre_ringing, f.pre_ringing_db)),
+        ("measured ripple", f"{i.ripple_db:.2f} dB", f"{f.ripple_db:.2f} dB"),
+        ("measured atten.", f"{i.atten_db:.1f} dB", f"{f.atten_db:.1f} dB"),
+    ]
+    for r in rows:
+        lines.extend(_row(*r))
+    lines.append(f"  {'FIR / IIR':<{_LABEL - 2}}multiplies {_ratio(b.multiplies_ratio)} "
+                 f"({_ratio(b.multiplies_ratio_direct)} with the FIR in direct form)")
+    return lines
+
+
+def _build_lines(s) -> list[str]:
+    head = f"sum, all {s.family.upper()}"
+    if not s.complete:
+        return [f"{head:<{_LABEL}}not built: no {s.family.upper()} design for "
+                f"{', '.join(s.missing)}"]
+    lat = f"{'':<{_LABEL}}latency {s.latency_samples:g} smp = {s.latency_ms:.3f} ms"
+    if s.max_dev_db is None:
+        return [f"{head:<{_LABEL}}every band is muted", lat]
+    return [f"{head:<{_LABEL}}{s.max_dev_db:+.2f} dB at {_hz(s.at_hz)}, ripple "
+            f"{s.ripple_db:.2f} dB", lat]
+
+
+def compare_text(c) -> str:
+    """A :class:`planner.compare.Comparison` as lines of at most 80 columns."""
+    lines = [f"{c.name}  ({c.sample_rate / 1000:g} kHz)",
+             "IIR and FIR meeting the magnitude spec read from each band's crossover:",
+             f"ripple {c.ripple_db:g} dB, attenuation {c.atten_db:g} dB", ""]
+    for b in c.bands:
+        lines.extend(_band_lines(b))
+        lines.append("")
+    lines.extend(_build_lines(c.iir_sum))
+    lines.extend(_build_lines(c.fir_sum))
+    al = c.fir_sum.align_samples
+    if c.fir_sum.complete and any(al):
+        lines.append(" " * _LABEL + "aligned: " + ", ".join(
+            f"{b.name} +{a:g}" for b, a in zip(c.bands, al) if a) + " samples")
+    if c.fir_sum.inverted:
+        lines.append(" " * _LABEL + f"kept inverted as in the project: "
+                     f"{', '.join(c.fir_sum.inverted)}")
+    if c.fir_sum.complete and c.fir_sum.max_dev_db is not None and any(
+            b.own == "iir" for b in c.bands if b.status == "ok"):
+        lines.append(" " * _LABEL + "(independent equivalents are not complementary: for a "
+                     "flat")
+        lines.append(" " * _LABEL + " FIR sum use a split of the fir family)")
+    return "\n".join(_wrap(lines))
+
+
+def _wrap(lines: list[str], width: int = 80) -> list[str]:
+    import textwrap
+
+    out = []
+    for line in lines:
+        if len(line) <= width:
+            out.append(line)
+            continue
+        indent = len(line) - len(line.lstrip())
+        out.extend(textwrap.wrap(line, width, subsequent_indent=" " * (indent + 2)))
+    return out
