@@ -147,6 +147,7 @@ class CrossplanApp(App):
         self.view = views.VIEWS[0]
         self.report: engine.Report | None = None
         self.arith_export = None     # planner.export.RateExport for analysis.arith, if set
+        self._impulse_cache = None   # (report, its TimeResponse) for the time views
         self.cursor_hz = self._default_cursor(project)
         self.analysis_ms: float | None = None
         self._gen = 0
@@ -284,10 +285,26 @@ class CrossplanApp(App):
         self.query_one(WarningList).show(items)
         self.show_plot()
 
+    def _impulse(self):
+        """The current report's impulse responses, made on first use (the time views)."""
+        r = self.report
+        if self._impulse_cache is None or self._impulse_cache[0] is not r:
+            self._impulse_cache = (r, views.impulse_of(r))
+        return self._impulse_cache[1]
+
     def show_plot(self) -> None:
         if self.report is None:
             return
-        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz)
+        impulse = None
+        if self.view in views.TIME_VIEWS:
+            try:
+                impulse = self._impulse()
+            except CrossplanError as e:
+                data = views.PlotData((), "", None, f"{self.view}: none", (), self.cursor_hz, None)
+                self.query_one(PlotView).data = data
+                self.query_one(Readout).update(f"no {self.view} response: {e}")
+                return
+        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz, impulse)
         self.query_one(PlotView).data = data
         self.query_one(Readout).show(data)
 

@@ -15,13 +15,17 @@ from planner.dsp.analysis import db
 from planner.engine import Report
 from planner.filters import format_hz
 from planner.plots import Series
-from planner.report import phase_difference_deg, view_series
+from planner.report import phase_difference_deg, time_series, view_series
 
-__all__ = ["VIEWS", "PlotData", "plot_data", "crossing_pair", "readout", "check_lines",
+__all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair", "readout", "check_lines",
            "arith_line", "WarningItem", "warning_items", "arith_warning_items"]
 
 #: The plot views, in the order the view key steps through them.
-VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference")
+VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference", "impulse",
+         "step")
+
+#: The views drawn against time (ms) rather than frequency.
+TIME_VIEWS = ("impulse", "step")
 
 #: How far the difference views reach either side of their crossing (octaves).
 _DIFF_SPAN_OCT = 2.0
@@ -38,6 +42,7 @@ class PlotData:
     marks_hz: tuple[float, ...]
     cursor_hz: float
     hline: float | None
+    time: bool = False          # x is time in ms (impulse, step), else frequency in Hz
 
 
 def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
@@ -59,10 +64,20 @@ def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
     return min(band, other), max(band, other), None
 
 
-def plot_data(r: Report, view: str, band: int, cursor_hz: float) -> PlotData:
-    """The series, unit, range and marks of ``view`` (one of :data:`VIEWS`)."""
+def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -> PlotData:
+    """The series, unit, range and marks of ``view`` (one of :data:`VIEWS`).
+
+    The time views need ``impulse``, the report's
+    :class:`planner.timeresp.TimeResponse` (see :func:`impulse_of`).
+    """
     marks = tuple(c.freq_hz for c in r.checked_crossings)
-    name = r.project.name
+    if view in TIME_VIEWS:
+        if impulse is None:
+            raise ValueError(f"the {view} view needs the impulse responses")
+        tr = impulse if view == "impulse" else impulse.step()
+        series = time_series(tr)
+        return PlotData(tuple(series), "", None, f"{view} response (time in ms)", (),
+                        cursor_hz, None, time=True)
     if view in ("magnitude", "phase", "delay"):
         series, unit, ylim = view_series(r, view)
         return PlotData(tuple(series), unit, ylim, f"{view} ({unit})", marks, cursor_hz,
@@ -103,8 +118,34 @@ def _r1(v: float) -> float:
     return round(v, 1) + 0.0
 
 
+def impulse_of(r: Report):
+    """The impulse responses of the report's bands and sum (:mod:`planner.timeresp`)."""
+    from planner.timeresp import impulse_responses
+
+    return impulse_responses(r.designs, r.project.sample_rate,
+                             [b.name for b in r.project.bands], r.active)
+
+
+def _peak_readout(d: PlotData) -> str:
+    """``"peak ms/value: woofer 1.02/+0.31 tweeter 0.10/+0.52 sum ..."``: the largest |value|
+    of each series, and when."""
+    parts = []
+    for s in d.series:
+        y = np.asarray(s.y, float)
+        label = s.label.replace(" (off)", "")
+        if not len(y) or not np.any(y):
+            parts.append(f"{label} --")
+            continue
+        k = int(np.argmax(np.abs(y)))
+        parts.append(f"{label} {float(s.x[k]):.2f}/{y[k]:+.2f}")
+    return "peak ms/value: " + " ".join(parts)
+
+
 def readout(d: PlotData) -> str:
-    """``"at 2.4 kHz dB: woofer -6.0 tweeter -6.0 sum +0.0"`` (interpolated linearly in log f)."""
+    """``"at 2.4 kHz dB: woofer -6.0 tweeter -6.0 sum +0.0"`` (interpolated linearly in log f);
+    for the time views, where and how high each response peaks."""
+    if d.time:
+        return _peak_readout(d)
     parts = []
     for s in d.series:
         v = _at(s, d.cursor_hz)

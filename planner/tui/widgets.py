@@ -19,7 +19,7 @@ from textual.widgets.option_list import Option
 from planner import units
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
-from planner.plots import freq_plot
+from planner.plots import freq_plot, time_plot
 from planner.tui.views import PlotData, WarningItem, readout
 
 __all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "FilterForm",
@@ -279,6 +279,10 @@ class PlotView(Widget):
             return Text("analysing ...")
         if w < 20 or h < 6:
             return Text("(too small for a plot)")
+        if d.time:
+            s = time_plot(d.series, width=w, height=h, xlabel="ms", ylabel=d.unit,
+                          title=d.title, color=self.color)
+            return Text.from_ansi(s, no_wrap=True)
         marks = (*d.marks_hz, d.cursor_hz)
         s = freq_plot(d.series, width=w, height=h, ylabel=d.unit, ylim=d.ylim, title=d.title,
                       color=self.color, marks_hz=marks, hline=d.hline)

@@ -288,6 +288,12 @@ async def test_views_cycle_and_the_cursor_reads_values():
             assert app.view == expected
         assert plot.data.title.startswith("woofer - tweeter near 2.4 kHz")
         assert "woofer - tweeter level" in screen_text(app)
+        for expected in ("impulse", "step", "magnitude"):
+            await pilot.press("v")
+            assert app.view == expected
+            if expected != "magnitude":
+                assert f"{expected} response (time in ms)" in screen_text(app)
+                assert "peak ms/value: woofer" in screen_text(app)
 
 
 async def test_settings_refuse_a_rate_that_puts_filters_above_nyquist():

@@ -86,3 +86,43 @@ def test_arith_line_ok_reads_worst_deviation_and_internal_peak():
     assert line.startswith("arith     ok   float32: max dev ")
     assert len(line) <= 78  # fits the check bar at 80 columns
     assert views.arith_warning_items(rx) == []  # float32 has the range for any internal peak
+
+
+def test_impulse_view_series_equal_sosfilt_of_a_unit_impulse():
+    # scipy.signal.sosfilt as reference: each band's series is its chain's impulse response.
+    import numpy as np
+    from scipy import signal
+
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "impulse", 0, 2000.0, views.impulse_of(r))
+    assert d.time and [s.label for s in d.series] == ["low", "high", "sum"]
+    low = d.series[0]
+    x = np.zeros(len(low.y))
+    x[0] = 1.0
+    ref = signal.sosfilt(r.designs[0].sos, x)
+    assert np.max(np.abs(low.y - ref)) < 1e-12   # float rounding of two cascades
+    assert low.x[1] - low.x[0] == pytest.approx(1000.0 / 48000)   # ms per sample
+
+
+def test_step_view_of_lr4_sum_settles_at_one():
+    # Linkwitz and Riley 1976: the LR4 sum is an all-pass, unity at DC, so its step
+    # response settles at 1; the lowpass band alone also settles at 1 (its DC gain).
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "step", 0, 2000.0, views.impulse_of(r))
+    low, high, total = d.series
+    assert low.y[-1] == pytest.approx(1.0, abs=1e-3) and total.y[-1] == pytest.approx(1.0,
+                                                                                     abs=1e-3)
+    assert abs(high.y[-1]) < 1e-3   # a highpass passes no DC
+
+
+def test_time_view_readout_names_each_peak():
+    r = engine.analyse(lr4_pair())
+    d = views.plot_data(r, "impulse", 0, 2000.0, views.impulse_of(r))
+    text = views.readout(d)
+    assert text.startswith("peak ms/value: low ") and " sum " in text
+
+
+def test_time_view_without_impulse_raises():
+    r = engine.analyse(lr4_pair())
+    with pytest.raises(ValueError, match="needs the impulse responses"):
+        views.plot_data(r, "step", 0, 2000.0)
