@@ -45,10 +45,16 @@ _Q_DEFAULT = 0.7071067811865476
 
 
 def _rebuild(p: Project, change: Callable[[dict], None]) -> Project:
-    """Apply ``change`` to the JSON form of ``p`` and check the result as a file would be."""
+    """Apply ``change`` to the JSON form of ``p`` and check the result as a file would be.
+
+    Every field is checked; the designs themselves are left to the analysis
+    (``design=False``), so that an edit never waits for a long FIR search:
+    the editor designs in a worker, with progress and cancel, and undoes an
+    edit whose design cannot be made.
+    """
     d = pj.to_dict(p)
     change(d)
-    return pj.from_dict(d)
+    return pj.from_dict(d, design=False)
 
 
 def _band(d: dict, i: int) -> dict:
@@ -232,7 +238,8 @@ def set_filter_type(p: Project, band: int, flt: int, type_: str,
     With ``family=None`` for a type that has families, the current family is
     kept when the new type has it, else the type's first family is used.
     Parameters the new kind does not have are dropped; required ones it
-    lacks get plain values (1 kHz, 0 dB, Q 0.707, order 2 or LR order 4).
+    lacks get plain values (1 kHz, 0 dB, Q 0.707, order 2 or LR order 4; an
+    FIR gets a Kaiser window sized for 60 dB, see :func:`_seed_fir`).
     """
     fams = fk.families_of(type_)
     if family is None and fams and fams != [None]:
@@ -258,10 +265,38 @@ def set_filter_type(p: Project, band: int, flt: int, type_: str,
                 value = _fallback(spec, old, kind.family)
                 if value is not None:
                     new[spec.name] = value
+        if kind.family == "fir":
+            _seed_fir(kind.type, new, old, float(d["sample_rate"]))
         if old.get("bypass"):
             new["bypass"] = True
         _chain(d, band)[flt] = new
     return _rebuild(p, change)
+
+
+def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
+    """Starting values for a filter just made an FIR, so that it designs at once.
+
+    A lowpass, highpass or bandpass gets a Kaiser window sized by Kaiser's
+    formula for 60 dB over a transition half as wide as its frequency (a
+    gentle, short start; tighten it in the form). A split band gets the old
+    frequency as its one crossover, band 0 and 1023 taps.
+    """
+    nyq = fs_hz / 2
+    f = float(old.get("freq", 1000.0))
+    if type_ == "split":
+        new.setdefault("crossovers", [f])
+        new.setdefault("band", 0)
+        new.setdefault("taps", 1023)
+        return
+    if type_ == "bandpass" and not new.get("freq2", 0) > f:
+        new["freq2"] = min(4 * f, 0.45 * fs_hz)
+    if any(k in new for k in ("taps", "transition_hz", "pass_hz", "stop_hz")):
+        return
+    top = new.get("freq2", f)
+    tw = min(0.5 * f, 0.9 * 2 * (nyq - top))
+    if type_ == "bandpass":
+        tw = min(tw, 0.5 * (new["freq2"] - f))
+    new.update(window="kaiser", transition_hz=float(f"{tw:.3g}"), atten_db=60.0)
 
 
 # -- analysis and rate --------------------------------------------------------------------

@@ -65,11 +65,14 @@ def _obj(v: Any, field: str) -> Mapping:
     return v
 
 
-def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
+def check_filter(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> Filter:
     """Check one filter's JSON form at ``fs_hz`` and return the :class:`Filter`.
 
-    The filter is also designed once, so that a filter that cannot be made
-    (for example an FIR spec that cannot be met) is refused here.
+    With ``design`` (the default) the filter is also designed once, so that a
+    filter that cannot be made (for example an FIR spec that cannot be met)
+    is refused here. ``design=False`` leaves that to the analysis (the
+    editor runs it in a worker, where a long search shows progress and can
+    be cancelled).
     """
     raw = _obj(raw, "")
     if "type" not in raw:
@@ -84,13 +87,14 @@ def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
     known = _FILTER_BASE | {f.name for f in kind.fields}
     extra = {k: v for k, v in raw.items() if k not in known}
     flt = Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
-    from planner.engine import design_filter  # the design cache lives there
+    if design:
+        from planner.engine import design_filter  # the design cache lives there
 
-    design_filter(flt, fs_hz)
+        design_filter(flt, fs_hz)
     return flt
 
 
-def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
+def check_band(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> Band:
     """Check one band's JSON form and return the :class:`Band`."""
     raw = _obj(raw, "")
     name = raw.get("name")
@@ -102,7 +106,7 @@ def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
     chain = []
     for j, f in enumerate(flist):
         try:
-            chain.append(check_filter(f, fs_hz))
+            chain.append(check_filter(f, fs_hz, design))
         except CrossplanError as e:
             raise e.at(f"filters[{j}]") from None
     driver = raw.get("driver")
@@ -158,8 +162,11 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
     )
 
 
-def from_dict(raw: Any) -> Project:
+def from_dict(raw: Any, design: bool = True) -> Project:
     """Check a project's JSON form (already parsed) and return the :class:`Project`.
+
+    With ``design`` (the default) every filter is designed once, so that one
+    that cannot be made is refused here; see :func:`check_filter`.
 
     Raises
     ------
@@ -193,7 +200,7 @@ def from_dict(raw: Any) -> Project:
     bands, seen = [], {}
     for i, b in enumerate(blist):
         try:
-            band = check_band(b, fs)
+            band = check_band(b, fs, design)
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
         if band.name in seen:

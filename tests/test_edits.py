@@ -256,3 +256,16 @@ def test_nyquist_problems_lists_every_offender(p):
     bad = E.nyquist_problems(p, 4000)
     assert [b.split(" ")[0] for b in bad] == [
         "bands[0].filters[1].freq", "bands[1].filters[0].freq", "bands[1].filters[1].freq"]
+
+
+@pytest.mark.parametrize("type_", ["lowpass", "highpass", "bandpass", "split"])
+def test_a_filter_made_fir_designs_at_once(type_):
+    # The starting FIR of the form (Kaiser window sized by Kaiser 1974 for 60 dB, or a
+    # 1023-tap split band) must check and design, not ask for fields first.
+    from planner import engine
+
+    p = presets_lib.load("two-way")
+    q = E.set_filter_type(p, 0, 1, type_, "fir")
+    f = q.bands[0].filters[1]
+    assert (f.type, f.family) == (type_, "fir")
+    assert engine.analyse(q).bands[0].fir_taps > 0

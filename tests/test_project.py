@@ -158,3 +158,26 @@ def test_analysis_arith_bad_names_field(example):
     raw["analysis"]["arith"] = "q0.5"
     with pytest.raises(ProjectError, match=r"analysis\.arith: 'q0\.5' is not a known format"):
         project.from_dict(raw)
+
+
+def _impossible_fir(example):
+    raw = json.loads(json.dumps(example))
+    raw["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", "method": "remez",
+                                     "freq": 2200, "transition_hz": 100, "atten_db": 80,
+                                     "max_taps": 101}
+    return raw
+
+
+def test_loading_designs_and_refuses_an_fir_spec_that_cannot_be_met(example):
+    # Herrmann et al. 1973: about 1600 taps are needed for 80 dB over 100 Hz at 48 kHz.
+    with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps: .*max_taps 101"):
+        project.from_dict(_impossible_fir(example))
+
+
+def test_design_false_checks_fields_but_leaves_the_design_to_the_analysis(example):
+    p = project.from_dict(_impossible_fir(example), design=False)
+    assert p.bands[0].filters[1].params["max_taps"] == 101
+    raw = _impossible_fir(example)
+    raw["bands"][0]["filters"][1]["taps"] = 100   # a field error is still refused
+    with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps"):
+        project.from_dict(raw, design=False)

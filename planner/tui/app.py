@@ -22,7 +22,9 @@ from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
 from planner import edits, engine, project as pj, units
-from planner.errors import CrossplanError, ProjectError
+from planner import progress
+from planner.dsp.fir import DesignCancelled
+from planner.errors import CrossplanError, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
 from planner.report import SAFETY_NOTE
@@ -135,7 +137,8 @@ class CrossplanApp(App):
         Binding("w", "focus_warnings", "Warnings", show=False),
         Binding("S", "save_as", "Save as", show=False),
         Binding("o,ctrl+o", "open", "Open", show=False),
-        Binding("escape", "back", "Back to chain", show=False),
+        Binding("escape", "back", "Back to chain / cancel a design", show=False),
+        Binding("ctrl+r", "reanalyse", "Design and check again", show=False),
     ]
 
     def __init__(self, project: Project, path: str | None = None) -> None:
@@ -152,6 +155,8 @@ class CrossplanApp(App):
         self.analysis_ms: float | None = None
         self._gen = 0
         self._busy = False
+        self._designing = False      # a long design is reporting progress
+        self._cancel_gen = -1        # the analysis the user asked to stop
         self._error: str | None = None
 
     # -- layout ---------------------------------------------------------------------------
@@ -252,29 +257,76 @@ class CrossplanApp(App):
 
     @work(thread=True, exclusive=True, group="analysis")
     def _analyse(self, project: Project, gen: int) -> None:
+        """Design and check ``project`` in a thread; long designs report progress and stop
+        when a newer analysis starts or the user cancels (Escape)."""
         t0 = time.perf_counter()
-        try:
-            report = engine.analyse(project)
-            rx = None
-            if project.analysis.arith is not None:
-                from planner import export
+        shown = [-1, ""]
 
-                rx = export.export_rate(project, project.sample_rate, project.analysis.arith)
-        except CrossplanError as e:
-            self.call_from_thread(self._analysis_failed, gen, str(e))
+        def report(fraction: float, text: str) -> None:
+            pct = int(fraction * 100)
+            if (pct, text) != tuple(shown) and gen == self._gen:
+                shown[:] = [pct, text]
+                self.call_from_thread(self._design_progress, gen, fraction, text)
+
+        def cancel() -> bool:
+            return gen != self._gen or self._cancel_gen == gen
+
+        try:
+            with progress.scope(report=report, cancel=cancel):
+                report_ = engine.analyse(project)
+                rx = None
+                if project.analysis.arith is not None:
+                    from planner import export
+
+                    rx = export.export_rate(project, project.sample_rate,
+                                            project.analysis.arith)
+        except DesignCancelled:
+            self.call_from_thread(self._design_cancelled, gen)
             return
-        self.call_from_thread(self._analysis_done, gen, report,
+        except CrossplanError as e:
+            self.call_from_thread(self._analysis_failed, gen, e)
+            return
+        self.call_from_thread(self._analysis_done, gen, report_,
                               (time.perf_counter() - t0) * 1000.0, rx)
 
-    def _analysis_failed(self, gen: int, message: str) -> None:
-        if gen == self._gen:
-            self._busy = False
-            self.query_one(CheckBar).show(None, error=message)
+    def _design_progress(self, gen: int, fraction: float, text: str) -> None:
+        if gen == self._gen and self._busy:
+            self._designing = True
+            self.query_one(CheckBar).show(None, progress=(fraction, text))
+
+    def _drop_edit(self, gen: int) -> bool:
+        """Undo the edit whose designs could not be made (when it is the last one)."""
+        if gen == self._gen and self.history.can_undo:
+            self.history.undo()
+            return True
+        return False
+
+    def _design_cancelled(self, gen: int) -> None:
+        if gen != self._gen and self._cancel_gen != gen:
+            return
+        self._busy = self._designing = False
+        if self._drop_edit(gen):
+            self.notify("design cancelled: the edit is undone", timeout=4)
+            self.call_later(self.show_project)
+        else:
+            self.query_one(CheckBar).show(None, error="design cancelled; edit the filter or "
+                                                      "press ctrl+r to design again")
+
+    def _analysis_failed(self, gen: int, error: CrossplanError) -> None:
+        if gen != self._gen:
+            return
+        self._busy = self._designing = False
+        if isinstance(error, SpecNotMetError) and self._drop_edit(gen):
+            # Never keep a filter that misses its spec: the edit is refused and undone.
+            self.notify(f"refused: {error}", severity="error", timeout=10)
+            self.call_later(self.show_project)
+            return
+        self.query_one(CheckBar).show(None, error=str(error))
 
     def _analysis_done(self, gen: int, report: engine.Report, ms: float, rx=None) -> None:
         if gen != self._gen or report.project is not self.project:
             return
-        self._busy = False
+        self._busy = self._designing = False
         self.report = report
         self.arith_export = rx
         self.analysis_ms = ms
@@ -575,7 +627,14 @@ class CrossplanApp(App):
     def action_focus_warnings(self) -> None:
         self.query_one(WarningList).focus()
 
+    def action_reanalyse(self) -> None:
+        self.request_analysis()
+
     def action_back(self) -> None:
+        if self._designing:
+            self._cancel_gen = self._gen
+            self.query_one(CheckBar).show(None, progress=(0.0, "cancelling ..."))
+            return
         if isinstance(self.focused, Input) or isinstance(self.focused, WarningList):
             self.query_one(ChainList).focus()
 

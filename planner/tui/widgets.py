@@ -301,14 +301,26 @@ class Readout(Static):
 
 # -- checks ---------------------------------------------------------------------------------
 
+def progress_text(fraction: float, text: str) -> str:
+    """``"designing [#####-----]  50 %  FIR lowpass ...: fewest taps\n(Escape cancels)"``."""
+    cells = 20
+    full = int(round(min(max(fraction, 0.0), 1.0) * cells))
+    return (f"designing [{'#' * full}{'-' * (cells - full)}] {fraction * 100:3.0f} %  {text}\n"
+            "(Escape cancels; the edit is then undone)")
+
+
 class CheckBar(Static):
     """Sum flatness, worst crossing and headroom, always on screen ("ok"/"FAIL" as text)."""
 
     def __init__(self, **kw) -> None:
         super().__init__("analysing ...", markup=False, **kw)
 
-    def show(self, lines: tuple[str, ...] | None, busy: bool = False, error: str | None = None
-             ) -> None:
+    def show(self, lines: tuple[str, ...] | None, busy: bool = False, error: str | None = None,
+             progress: tuple[float, str] | None = None) -> None:
+        if progress is not None:
+            self.update(progress_text(*progress))
+            self.set_class(False, "-fail")
+            return
         if error:
             self.update(f"analysis FAIL: {error}")
             return

@@ -470,3 +470,50 @@ async def test_settings_fields_move_with_up_and_down():
         assert app.focused.id == "settings-f_max"
         await pilot.press("up")
         assert app.focused.id == "settings-f_min"
+
+
+def _with_fir_lowpass(p, **params):
+    """Project ``p`` with the woofer's lowpass replaced by an FIR lowpass of ``params``."""
+    d = project.to_dict(p)
+    d["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", **params}
+    return project.from_dict(d, design=False)   # as the editor's edits: designed in the worker
+
+
+async def test_an_fir_spec_that_cannot_be_met_is_refused_and_the_edit_undone():
+    # Herrmann et al. 1973: 80 dB over 100 Hz at 48 kHz needs about 1500 taps; 101 cannot.
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        bad = _with_fir_lowpass(p0, method="remez", freq=2400, transition_hz=100,
+                                atten_db=80, max_taps=101)
+        await app.commit(bad, "woofer lowpass FIR")
+        await settle(app, pilot)
+        await pilot.pause()
+        assert app.project is p0
+        assert app.report.project is p0
+        assert any("refused:" in n.message and "max_taps 101" in n.message
+                   for n in app._notifications)
+
+
+async def test_a_long_fir_design_shows_progress_and_escape_cancels_it():
+    import asyncio
+
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        # About 5000 taps (80 dB over 30 Hz): several remez trials of a second or more.
+        slow = _with_fir_lowpass(p0, method="remez", freq=2400, transition_hz=30, atten_db=80)
+        await app.commit(slow, "woofer lowpass FIR")
+        for _ in range(300):
+            await asyncio.sleep(0.05)
+            if app._designing:
+                break
+        assert app._designing
+        assert "designing [" in screen_text(app) and "Escape cancels" in screen_text(app)
+        await pilot.press("escape")
+        await settle(app, pilot)
+        await pilot.pause()
+        assert app.project is p0 and not app._designing
+        assert any("design cancelled" in n.message for n in app._notifications)
