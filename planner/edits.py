@@ -210,8 +210,28 @@ def set_filter_params(p: Project, band: int, flt: int, **params: Any) -> Project
             if value is None:
                 f.pop(key, None)
             else:
+                if key == "method" and f.get("family") == "fir" and f.get("method") != value:
+                    _drop_for_method(f, value, set(params))
                 f[key] = value
     return _rebuild(p, change)
+
+
+#: FIR fields that only one kind of method takes (see planner.filters_fir).
+_WINDOW_ONLY = ("window", "beta")
+_SPEC_ONLY = ("ripple_db", "pass_hz", "stop_hz", "max_taps")
+
+
+def _drop_for_method(f: dict, method: str, keep: set) -> None:
+    """An FIR's method changes: drop the fields the new method refuses (unless given now).
+
+    A window design takes ``window``/``beta`` and no ripple or explicit edges;
+    remez and lsq the reverse. ``transition_hz`` and ``atten_db`` serve both
+    (a Kaiser window is sized from them), so they stay.
+    """
+    drop = _SPEC_ONLY if method == "window" else _WINDOW_ONLY
+    for k in drop:
+        if k not in keep:
+            f.pop(k, None)
 
 
 def _fallback(spec: fk.FieldSpec, old: dict, family: str | None) -> Any:

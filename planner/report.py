@@ -172,12 +172,12 @@ def _spec_line(s) -> str:
     return f"{s.kind}: {where}, level {s.pass_gain_db:+.2f} dB"
 
 
-def _row(label: str, a: str, b: str) -> list[str]:
+def _row(label: str, a: str, b: str, width: int = 80) -> list[str]:
     """One table row; a cell too long for its column goes on to the next lines."""
     import textwrap
 
     ca = textwrap.wrap(a, _COL - 1) or [""]
-    cb = textwrap.wrap(b, 80 - _LABEL - _COL) or [""]
+    cb = textwrap.wrap(b, width - _LABEL - _COL) or [""]
     out = []
     for k in range(max(len(ca), len(cb))):
         x = ca[k] if k < len(ca) else ""
@@ -200,7 +200,7 @@ def _ratio(x: float | None) -> str:
     return f"{x:.3g}x"
 
 
-def _band_lines(b) -> list[str]:
+def _band_lines(b, width: int = 80) -> list[str]:
     lines = [f"{b.name}"]
     if b.status != "ok":
         if b.message:
@@ -230,7 +230,7 @@ def _band_lines(b) -> list[str]:
         ("measured atten.", f"{i.atten_db:.1f} dB", f"{f.atten_db:.1f} dB"),
     ]
     for r in rows:
-        lines.extend(_row(*r))
+        lines.extend(_row(*r, width=width))
     lines.append(f"  {'FIR / IIR':<{_LABEL - 2}}multiplies {_ratio(b.multiplies_ratio)} "
                  f"({_ratio(b.multiplies_ratio_direct)} with the FIR in direct form)")
     return lines
@@ -248,13 +248,13 @@ def _build_lines(s) -> list[str]:
             f"{s.ripple_db:.2f} dB", lat]
 
 
-def compare_text(c) -> str:
-    """A :class:`planner.compare.Comparison` as lines of at most 80 columns."""
+def compare_text(c, width: int = 80) -> str:
+    """A :class:`planner.compare.Comparison` as lines of at most ``width`` columns (>= 70)."""
     lines = [f"{c.name}  ({c.sample_rate / 1000:g} kHz)",
              "IIR and FIR meeting the magnitude spec read from each band's crossover:",
              f"ripple {c.ripple_db:g} dB, attenuation {c.atten_db:g} dB", ""]
     for b in c.bands:
-        lines.extend(_band_lines(b))
+        lines.extend(_band_lines(b, width))
         lines.append("")
     lines.extend(_build_lines(c.iir_sum))
     lines.extend(_build_lines(c.fir_sum))
@@ -270,7 +270,7 @@ def compare_text(c) -> str:
         lines.append(" " * _LABEL + "(independent equivalents are not complementary: for a "
                      "flat")
         lines.append(" " * _LABEL + " FIR sum use a split of the fir family)")
-    return "\n".join(_wrap(lines))
+    return "\n".join(_wrap(lines, width))
 
 
 def _wrap(lines: list[str], width: int = 80) -> list[str]:

@@ -269,3 +269,16 @@ def test_a_filter_made_fir_designs_at_once(type_):
     f = q.bands[0].filters[1]
     assert (f.type, f.family) == (type_, "fir")
     assert engine.analyse(q).bands[0].fir_taps > 0
+
+
+def test_changing_an_fir_method_drops_the_fields_it_refuses():
+    # window -> remez: the Kaiser start (window, transition_hz, atten_db) becomes a remez
+    # spec over the same transition; back to window drops the remez-only ripple.
+    p = E.set_filter_type(presets_lib.load("two-way"), 0, 1, "lowpass", "fir")
+    q = E.set_filter_params(p, 0, 1, method="remez")
+    f = q.bands[0].filters[1]
+    assert f.params["method"] == "remez" and "window" not in f.params
+    assert f.params["transition_hz"] == 1200.0
+    q = E.set_filter_params(q, 0, 1, ripple_db=0.5)
+    f = E.set_filter_params(q, 0, 1, method="window").bands[0].filters[1]
+    assert "ripple_db" not in f.params and f.params["atten_db"] == 60.0

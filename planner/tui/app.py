@@ -29,7 +29,8 @@ from planner.history import History
 from planner.model import Project
 from planner.report import SAFETY_NOTE
 from planner.tui import views
-from planner.tui.screens import ChoiceScreen, HelpScreen, PathScreen, SettingsScreen
+from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
+                                 SettingsScreen)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
@@ -139,6 +140,7 @@ class CrossplanApp(App):
         Binding("o,ctrl+o", "open", "Open", show=False),
         Binding("escape", "back", "Back to chain / cancel a design", show=False),
         Binding("ctrl+r", "reanalyse", "Design and check again", show=False),
+        Binding("C", "compare", "Compare IIR and FIR", show=False),
     ]
 
     def __init__(self, project: Project, path: str | None = None) -> None:
@@ -626,6 +628,10 @@ class CrossplanApp(App):
 
     def action_focus_warnings(self) -> None:
         self.query_one(WarningList).focus()
+
+    def action_compare(self) -> None:
+        """IIR versus FIR for every band (a screen of its own; the FIR searches run there)."""
+        self.push_screen(CompareScreen(self.project))
 
     def action_reanalyse(self) -> None:
         self.request_analysis()

@@ -1,19 +1,20 @@
-"""The editor's modal screens: help, a yes/no/cancel question, a path prompt, the analysis settings."""
+"""The editor's modal screens: help, a yes/no/cancel question, a path prompt, the analysis
+settings, and the IIR-versus-FIR comparison."""
 
 from __future__ import annotations
 
-from textual import on
+from textual import on, work
 from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
-from textual.screen import ModalScreen
+from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, Input, Label, Static
 
 from planner import units
 from planner.model import Project
-from planner.tui.widgets import FieldRow
+from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "SettingsScreen"]
+__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "SettingsScreen", "CompareScreen"]
 
 
 class HelpScreen(ModalScreen[None]):
@@ -165,3 +166,76 @@ class SettingsScreen(ModalScreen[None]):
         self.query_one("#settings-refusal", Static).update(f"refused: {message}" if message else "")
         for r in self.query(FieldRow):
             r.input.set_class(bool(message) and r.field_name == name, "-refused")
+
+
+class CompareScreen(Screen[None]):
+    """IIR versus FIR for every band of a project, computed in a worker.
+
+    The FIR searches can take seconds (a low crossover needs thousands of
+    taps): a progress bar shows meanwhile and Escape stops them; once the
+    table is there Escape closes the screen. The table is
+    :func:`planner.report.compare_text` (no DSP here).
+    """
+
+    BINDINGS = [Binding("escape,q", "close", "Close / stop")]
+
+    def __init__(self, project: Project) -> None:
+        super().__init__()
+        self._project = project
+        self._stop = False
+        self.running = False
+        self.comparison = None
+
+    def compose(self) -> ComposeResult:
+        yield Static("IIR versus FIR: the designs meeting each band's magnitude spec "
+                     "(Escape closes)", id="compare-title", markup=False)
+        with VerticalScroll(id="compare-box"):
+            yield Static("comparing ...", id="compare-text", markup=False)
+
+    def on_mount(self) -> None:
+        self.query_one("#compare-box").focus()
+        self.running = True
+        self._compare(self._project, max(70, self.app.size.width - 2))
+
+    @work(thread=True, exclusive=True, group="compare")
+    def _compare(self, project: Project, width: int) -> None:
+        from planner import compare, progress
+        from planner.dsp.fir import DesignCancelled
+        from planner.errors import CrossplanError
+        from planner.report import compare_text
+
+        shown = [-1]
+
+        def report(fraction: float, text: str) -> None:
+            if int(fraction * 100) != shown[0]:
+                shown[0] = int(fraction * 100)
+                self.app.call_from_thread(self._show, progress_text(fraction, text or
+                                                                    "FIR equivalents"))
+
+        try:
+            with progress.scope(report=report, cancel=lambda: self._stop):
+                c = compare.compare_project(project)
+        except DesignCancelled:
+            self.app.call_from_thread(self._done, None, "comparison stopped")
+            return
+        except CrossplanError as e:
+            self.app.call_from_thread(self._done, None, f"cannot compare: {e}")
+            return
+        self.app.call_from_thread(self._done, c, compare_text(c, width))
+
+    def _show(self, text: str) -> None:
+        if self.running:
+            self.query_one("#compare-text", Static).update(text.replace(
+                "the edit is then undone", "nothing is changed"))
+
+    def _done(self, comparison, text: str) -> None:
+        self.running = False
+        self.comparison = comparison
+        self.query_one("#compare-text", Static).update(text)
+
+    def action_close(self) -> None:
+        if self.running:
+            self._stop = True
+            self._show(progress_text(0.0, "stopping ..."))
+            return
+        self.dismiss(None)

@@ -257,8 +257,14 @@ class FilterForm(_Form):
         await self.set_rows((flt.type, flt.family, tuple(s.name for s in specs)), rows)
 
 
+#: Form labels of fields whose names are longer than the label column (8 cells).
+_SHORT = {"gain_db": "gain", "crossovers": "x-overs", "transition_hz": "transit",
+          "atten_db": "atten", "ripple_db": "ripple", "max_taps": "max taps",
+          "pass_hz": "pass", "stop_hz": "stop"}
+
+
 def _short(name: str) -> str:
-    return {"gain_db": "gain", "freq": "freq"}.get(name, name)
+    return _SHORT.get(name, name)
 
 
 # -- plot -----------------------------------------------------------------------------------

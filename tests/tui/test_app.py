@@ -517,3 +517,52 @@ async def test_a_long_fir_design_shows_progress_and_escape_cancels_it():
         await pilot.pause()
         assert app.project is p0 and not app._designing
         assert any("design cancelled" in n.message for n in app._notifications)
+
+
+async def test_compare_screen_shows_iir_and_fir_side_by_side():
+    # The fir-three-way preset is a complementary FIR split: its all-FIR sum is flat
+    # (a delayed impulse, Oppenheim and Schafer 3rd ed. ch. 7), shown as +0.00 dB.
+    from planner.tui.screens import CompareScreen
+
+    app = make_app(name="fir-three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("C")
+        await pilot.pause()
+        screen = app.screen
+        assert isinstance(screen, CompareScreen)
+        await app.workers.wait_for_complete([w for w in app.workers if w.group == "compare"])
+        await pilot.pause()
+        c = screen.comparison
+        assert c is not None and [b.name for b in c.bands] == ["woofer", "mid", "tweeter"]
+        assert abs(c.fir_sum.max_dev_db) < 0.01
+        text = screen_text(app)
+        assert "IIR (equivalent)" in text and "FIR (project)" in text
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, CompareScreen)
+
+
+async def test_escape_stops_a_running_comparison():
+    # two-way: the woofer's 25 Hz highpass needs thousands of FIR taps (seconds of search).
+    import asyncio
+
+    from planner.tui.screens import CompareScreen
+
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("C")
+        for _ in range(200):
+            await asyncio.sleep(0.05)
+            if "designing [" in screen_text(app):
+                break
+        assert isinstance(app.screen, CompareScreen) and app.screen.running
+        await pilot.press("escape")
+        await app.workers.wait_for_complete([w for w in app.workers if w.group == "compare"])
+        await pilot.pause()
+        assert not app.screen.running and app.screen.comparison is None
+        assert "comparison stopped" in screen_text(app)
+        await pilot.press("escape")
+        await pilot.pause()
+        assert not isinstance(app.screen, CompareScreen)
