@@ -30,6 +30,12 @@ def add_arguments(p, name):
 
 
 def run(args) -> int:
+    from planner.cli.common import designing
+
+    return designing(lambda: _run(args))
+
+
+def _run(args) -> int:
     from planner import export
     from planner.cli.common import load_project
 

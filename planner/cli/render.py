@@ -70,6 +70,12 @@ def _test_signal(args, fs):
 
 
 def run(args) -> int:
+    from planner.cli.common import designing
+
+    return designing(lambda: _run(args))
+
+
+def _run(args) -> int:
     from planner import export, render
     from planner.cli.common import load_project
     from planner.errors import CrossplanError

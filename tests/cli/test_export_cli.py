@@ -149,3 +149,52 @@ def test_check_arith_flag_overrides_the_projects(write_project, capsys):
     path = write_project(_with_arith(FRAGILE, "q1.15"))
     assert main(["check", str(path), "--arith", "float64"]) == 0
     assert "arithmetic float64" in capsys.readouterr().out
+
+
+def _fir_preset():
+    from planner import presets_lib
+
+    return project.to_dict(presets_lib.load("fir-three-way"))
+
+
+def test_export_fir_bands_write_their_taps_exactly(write_project, tmp_path):
+    # A complementary split (fir-three-way): each band's "fir" is its designed taps, no
+    # biquads; the three exported tap lists sum to a delayed unit impulse (numpy sum;
+    # Oppenheim and Schafer 3rd ed. ch. 7: delta minus lowpass telescopes to delta).
+    raw = _fir_preset()
+    assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "out")]) == 0
+    (f,) = [p for p in (tmp_path / "out").glob("*.json") if "manifest" not in p.name]
+    data = json.loads(f.read_text())
+    p = project.from_dict(raw)
+    total = 0
+    for b, band in zip(data["bands"], p.bands):
+        assert b["biquads"] == []
+        ref = engine.design_band(band, p.sample_rate).fir
+        assert np.array_equal(np.asarray(b["fir"]), ref)
+        total = total + np.asarray(b["fir"])
+    delta = np.zeros(len(total))
+    delta[(len(total) - 1) // 2] = 1.0
+    assert np.max(np.abs(total - delta)) < 1e-12
+
+
+def test_export_fir_wav_is_the_taps(write_project, tmp_path):
+    raw = _fir_preset()
+    assert main(["export", str(write_project(raw)), "--format", "wav", "--out",
+                 str(tmp_path / "out")]) == 0
+    p = project.from_dict(raw)
+    for band in p.bands:
+        (w,) = (tmp_path / "out").glob(f"*-{band.name}.wav")
+        fs, h = wavfile.read(w)
+        ref = engine.design_band(band, p.sample_rate).fir
+        assert fs == 48000 and h.dtype == np.float32
+        assert np.max(np.abs(h - ref)) < 1e-7   # float32 storage of the taps
+
+
+def test_export_unmet_fir_spec_exit_1(write_project, tmp_path, capsys):
+    raw = two_way()
+    raw["bands"][0]["filters"][0] = {"type": "lowpass", "family": "fir", "method": "remez",
+                                     "freq": 2200, "transition_hz": 100, "atten_db": 80,
+                                     "max_taps": 101}
+    assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "out")]) == 1
+    assert "max_taps 101" in capsys.readouterr().err
+    assert not (tmp_path / "out").exists() or not list((tmp_path / "out").glob("*.json"))
