@@ -419,6 +419,9 @@ class CrossplanApp(App):
             new, label = self._apply_field(event.target, event.field, event.text)
         except CrossplanError as e:
             form.refuse(e.message, event.field)
+            # A long form may have its refusal line scrolled out of sight at 80x24: say it
+            # where it is always seen too.
+            self.notify(f"refused: {e.message}", severity="warning", timeout=6)
             return
         old = self.project
         await self.commit(new, label)
