@@ -226,6 +226,19 @@ def _check_band(kind: str):
     return check
 
 
+def _check_window_shape(p: Mapping[str, Any], win: str) -> None:
+    """A kaiser window needs ``beta`` or ``atten_db`` (one of them); other windows take neither."""
+    if win == "kaiser":
+        if p.get("beta") is None and p.get("atten_db") is None:
+            raise ProjectError("missing; the kaiser window needs beta, or atten_db for "
+                               "Kaiser's formula", field="beta")
+        if p.get("beta") is not None and p.get("atten_db") is not None:
+            raise ProjectError("give beta or atten_db, not both", field="atten_db")
+    else:
+        _refuse(p, ("beta",), f"beta shapes the kaiser window only, not {win}")
+        _refuse(p, ("atten_db",), f"atten_db sizes a kaiser window only, not {win}")
+
+
 def _check_window(p: Mapping[str, Any], kind: str, fs_hz: float) -> None:
     _refuse(p, ("ripple_db", "pass_hz", "stop_hz"),
             "this applies to the remez and lsq methods, not to window")
@@ -257,15 +270,7 @@ def _check_window(p: Mapping[str, Any], kind: str, fs_hz: float) -> None:
     _refuse(p, ("max_taps",), "max_taps bounds the Kaiser sizing made when taps is omitted")
     if kind in ("highpass", "bandpass"):
         _odd_taps(p["taps"], f"a window {kind}")
-    if win == "kaiser":
-        if p.get("beta") is None and p.get("atten_db") is None:
-            raise ProjectError("missing; the kaiser window needs beta, or atten_db for "
-                               "Kaiser's formula", field="beta")
-        if p.get("beta") is not None and p.get("atten_db") is not None:
-            raise ProjectError("give beta or atten_db, not both", field="atten_db")
-    else:
-        _refuse(p, ("beta",), f"beta shapes the kaiser window only, not {win}")
-        _refuse(p, ("atten_db",), f"atten_db sizes a kaiser window only, not {win}")
+    _check_window_shape(p, win)
 
 
 # ---------------------------------------------------------------------------
@@ -457,15 +462,7 @@ def _check_split(p: Mapping[str, Any], fs_hz: float) -> None:
         _refuse(p, ("transition_hz",), "the window split is set by taps and window; "
                 "transition_hz applies to the remez and lsq splits")
         win = p.get("window") or DEFAULT_WINDOW
-        if win == "kaiser":
-            if p.get("beta") is None and p.get("atten_db") is None:
-                raise ProjectError("missing; the kaiser window needs beta, or atten_db for "
-                                   "Kaiser's formula", field="beta")
-            if p.get("beta") is not None and p.get("atten_db") is not None:
-                raise ProjectError("give beta or atten_db, not both", field="atten_db")
-        else:
-            _refuse(p, ("beta",), f"beta shapes the kaiser window only, not {win}")
-            _refuse(p, ("atten_db",), f"atten_db sizes a kaiser window only, not {win}")
+        _check_window_shape(p, win)
         return
     _refuse(p, ("window", "beta", "atten_db"), f"the {method} split takes no window")
     if p.get("transition_hz") is None:

@@ -6,6 +6,22 @@ from planner import presets_lib as presets, project
 from planner.model import Project
 
 
+def positive_number(unit: str):
+    """An argparse type: a finite number above 0, refused as "a positive number of <unit>"."""
+    def parse(text: str) -> float:
+        import argparse
+        import math
+
+        try:
+            v = float(text)
+        except ValueError:
+            v = float("nan")
+        if not (v > 0 and math.isfinite(v)):
+            raise argparse.ArgumentTypeError(f"must be a positive number of {unit}, not {text!r}")
+        return v
+    return parse
+
+
 def load_project(path: str | None) -> Project:
     """Load ``path``, or the built-in demo project when ``path`` is None."""
     if path is None:

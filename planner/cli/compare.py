@@ -9,20 +9,13 @@ from __future__ import annotations
 
 import argparse
 import json
-import math
 
+from planner.cli.common import positive_number
 from planner.compare import DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, IIR_FAMILIES
 from planner.report import compare_text
 
 
-def _db_value(text: str) -> float:
-    try:
-        v = float(text)
-    except ValueError:
-        v = float("nan")
-    if not (v > 0 and math.isfinite(v)):
-        raise argparse.ArgumentTypeError(f"must be a positive number of dB, not {text!r}")
-    return v
+_db_value = positive_number("dB")
 
 
 def _taps_value(text: str) -> int:

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import shutil
 
+from planner.cli.common import positive_number
 from planner.plots import TIME_VIEWS, VIEWS
 
 
@@ -19,17 +20,7 @@ def add_arguments(p, name):
     p.add_argument("--no-color", action="store_true", help="plain text (also: NO_COLOR=1)")
 
 
-def _positive_ms(text: str) -> float:
-    import argparse
-    import math
-
-    try:
-        v = float(text)
-    except ValueError:
-        v = float("nan")
-    if not (v > 0 and math.isfinite(v)):
-        raise argparse.ArgumentTypeError(f"must be a positive number of ms, not {text!r}")
-    return v
+_positive_ms = positive_number("ms")
 
 
 def run(args) -> int:
