@@ -23,13 +23,15 @@ Run:  python benchmarks/bench_fir.py
 from __future__ import annotations
 
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
 from scipy import signal
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from bench_check import best as _best  # noqa: E402
 
 from planner import engine, presets_lib  # noqa: E402
 from planner.dsp import fir  # noqa: E402
@@ -39,13 +41,7 @@ FS = 48000.0
 
 def best(fn, repeat=20):
     """Best of ``repeat`` timed calls after one warm-up call (seconds)."""
-    fn()
-    times = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t)
-    return min(times)
+    return _best(fn, repeat)
 
 
 def main() -> None:
