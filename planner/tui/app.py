@@ -21,8 +21,7 @@ from textual.command import DiscoveryHit, Hit, Hits, Provider
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
-from planner import edits, engine, project as pj, units
-from planner import progress
+from planner import edits, engine, progress, project as pj, units
 from planner.dsp.fir import DesignCancelled
 from planner.errors import CrossplanError, ProjectError, SpecNotMetError
 from planner.history import History

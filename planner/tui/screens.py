@@ -168,6 +168,9 @@ class SettingsScreen(ModalScreen[None]):
             r.input.set_class(bool(message) and r.field_name == name, "-refused")
 
 
+_COMPARE_HINT = "(Escape stops the search; the project is not changed)"
+
+
 class CompareScreen(Screen[None]):
     """IIR versus FIR for every band of a project, computed in a worker.
 
@@ -209,8 +212,8 @@ class CompareScreen(Screen[None]):
         def report(fraction: float, text: str) -> None:
             if int(fraction * 100) != shown[0]:
                 shown[0] = int(fraction * 100)
-                self.app.call_from_thread(self._show, progress_text(fraction, text or
-                                                                    "FIR equivalents"))
+                self.app.call_from_thread(self._show, progress_text(
+                    fraction, text or "FIR equivalents", _COMPARE_HINT))
 
         try:
             with progress.scope(report=report, cancel=lambda: self._stop):
@@ -225,8 +228,7 @@ class CompareScreen(Screen[None]):
 
     def _show(self, text: str) -> None:
         if self.running:
-            self.query_one("#compare-text", Static).update(text.replace(
-                "the edit is then undone", "nothing is changed"))
+            self.query_one("#compare-text", Static).update(text)
 
     def _done(self, comparison, text: str) -> None:
         self.running = False
@@ -236,6 +238,6 @@ class CompareScreen(Screen[None]):
     def action_close(self) -> None:
         if self.running:
             self._stop = True
-            self._show(progress_text(0.0, "stopping ..."))
+            self._show(progress_text(0.0, "stopping ...", _COMPARE_HINT))
             return
         self.dismiss(None)

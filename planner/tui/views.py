@@ -17,8 +17,9 @@ from planner.filters import format_hz
 from planner.plots import Series
 from planner.report import phase_difference_deg, time_series, view_series
 
-__all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair", "readout", "check_lines",
-           "arith_line", "WarningItem", "warning_items", "arith_warning_items"]
+__all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair",
+           "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
+           "arith_warning_items"]
 
 #: The plot views, in the order the view key steps through them.
 VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference", "impulse",

@@ -307,12 +307,13 @@ class Readout(Static):
 
 # -- checks ---------------------------------------------------------------------------------
 
-def progress_text(fraction: float, text: str) -> str:
-    """``"designing [#####-----]  50 %  FIR lowpass ...: fewest taps\n(Escape cancels)"``."""
+def progress_text(fraction: float, text: str,
+                  hint: str = "(Escape cancels; the edit is then undone)") -> str:
+    """``"designing [#####-----]  50 %  FIR lowpass ...: fewest taps"`` and, below, ``hint``."""
     cells = 20
     full = int(round(min(max(fraction, 0.0), 1.0) * cells))
     return (f"designing [{'#' * full}{'-' * (cells - full)}] {fraction * 100:3.0f} %  {text}\n"
-            "(Escape cancels; the edit is then undone)")
+            f"{hint}")
 
 
 class CheckBar(Static):
