@@ -17,6 +17,7 @@ from planner import filters as fk
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
 from planner.dsp.response import BandResponses, band_responses
+from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
 
 __all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
@@ -69,12 +70,18 @@ class BandDesign:
 
 
 def design_band(band: Band, fs_hz: float) -> BandDesign:
-    """Design every (not bypassed) filter of a band at ``fs_hz``."""
+    """Design every (not bypassed) filter of a band at ``fs_hz``.
+
+    A design error names its filter (``filters[j].taps: ...``).
+    """
     sos, fir, latency, linear = [], None, 0.0, True
-    for f in band.filters:
+    for j, f in enumerate(band.filters):
         if f.bypass:
             continue
-        d = design_filter(f, fs_hz)
+        try:
+            d = design_filter(f, fs_hz)
+        except CrossplanError as e:
+            raise e.at(f"filters[{j}]") from None
         if len(d.sos):
             sos.append(d.sos)
         if d.fir is not None:
@@ -251,7 +258,12 @@ def analyse(project: Project, points: int | None = None) -> Report:
         project = replace(project, analysis=replace(project.analysis, points=int(points)))
     fs = project.sample_rate
     a = project.analysis
-    designs = [design_band(b, fs) for b in project.bands]
+    designs = []
+    for i, b in enumerate(project.bands):
+        try:
+            designs.append(design_band(b, fs))
+        except CrossplanError as e:
+            raise e.at(f"bands[{i}]") from None
     freqs = _grid(project)
     resp = evaluate(designs, freqs, fs)
     active = project.active()

@@ -253,8 +253,8 @@ def to_dict(project: Project) -> dict:
     return out
 
 
-def loads(text: str) -> Project:
-    """Parse and check a project from JSON text."""
+def loads(text: str, design: bool = True) -> Project:
+    """Parse and check a project from JSON text (``design``: see :func:`from_dict`)."""
     try:
         raw = json.loads(text)
     except json.JSONDecodeError as e:
@@ -262,7 +262,7 @@ def loads(text: str) -> Project:
                            field="file") from None
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
-    return from_dict(raw)
+    return from_dict(raw, design)
 
 
 def dumps(project: Project) -> str:
@@ -270,8 +270,8 @@ def dumps(project: Project) -> str:
     return json.dumps(to_dict(project), indent=2, ensure_ascii=False) + "\n"
 
 
-def load(path: str | os.PathLike) -> Project:
-    """Read and check a project file."""
+def load(path: str | os.PathLike, design: bool = True) -> Project:
+    """Read and check a project file (``design``: see :func:`from_dict`)."""
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -279,7 +279,7 @@ def load(path: str | os.PathLike) -> Project:
         raise ProjectError(f"no such file: {str(p)!r}", field="file") from None
     except (OSError, UnicodeDecodeError) as e:
         raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
-    return loads(text)
+    return loads(text, design)
 
 
 def atomic_write_text(path: str | os.PathLike, text: str) -> None:

@@ -225,3 +225,20 @@ def test_fir_design_cached_by_filter_key():
     a = engine.design_filter(p.bands[0].filters[0], FS)
     b = engine.design_filter(again.bands[0].filters[0], FS)
     assert a is b and not a.fir.flags.writeable
+
+
+def test_a_design_error_in_the_analysis_names_band_and_filter():
+    # A project checked without designing (as the editor loads it) fails in the analysis;
+    # the error still carries the whole field path.
+    import json
+
+    from planner import engine, presets_lib, project
+    from planner.errors import SpecNotMetError
+
+    d = project.to_dict(presets_lib.load("two-way"))
+    d["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", "method": "remez",
+                                   "freq": 2400, "transition_hz": 100, "atten_db": 80,
+                                   "max_taps": 101}
+    p = project.from_dict(json.loads(json.dumps(d)), design=False)
+    with pytest.raises(SpecNotMetError, match=r"^bands\[0\]\.filters\[1\]\.taps: lowpass spec"):
+        engine.analyse(p)

@@ -22,11 +22,15 @@ def positive_number(unit: str):
     return parse
 
 
-def load_project(path: str | None) -> Project:
-    """Load ``path``, or the built-in demo project when ``path`` is None."""
+def load_project(path: str | None, design: bool = True) -> Project:
+    """Load ``path``, or the built-in demo project when ``path`` is None.
+
+    ``design=False`` checks every field but leaves the designs to the
+    analysis (the editor, which designs in a worker with progress).
+    """
     if path is None:
         return presets.load(presets.DEMO)
-    return project.load(path)
+    return project.load(path, design)
 
 
 class ProgressBar:

@@ -26,7 +26,6 @@ def _is_terminal() -> bool:
 def run(args) -> int:
     from planner.cli.common import load_project
 
-    proj = load_project(args.file)
     reason = None
     if not _is_terminal():
         reason = "not a terminal"
@@ -35,6 +34,8 @@ def run(args) -> int:
             from planner.tui.app import run_editor
         except ImportError as e:  # textual missing or broken
             reason = f"the terminal editor cannot start ({e})"
+    # The editor designs in its worker, with a progress bar; the report designs here.
+    proj = load_project(args.file, design=reason is not None)
     if reason is not None:
         from planner import engine, report
 

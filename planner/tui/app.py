@@ -323,6 +323,10 @@ class CrossplanApp(App):
             self.call_later(self.show_project)
             return
         self.query_one(CheckBar).show(None, error=str(error))
+        self.query_one(PlotView).data = views.PlotData((), "", None, "no plot: the analysis "
+                                                       "failed (see below)", (),
+                                                       self.cursor_hz, None)
+        self.query_one(Readout).update("")
 
     def _analysis_done(self, gen: int, report: engine.Report, ms: float, rx=None) -> None:
         if gen != self._gen or report.project is not self.project:
@@ -695,7 +699,7 @@ class CrossplanApp(App):
         if not path:
             return
         try:
-            proj = pj.load(path)
+            proj = pj.load(path, design=False)   # designed by the analysis worker
         except CrossplanError as e:
             self.notify(f"not opened: {e}", severity="error", timeout=8)
             return

@@ -566,3 +566,19 @@ async def test_escape_stops_a_running_comparison():
         await pilot.press("escape")
         await pilot.pause()
         assert not isinstance(app.screen, CompareScreen)
+
+
+async def test_a_file_with_an_unmet_fir_spec_opens_and_says_why(tmp_path):
+    # Files open without designing (the worker designs them): a spec that cannot be met
+    # reads as a failed analysis naming the filter, not a crash or a frozen screen.
+    p = _with_fir_lowpass(presets_lib.load("two-way"), method="remez", freq=2400,
+                          transition_hz=100, atten_db=80, max_taps=101)
+    path = tmp_path / "bad.json"
+    path.write_text(project.dumps(p))
+    app = CrossplanApp(project.load(path, design=False), str(path))
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        assert app.report is None
+        text = " ".join(screen_text(app).split())     # the message wraps in the check bar
+        assert "analysis FAIL: bands[0].filters[1].taps" in text and "max_taps 101" in text
+        assert "no plot: the analysis failed" in text
