@@ -133,7 +133,7 @@ def duplicate_band(p: Project, band: int) -> Project:
     return _rebuild(p, change)
 
 
-def set_band(p: Project, band: int, **settings: Any) -> Project:
+def set_band(p: Project, band: int, /, **settings: Any) -> Project:
     """Change band settings: ``name``, ``gain_db`` (dB), ``delay_ms`` (ms), ``invert``, ``mute``, ``solo``."""
     def change(d):
         b = _band(d, band)
@@ -196,24 +196,43 @@ def toggle_bypass(p: Project, band: int, flt: int) -> Project:
     return _rebuild(p, change)
 
 
-def set_filter_params(p: Project, band: int, flt: int, **params: Any) -> Project:
+def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Project:
     """Change parameters of one filter (``freq`` in Hz, ``gain_db`` in dB, ``q``, ``order``, ...).
 
     A value of None removes the parameter (e.g. ``q=None`` to give a shelf a ``slope``).
+    On a band of a complementary FIR split, every parameter but ``band`` changes in all the
+    split's bands at once (see :func:`_split_siblings`).
     """
     def change(d):
         f = _chain(d, band, flt)[flt]
+        siblings = _split_siblings(d, f)
         for key, value in params.items():
             if key in ("type", "family"):
                 raise ProjectError("use set_filter_type to change the type or family",
                                    field=f"bands[{band}].filters[{flt}].{key}")
-            if value is None:
-                f.pop(key, None)
-            else:
-                if key == "method" and f.get("family") == "fir" and f.get("method") != value:
-                    _drop_for_method(f, value, set(params))
-                f[key] = value
+            for g in [f] + ([] if key == "band" else siblings):
+                if value is None:
+                    g.pop(key, None)
+                else:
+                    if key == "method" and g.get("family") == "fir" and g.get("method") != value:
+                        _drop_for_method(g, value, set(params))
+                    g[key] = value
     return _rebuild(p, change)
+
+
+def _split_siblings(d: dict, f: dict) -> list[dict]:
+    """The other bands' filters of the same complementary split as ``f`` (none for others).
+
+    A split is one design shared by its bands: changing its crossovers, taps or
+    method in one band changes it in all of them, so they keep summing to a delay.
+    """
+    from planner.filters_fir import split_signature
+
+    if (f.get("type"), f.get("family")) != ("split", "fir"):
+        return []
+    sig = split_signature(f)
+    return [g for b in d["bands"] for g in b["filters"] if g is not f
+            and (g.get("type"), g.get("family")) == ("split", "fir") and split_signature(g) == sig]
 
 
 #: FIR fields that only one kind of method takes (see planner.filters_fir).
@@ -321,7 +340,7 @@ def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
 
 # -- analysis and rate --------------------------------------------------------------------
 
-def set_analysis(p: Project, **settings: Any) -> Project:
+def set_analysis(p: Project, /, **settings: Any) -> Project:
     """Change analysis settings: ``f_min``, ``f_max`` (Hz), ``points``, ``flatness_db`` (dB),
     ``phase_deg`` (deg), ``crossing_floor_db`` (dB), ``arith`` (a number-format name, or
     None for none)."""

@@ -282,3 +282,24 @@ def test_changing_an_fir_method_drops_the_fields_it_refuses():
     q = E.set_filter_params(q, 0, 1, ripple_db=0.5)
     f = E.set_filter_params(q, 0, 1, method="window").bands[0].filters[1]
     assert "ripple_db" not in f.params and f.params["atten_db"] == 60.0
+
+
+def test_a_split_crossover_changes_in_every_band_of_the_split():
+    # The bands of a complementary split sum to a delay only while they share one design
+    # (Oppenheim and Schafer 3rd ed. ch. 7): an edit in one band applies to all of them.
+    import numpy as np
+
+    p = presets_lib.load("fir-three-way")
+    q = E.set_filter_params(p, 1, 0, crossovers=[250.0, 3000.0])
+    assert [b.filters[0].params["crossovers"] for b in q.bands] == [(250.0, 3000.0)] * 3
+    assert [b.filters[0].params["band"] for b in q.bands] == [0, 1, 2]
+    r = engine.analyse(q)
+    assert abs(r.max_dev_db) < 1e-9 and not [w for w in r.warnings if "split" in w.code]
+    assert np.allclose([c.freq_hz for c in r.checked_crossings], [250.0, 3000.0], rtol=0.02)
+
+
+def test_a_split_band_index_changes_in_that_band_only():
+    p = presets_lib.load("fir-three-way")
+    q = E.set_filter_params(p, 2, 0, band=1)
+    assert [b.filters[0].params["band"] for b in q.bands] == [0, 1, 1]
+    assert any(w.code == "split-doubled" for w in engine.analyse(q).warnings)

@@ -738,9 +738,17 @@ def _parse_field(spec, text: str):
         return None
     if spec.kind == "choice":
         return t
-    if spec.kind == "floats":
-        return [units.parse(v, "", spec.name) for v in t.replace(",", " ").split()]
     unit = {"freq": "Hz", "db": "dB"}.get(spec.kind, spec.unit if spec.unit in units.UNITS else "")
+    if spec.kind == "floats":
+        # "300, 2.8k", "300 2.8 kHz": a unit word belongs to the number before it.
+        words = t.replace(",", " ").split()
+        joined = []
+        for w in words:
+            if joined and not any(ch.isdigit() for ch in w):
+                joined[-1] += " " + w
+            else:
+                joined.append(w)
+        return [units.parse(v, unit, spec.name) for v in joined]
     v = units.parse(t, unit, spec.name)
     if spec.kind == "int" and v == int(v):
         return int(v)

@@ -582,3 +582,33 @@ async def test_a_file_with_an_unmet_fir_spec_opens_and_says_why(tmp_path):
         text = " ".join(screen_text(app).split())     # the message wraps in the check bar
         assert "analysis FAIL: bands[0].filters[1].taps" in text and "max_taps 101" in text
         assert "no plot: the analysis failed" in text
+
+
+async def test_typing_a_split_crossover_moves_it_in_every_band():
+    app = make_app(name="fir-three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        field = app.query_one("#filter-crossovers")
+        field.focus()
+        field.value = ""
+        await pilot.press(*"250, 3k", "enter")
+        await settle(app, pilot)
+        assert [b.filters[0].params["crossovers"] for b in app.project.bands] == \
+            [(250.0, 3000.0)] * 3
+        assert app.report.project is app.project and abs(app.report.max_dev_db) < 1e-9
+        band_field = app.query_one("#filter-band")
+        band_field.focus()
+        band_field.value = ""
+        await pilot.press("2", "enter")       # a field named "band" is a filter field here
+        await settle(app, pilot)
+        assert app.project.bands[0].filters[0].params["band"] == 2
+        assert "split band 0" in " ".join(screen_text(app).split())   # now missing: warned
+
+
+@pytest.mark.parametrize("text", ["300, 2.8k", "300 Hz, 2.8 kHz", "300 2800"])
+def test_a_list_of_frequencies_is_read_as_people_write_it(text):
+    from planner.filters import lookup
+    from planner.tui.app import _parse_field
+
+    spec = next(s for s in lookup("split", "fir").fields if s.name == "crossovers")
+    assert _parse_field(spec, text) == [300.0, 2800.0]
