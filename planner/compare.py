@@ -327,12 +327,7 @@ class Comparison:
 
 
 def _check_spec_numbers(ripple_db, atten_db) -> tuple[float, float]:
-    try:
-        r = float(ripple_db)
-    except (TypeError, ValueError):
-        r = float("nan")
-    if not (r > 0 and math.isfinite(r)):
-        raise DesignError(f"must be a positive number of dB, not {ripple_db!r}", field="ripple_db")
+    r = dfir._check_positive(ripple_db, "ripple_db", "dB")
     try:
         a = float(atten_db)
     except (TypeError, ValueError):

@@ -34,7 +34,7 @@ from contextvars import ContextVar
 from dataclasses import dataclass
 from typing import Callable, Iterator
 
-__all__ = ["Scope", "scope", "report", "cancelled", "reporter", "active"]
+__all__ = ["Scope", "scope", "report", "cancelled", "reporter", "active", "bar_text"]
 
 
 @dataclass(frozen=True)
@@ -112,3 +112,10 @@ def reporter(text: str) -> Callable[[float], None]:
         report(fraction, text)
 
     return _progress
+
+
+def bar_text(fraction: float, text: str = "", cells: int = 20) -> str:
+    """``"[##########----------]  50% text"``: a text bar for a terminal or a status line."""
+    f = min(max(float(fraction), 0.0), 1.0)
+    full = int(round(f * cells))
+    return f"[{'#' * full}{'-' * (cells - full)}] {f * 100:3.0f}% {text}"

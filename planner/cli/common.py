@@ -50,10 +50,9 @@ class ProgressBar:
 
     def line(self, fraction: float, text: str) -> str:
         """The bar's text: ``[#####-----]  50% text``, cut to the width (less one column)."""
-        cells = 20
-        full = int(round(fraction * cells))
-        bar = f"[{'#' * full}{'-' * (cells - full)}] {fraction * 100:3.0f}% {text}"
-        return bar[: max(10, self.width - 1)]
+        from planner.progress import bar_text
+
+        return bar_text(fraction, text)[: max(10, self.width - 1)]
 
     def update(self, fraction: float, text: str = "") -> None:
         if fraction >= 1.0:       # a design is done: wipe the bar before anything prints

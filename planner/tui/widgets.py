@@ -20,6 +20,7 @@ from planner import units
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
 from planner.plots import freq_plot, time_plot
+from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
 __all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "FilterForm",
@@ -309,11 +310,8 @@ class Readout(Static):
 
 def progress_text(fraction: float, text: str,
                   hint: str = "(Escape cancels; the edit is then undone)") -> str:
-    """``"designing [#####-----]  50 %  FIR lowpass ...: fewest taps"`` and, below, ``hint``."""
-    cells = 20
-    full = int(round(min(max(fraction, 0.0), 1.0) * cells))
-    return (f"designing [{'#' * full}{'-' * (cells - full)}] {fraction * 100:3.0f} %  {text}\n"
-            f"{hint}")
+    """``"designing [#####-----]  50% FIR lowpass ...: fewest taps"`` and, below, ``hint``."""
+    return f"designing {bar_text(fraction, text)}\n{hint}"
 
 
 class CheckBar(Static):
