@@ -54,7 +54,7 @@ def fir_export(rx):
     taps = [signal.firwin(TAPS, 300, fs=FS),
             signal.firwin(TAPS, [300, 3000], pass_zero=False, fs=FS),
             signal.firwin(TAPS, 3000, pass_zero=False, fs=FS)]
-    bands = [replace(b, stored_sos=np.zeros((0, 6)), sos=np.zeros((0, 6)), stored_fir=t, fir=t,
+    bands = [replace(b, stored_sos=np.zeros((0, 6)), shifts=[], sos=np.zeros((0, 6)), stored_fir=t, fir=t,
                      scale=1.0) for b, t in zip(rx.bands, taps)]
     return replace(rx, bands=bands)
 

@@ -58,6 +58,8 @@ class BandDesign:
     invert: bool
     fir_latency_samples: float = 0.0
     fir_linear_phase: bool = True
+    #: for each section, the index of the filter of the band's chain it comes from
+    section_filters: tuple[int, ...] = ()
 
     @property
     def n_sections(self) -> int:
@@ -74,7 +76,7 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
 
     A design error names its filter (``filters[j].taps: ...``).
     """
-    sos, fir, latency, linear = [], None, 0.0, True
+    sos, fir, latency, linear, owners = [], None, 0.0, True, []
     for j, f in enumerate(band.filters):
         if f.bypass:
             continue
@@ -84,13 +86,15 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
             raise e.at(f"filters[{j}]") from None
         if len(d.sos):
             sos.append(d.sos)
+            owners.extend([j] * len(d.sos))
         if d.fir is not None:
             fir = d.fir if fir is None else np.convolve(fir, d.fir)
             # Delays of cascaded linear-phase filters add (their phases add).
             latency += dfir.latency_samples(d.fir)
             linear = linear and dfir.is_linear_phase(d.fir)
     return BandDesign(np.vstack(sos) if sos else np.zeros((0, 6)), fir, band.gain_db,
-                      band.delay_ms * fs_hz / 1000.0, band.invert, latency, linear)
+                      band.delay_ms * fs_hz / 1000.0, band.invert, latency, linear,
+                      tuple(owners))
 
 
 def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:

@@ -2,23 +2,36 @@
 
 For every requested rate the project is redesigned at that rate (each
 filter's parameters are checked there first, so a filter at or above the
-rate's Nyquist frequency is refused by name), the sections of each band are
-re-paired and re-ordered as :func:`scipy.signal.zpk2sos` does
-(:func:`planner.dsp.quantize.order_sections`), rounded to the target number
-format (:func:`planner.dsp.quantize.quantize_sos`) and analysed again with the
-rounded values. Files are written per rate (JSON, CSV, text or one WAV
-impulse response per band) and one manifest per export ties them to the
-project's content hash and to the check results at each rate.
+rate's Nyquist frequency is refused by name) and analysed as ``check``
+analyses it. Each band's sections are then laid out for the DSP
+(:data:`SECTION_MODES`): ``per-filter`` keeps every filter's own sections,
+in chain order, each labelled with its filter, so they map onto a DSP's
+per-filter slots; ``paired`` re-pairs the band's poles and zeros and orders
+the sections with the poles nearest the unit circle last
+(:func:`planner.dsp.sections.pair_sections`). Both keep every numerator's
+shape, so zeros at ``z = +1/-1`` stay exact. For a fixed-point target the
+numerators are scaled so that the signal peaks at full
+scale after each section (:func:`planner.dsp.sections.scale_sections`), with
+what is left of the band's gain in ``scale``. The sections are rounded to the
+target number format (:func:`planner.dsp.quantize.quantize_sos`, with a
+post-shift per section where a fixed-point word cannot hold them), and the
+coefficients as written are compared with the design ``check`` analysed:
+nothing is written that differs from what was checked by more than
+:data:`MAX_DEVIATION_DB` where the response matters.
+
+Files are written per rate (JSON, CSV, text or one WAV impulse response per
+band) and one manifest per export ties them to the project's content hash
+and to the check results at each rate.
 
 The coefficient convention of every file: each section is
 ``[b0, b1, b2, a1, a2]`` with ``a0 = 1`` and the transfer function
 ``(b0 + b1 z^-1 + b2 z^-2) / (1 + a1 z^-1 + a2 z^-2)``, i.e. the recursion
 ``y[n] = b0 x[n] + b1 x[n-1] + b2 x[n-2] - a1 y[n-1] - a2 y[n-2]``. With
 ``negate_feedback`` the files hold ``-a1, -a2`` instead (for engines that
-add the feedback terms) and say so. A band's output is
-``gain * scale * polarity * chain(x)`` delayed by ``delay_samples``, where
-``scale`` (a power of two, 1 unless numerators were shifted to fit a
-fixed-point format) undoes the numerator shifts.
+add the feedback terms) and say so. A section with a post-shift ``k`` holds
+its coefficients divided by ``2**k``; the DSP shifts the section's
+accumulator left by ``k`` bits. A band's output is
+``gain * scale * polarity * chain(x)`` delayed by ``delay_samples``.
 
 References
 ----------
@@ -48,14 +61,16 @@ import numpy as np
 from planner import __version__, engine, filters as fk, project as pj
 from planner.cli.check import _finite
 from planner.dsp import quantize as qz
+from planner.dsp import sections as dsec
 from planner.dsp.response import band_responses
 from planner.dsp.signals import fft_convolve, truncate_iir_impulse
 from planner.errors import CrossplanError, ExportError, ProjectError
 from planner.model import Project
 
 __all__ = [
-    "FORMAT", "VERSION", "MANIFEST_FORMAT", "FORMATS", "MAX_DEVIATION_DB", "FLOOR_DB",
-    "WAV_FLOOR_DB", "ArithResult", "BandExport", "RateExport", "ExportResult",
+    "FORMAT", "VERSION", "MANIFEST_FORMAT", "FORMATS", "SECTION_MODES", "MAX_DEVIATION_DB",
+    "RANGE_DB", "ERROR_FLOOR_DB", "WAV_FLOOR_DB", "ArithResult", "BandExport", "RateExport",
+    "ExportResult",
     "content_hash", "slug", "rate_text", "project_at_rate", "export_rate", "to_json_dict",
     "to_csv_text", "to_text", "band_impulse_response", "arith_text", "arith_dict",
     "write_export",
@@ -66,12 +81,18 @@ VERSION = 1
 MANIFEST_FORMAT = "crossplan-export-manifest"
 FORMATS = ("json", "csv", "text", "wav")
 
-#: Largest magnitude deviation (dB) of the rounded design from the float64
-#: design that still counts as holding it, above FLOOR_DB. The same values
-#: as the defaults of :func:`planner.dsp.quantize.suggest_fixes`; 0.1 dB is
+#: How each band's sections are laid out: each filter's own sections in
+#: chain order (the default), or re-paired and re-ordered for fixed point.
+SECTION_MODES = ("per-filter", "paired")
+#: Largest magnitude deviation (dB) of the written coefficients from the
+#: design ``check`` analysed, judged where the design is within RANGE_DB of
+#: the band's peak; deeper down the magnitude error must stay ERROR_FLOOR_DB
+#: below the peak (see :func:`planner.dsp.quantize.judge_deviation`). The
+#: same values as the defaults of :func:`planner.dsp.quantize.suggest_fixes`;
 #: common practice, no published source.
 MAX_DEVIATION_DB = 0.1
-FLOOR_DB = -100.0
+RANGE_DB = 40.0
+ERROR_FLOOR_DB = -80.0
 #: Tail floor of the WAV impulse responses, dB below the peak (the issue's -150 dB).
 WAV_FLOOR_DB = -150.0
 
@@ -147,15 +168,23 @@ def project_at_rate(project: Project, fs_hz: float) -> Project:
 
 @dataclass
 class ArithResult:
-    """A band re-analysed with its coefficients rounded to the target format.
+    """A band as written, compared with the design ``check`` analysed.
 
-    Section numbers are 1-based, in the exported order.
+    Section numbers are 1-based, in the exported order. ``deviation_db`` is
+    judged within ``range_db`` of the band's peak and ``floor_error_db``
+    below it (:func:`planner.dsp.quantize.judge_deviation`); both are None
+    when a section cannot be held (overflow, saturation or instability make
+    a frequency response meaningless), and ``reason`` then says why.
     """
 
     arith: str
     max_coef_error: float
-    deviation_db: float
-    deviation_at_hz: float
+    deviation_db: float | None
+    deviation_at_hz: float | None
+    floor_error_db: float | None
+    floor_at_hz: float | None
+    range_db: float
+    floor_db: float
     pole_radius: list
     stability_margin: float
     overflow_sections: list
@@ -170,7 +199,8 @@ class ArithResult:
 
     def to_dict(self) -> dict:
         return {k: getattr(self, k) for k in (
-            "arith", "ok", "max_coef_error", "deviation_db", "deviation_at_hz", "pole_radius",
+            "arith", "ok", "max_coef_error", "deviation_db", "deviation_at_hz",
+            "floor_error_db", "floor_at_hz", "range_db", "floor_db", "pole_radius",
             "stability_margin", "overflow_sections", "saturated_sections", "unstable_sections",
             "shifts", "fir_saturated", "failed_section", "reason", "suggestions")}
 
@@ -182,11 +212,22 @@ class BandExport:
     Attributes
     ----------
     sos : ndarray, shape (n, 6)
-        The float64 design, re-paired and re-ordered (the reference).
+        The float64 design, as ``check`` analysed it (the reference).
+    laid_sos : ndarray, shape (n, 6)
+        The sections in the exported layout before rounding (paired and/or
+        scaled; equal to ``sos`` for a float per-filter export).
     stored_sos : ndarray, shape (n, 6)
-        What the files hold: rounded to the format, numerators shifted.
+        What the files hold: ``laid_sos`` divided by ``2**shifts`` and rounded.
+    shifts : list of int
+        Post-shift of each section (0 for floating point).
+    section_filters : list of int or None
+        Per section, the index of the band's filter it belongs to
+        (``per-filter`` mode); None in ``paired`` mode.
+    filter_labels : dict
+        Filter index -> its label (``"LR4 lowpass 2.2 kHz"``).
     scale : float
-        Linear factor after the chain that undoes the shifts (power of two).
+        Linear factor after the chain: what scaling left of the band's gain,
+        times ``2**k`` of FIR taps shifted right to fit.
     fir, stored_fir : ndarray or None
         FIR taps of the design, and as stored (rounded, shifted).
     gain_db : float
@@ -194,11 +235,10 @@ class BandExport:
     pre_attenuation_db : float
         What ``pre_attenuate`` took off ``gain_db`` (0 when not asked).
     peak_internal_gain_db, peak_internal_at_hz : float
-        Highest level inside the stored chain for a full-scale sine
-        (:func:`planner.dsp.quantize.peak_internal_gain_db`, FIR output
-        included), and where.
+        Highest level inside the band before its gain (after each section,
+        after the FIR and after ``scale``) for a full-scale sine, and where.
     peak_internal_after : int
-        After which section (1-based; ``n + 1`` means after the FIR).
+        After which stage (1-based; ``n + 1`` is the FIR, ``n + 2`` the scale).
     """
 
     name: str
@@ -217,11 +257,20 @@ class BandExport:
     peak_internal_at_hz: float
     peak_internal_after: int
     arith: ArithResult
+    laid_sos: np.ndarray | None = None
+    shifts: list = field(default_factory=list)
+    section_filters: list | None = None
+    filter_labels: dict = field(default_factory=dict)
+
+    @property
+    def effective_sos(self) -> np.ndarray:
+        """The sections as the DSP runs them: stored coefficients times ``2**shift``."""
+        return qz.unshift(self.stored_sos, self.shifts or [0] * len(self.stored_sos))
 
     @property
     def run_sos(self) -> np.ndarray:
-        """The stored sections with ``scale`` folded into the first numerator (what runs)."""
-        s = self.stored_sos.copy()
+        """:attr:`effective_sos` with ``scale`` folded into the first numerator (what runs)."""
+        s = self.effective_sos
         if len(s):
             s[0, :3] *= self.scale
         return s
@@ -248,6 +297,7 @@ class RateExport:
     report: engine.Report
     bands: list[BandExport]
     arith: qz.Arith
+    sections: str = "per-filter"
 
     @property
     def arith_ok(self) -> bool:
@@ -264,86 +314,167 @@ def _quantize_fir(taps: np.ndarray, a: qz.Arith):
     return q, shift, bool(sat.any())
 
 
-def _arith(sos: np.ndarray, fir, a: qz.Arith, freqs: np.ndarray, fs: float):
-    """Round a band to ``a`` and re-analyse it. Returns (ArithResult, stored_sos, stored_fir, scale)."""
-    n = len(sos)
-    stored, shifts, scale = sos.copy(), np.zeros(n, dtype=int), 1.0
-    radius, overflow, saturated = np.zeros(n), np.zeros(n, bool), np.zeros(n, bool)
+def _layout(d: engine.BandDesign, a: qz.Arith, mode: str):
+    """The band's sections laid out for the DSP: (sections, section filters, scale).
+
+    ``paired`` re-pairs and re-orders them; a fixed-point target also has
+    them scaled to peak at full scale after each section, with the rest of
+    the band's gain returned as ``scale``. Floating-point targets keep every
+    coefficient as designed (only re-assigned in ``paired`` mode).
+    """
+    sos = np.asarray(d.sos, dtype=float)
+    if not len(sos):
+        return sos.copy(), [], 1.0
+    owners = list(d.section_filters) if len(d.section_filters) == len(sos) else None
+    if mode == "paired":
+        sos, owners = dsec.pair_sections(sos), None
+    if a.kind == "fixed":
+        laid = dsec.scale_sections(sos)
+        return laid.sos, owners, laid.gain
+    return sos.copy(), owners, 1.0
+
+
+def _arith(d: engine.BandDesign, laid: np.ndarray, scale: float, a: qz.Arith,
+           freqs: np.ndarray, fs: float):
+    """Round a band's laid-out sections to ``a`` and compare them with the design ``d``.
+
+    Returns (ArithResult, stored_sos, shifts, stored_fir, scale).
+    """
+    n = len(laid)
+    stored, shifts = laid.copy(), np.zeros(n, dtype=int)
+    radius = np.zeros(n)
+    overflow, saturated = np.zeros(n, bool), np.zeros(n, bool)
     err = 0.0
+    eff = laid.copy()
     if n:
-        q = qz.quantize_sos(sos, a)
-        stored, shifts, scale = q.sos, q.shifts, q.gain
-        radius, overflow, saturated, err = q.pole_radius, q.overflow, q.saturated, q.max_coef_error
-    stored_fir, fir_sat = None, False
-    if fir is not None:
-        qf, fshift, fir_sat = _quantize_fir(np.asarray(fir, float), a)
+        q = qz.quantize_sos(laid, a)
+        stored, shifts, eff = q.sos, q.shifts, q.effective_sos
+        radius, overflow, saturated = q.pole_radius, q.overflow, q.saturated
+        err = q.max_coef_error
+    stored_fir, fir_sat, eff_fir = None, False, None
+    if d.fir is not None:
+        fir = np.asarray(d.fir, float)
+        qf, fshift, fir_sat = _quantize_fir(fir, a)
         stored_fir = qf
         scale *= 2.0 ** fshift
-        err = max(err, float(np.max(np.abs(qf * 2.0 ** fshift - fir))))
-    ref = band_responses([sos], freqs, fs, firs=[fir]).h[0]
-    eff = stored.copy()
-    if n:
-        eff[:, :3] *= (2.0 ** shifts)[:, None]
-    eff_fir = None if stored_fir is None else stored_fir * (scale / 2.0 ** shifts.sum())
-    got = band_responses([eff], freqs, fs, firs=[eff_fir]).h[0]
-    ref_db = 20 * np.log10(np.maximum(np.abs(ref), 1e-300))
-    dev = np.where(ref_db >= FLOOR_DB,
-                   np.abs(20 * np.log10(np.maximum(np.abs(got), 1e-300)) - ref_db), -np.inf)
-    k = int(np.argmax(dev))
-    dev_db, dev_at = (float(dev[k]), float(freqs[k])) if np.isfinite(dev[k]) else (0.0, float("nan"))
+        eff_fir = qf * 2.0 ** fshift
+        err = max(err, float(np.max(np.abs(eff_fir - fir))))
     unstable = radius >= 1.0
     bad = overflow | saturated | unstable
+    dev = None
+    if not bad.any():
+        # The reference is the very design check analysed (its sections and taps).
+        ref = band_responses([d.sos], freqs, fs, firs=[d.fir]).h[0]
+        got = band_responses([eff], freqs, fs, firs=[eff_fir]).h[0] * scale
+        dev = qz.judge_deviation(ref, got, freqs, RANGE_DB, ERROR_FLOOR_DB)
     res = ArithResult(
-        arith=a.name, max_coef_error=float(err), deviation_db=dev_db, deviation_at_hz=dev_at,
+        arith=a.name, max_coef_error=float(err),
+        deviation_db=None if dev is None else dev.in_range_db,
+        deviation_at_hz=None if dev is None else dev.in_range_at_hz,
+        floor_error_db=None if dev is None else dev.floor_error_db,
+        floor_at_hz=None if dev is None else dev.floor_at_hz,
+        range_db=RANGE_DB, floor_db=ERROR_FLOOR_DB,
         pole_radius=[float(r) for r in radius],
         stability_margin=float(1.0 - radius.max()) if n else 1.0,
         overflow_sections=[int(i) + 1 for i in np.flatnonzero(overflow)],
         saturated_sections=[int(i) + 1 for i in np.flatnonzero(saturated & ~overflow)],
         unstable_sections=[int(i) + 1 for i in np.flatnonzero(unstable)],
         shifts=[int(s) for s in shifts], fir_saturated=fir_sat,
-        ok=bool(not bad.any() and not fir_sat and dev_db <= MAX_DEVIATION_DB))
+        ok=bool(dev is not None and not fir_sat and dev.ok(MAX_DEVIATION_DB)))
     if res.ok:
-        return res, stored, stored_fir, scale
+        return res, stored, shifts, stored_fir, scale
     if bad.any():
         i = int(np.flatnonzero(bad)[0])
-        why = ("a denominator coefficient is outside the format's range" if overflow[i]
-               else "a coefficient saturated at the format's range" if saturated[i]
-               else f"a pole moved to radius {radius[i]:.9g}, on or outside the unit circle")
-        res.failed_section, res.reason = i + 1, why
+        c = laid[i, [0, 1, 2, 4, 5]]
+        big = c[np.argmax(np.abs(c))]
+        why = (f"a coefficient ({big:.6g}) needs a post-shift of more than "
+               f"{a.word_bits - 1} bits" if overflow[i]
+               else f"a coefficient ({big:.6g}) saturated at the format's range "
+                    f"[{a.min_value:g}, {a.max_value:.6g}]" if saturated[i]
+               else f"rounding moved a pole to radius {radius[i]:.9g}, on or outside the "
+                    "unit circle: the section is unstable")
+        res.failed_section, res.reason = i + 1, why + " (the response was not evaluated)"
     elif fir_sat:
         res.reason = "an FIR tap saturated at the format's range"
     else:
-        # The chain deviates: name the section whose own rounding deviates most.
-        per = [qz.response_deviation_db(sos[i:i + 1], eff[i:i + 1], freqs, fs,
-                                        floor_db=FLOOR_DB)[0] for i in range(n)]
-        res.failed_section = int(np.argmax(per)) + 1 if n else None
-        res.reason = (f"the response deviates by {dev_db:.3g} dB at {dev_at:.4g} Hz "
-                      f"(limit {MAX_DEVIATION_DB:g} dB)")
+        res.failed_section = _worst_section(laid, eff, freqs, fs)
+        if dev.in_range_db > MAX_DEVIATION_DB:
+            res.reason = (f"the response deviates by {_against(dev.in_range_db, MAX_DEVIATION_DB)}"
+                          f" dB at {fk.format_hz(dev.in_range_at_hz)} (limit {MAX_DEVIATION_DB:g}"
+                          f" dB within {RANGE_DB:g} dB of the band's peak)")
+        else:
+            res.reason = (f"the error reaches {_against(dev.floor_error_db, ERROR_FLOOR_DB)} dB "
+                          f"re the band's peak at {fk.format_hz(dev.floor_at_hz)} (limit "
+                          f"{ERROR_FLOOR_DB:g} dB more than {RANGE_DB:g} dB below the peak)")
     if n:
-        res.suggestions = qz.suggest_fixes(sos, a, fs, freqs, MAX_DEVIATION_DB, FLOOR_DB)
-    return res, stored, stored_fir, scale
+        res.suggestions = qz.suggest_fixes(laid, a, fs, freqs, MAX_DEVIATION_DB, RANGE_DB,
+                                           ERROR_FLOOR_DB)
+    return res, stored, shifts, stored_fir, scale
 
 
-def _peak_internal(stored: np.ndarray, stored_fir, freqs: np.ndarray, fs: float):
-    """Highest level inside the stored chain (dB), where (Hz) and after which stage (1-based)."""
-    gains, at = [], []
-    if len(stored):
-        p = qz.peak_internal_gain_db(stored, freqs, fs)
-        gains, at = list(p.gain_db), list(p.at_hz)
-    if stored_fir is not None:
-        h = np.abs(band_responses([stored], freqs, fs, firs=[stored_fir]).h[0])
-        k = int(np.argmax(h))
-        gains.append(20 * np.log10(max(h[k], 1e-300)))
-        at.append(freqs[k])
-    if not gains:
+def _worst_section(laid: np.ndarray, eff: np.ndarray, freqs: np.ndarray, fs: float):
+    """1-based index of the section whose own rounding moves the response most (None if none)."""
+    if not len(laid):
+        return None
+    per = [qz.response_deviation_db(laid[i:i + 1], eff[i:i + 1], freqs, fs,
+                                    floor_db=-RANGE_DB)[0] for i in range(len(laid))]
+    return int(np.argmax(per)) + 1
+
+
+def _against(value: float, limit: float, digits: int = 3) -> str:
+    """``value`` with enough digits that it reads on the same side of ``limit`` as it is.
+
+    ``0.1004`` against a limit of 0.1 is shown as ``0.1004``, not ``0.1``, so a
+    figure never reads as equal to the limit it fails (or passes).
+    """
+    for k in range(digits, 12):
+        text = f"{value:.{k}g}"
+        shown = float(text)
+        if (shown > limit) == (value > limit) and (shown == limit) == (value == limit):
+            return text
+    return repr(float(value))
+
+
+def _peak_internal(b_eff: np.ndarray, stored_fir, scale: float, freqs: np.ndarray, fs: float):
+    """Highest level inside the band before its gain: (dB, Hz, stage).
+
+    The stages are the output of each section (1..n, as the DSP runs them),
+    then of the FIR (n + 1) and of ``scale`` (n + 2), where the band has them.
+    """
+    stages: list[tuple[float, float, int]] = []
+    n = len(b_eff)
+    if n:
+        p = qz.peak_internal_gain_db(b_eff, freqs, fs)
+        stages += [(float(g), float(f), k + 1) for k, (g, f) in enumerate(zip(p.gain_db, p.at_hz))]
+    if stored_fir is not None or (scale != 1.0 and n):
+        h = np.abs(band_responses([b_eff], freqs, fs, firs=[stored_fir]).h[0])
+        if stored_fir is not None:
+            k = int(np.argmax(h))
+            stages.append((20 * np.log10(max(h[k], 1e-300)), float(freqs[k]), n + 1))
+        if scale != 1.0:
+            k = int(np.argmax(h))
+            stages.append((20 * np.log10(max(h[k] * abs(scale), 1e-300)), float(freqs[k]), n + 2))
+    if not stages:
         return 0.0, float("nan"), 0
-    k = int(np.argmax(gains))
-    return float(gains[k]), float(at[k]), k + 1
+    # The first stage that reaches the peak (a scale of 1 + 1e-15 adds no stage of its own).
+    return max(stages, key=lambda s: round(s[0], 9))
+
+
+#: Log-spaced points of the arithmetic re-check, beside the analysis grid's own: the
+#: verdict must not depend on how coarse a project's analysis.points is.
+RECHECK_POINTS = 4096
+
+
+def _recheck_grid(report: engine.Report) -> np.ndarray:
+    """The check's grid (its filter and feature frequencies) plus a dense log grid."""
+    a = report.project.analysis
+    return np.unique(np.concatenate([report.freqs_hz,
+                                     np.geomspace(a.f_min, a.f_max, RECHECK_POINTS)]))
 
 
 def export_rate(project: Project, fs_hz: float, arith: str | qz.Arith = "float64",
-                pre_attenuate: bool = False) -> RateExport:
-    """Redesign, order, round and re-analyse every band of ``project`` at ``fs_hz``.
+                pre_attenuate: bool = False, sections: str = "per-filter") -> RateExport:
+    """Redesign, lay out, round and re-check every band of ``project`` at ``fs_hz``.
 
     Parameters
     ----------
@@ -354,35 +485,43 @@ def export_rate(project: Project, fs_hz: float, arith: str | qz.Arith = "float64
         Target coefficient format (``'float64'``, ``'float32'``, ``'qM.N'``).
     pre_attenuate : bool
         Lower each band's exported gain by its peak internal gain (when above
-        0 dB) so that no point inside the chain exceeds full scale for a
+        0 dB) so that no point inside the band exceeds full scale for a
         full-scale sine at the band's input.
+    sections : {'per-filter', 'paired'}
+        The layout of each band's sections (see :data:`SECTION_MODES`).
 
     Returns
     -------
     RateExport
-        Per band, the float64 reference, the stored coefficients, the
-        :class:`ArithResult` and the peak internal gain; and the check
-        report at this rate.
+        Per band, the design ``check`` analysed at this rate, the stored
+        coefficients, the :class:`ArithResult` and the peak internal gain;
+        and the check report at this rate.
     """
+    if sections not in SECTION_MODES:
+        raise ExportError(f"must be one of {', '.join(SECTION_MODES)}, not {sections!r}",
+                          field="sections")
     a = qz.parse_arith(arith) if isinstance(arith, str) else arith
     proj = project_at_rate(project, fs_hz)
     fs = float(proj.sample_rate)
     report = engine.analyse(proj)
-    freqs = report.freqs_hz
+    freqs = _recheck_grid(report)
     bands = []
     for i, (b, d) in enumerate(zip(proj.bands, report.designs)):
-        sos = qz.order_sections(d.sos) if len(d.sos) else np.zeros((0, 6))
-        fir = None if d.fir is None else np.array(d.fir, dtype=float)
-        res, stored, stored_fir, scale = _arith(sos, fir, a, freqs, fs)
-        peak, peak_at, after = _peak_internal(stored, stored_fir, freqs, fs)
+        laid, owners, scale = _layout(d, a, sections)
+        res, stored, shifts, stored_fir, scale = _arith(d, laid, scale, a, freqs, fs)
+        peak, peak_at, after = _peak_internal(qz.unshift(stored, shifts), stored_fir, scale,
+                                              freqs, fs)
         att = max(0.0, peak) if pre_attenuate else 0.0
+        labels = {j: f.label() for j, f in enumerate(b.filters) if not f.bypass}
         bands.append(BandExport(
             name=b.name, active=report.active[i], design_gain_db=b.gain_db,
             gain_db=b.gain_db - att, pre_attenuation_db=att, delay_samples=d.delay_samples,
-            invert=b.invert, sos=sos, stored_sos=stored, scale=scale, fir=fir,
+            invert=b.invert, sos=np.asarray(d.sos, float), stored_sos=stored, scale=scale,
+            fir=None if d.fir is None else np.array(d.fir, dtype=float),
             stored_fir=stored_fir, peak_internal_gain_db=peak, peak_internal_at_hz=peak_at,
-            peak_internal_after=after, arith=res))
-    return RateExport(fs, proj, report, bands, a)
+            peak_internal_after=after, arith=res, laid_sos=laid,
+            shifts=[int(s) for s in shifts], section_filters=owners, filter_labels=labels))
+    return RateExport(fs, proj, report, bands, a, sections)
 
 
 # ---------------------------------------------------------------------------
@@ -405,8 +544,10 @@ def to_json_dict(rx: RateExport, negate_feedback: bool = False) -> dict:
     """The JSON contract at one rate (``crossplan-coefficients``, version 1).
 
     ``biquads`` hold ``[b0, b1, b2, a1, a2]`` as stored; the extra keys are
-    ``arith``, ``denominator``, ``negated_feedback`` and, per band,
-    ``scale`` and ``numerator_shifts``.
+    ``arith``, ``sections``, ``denominator``, ``negated_feedback`` and, per
+    band, ``scale``, ``post_shifts``, ``section_filters``, ``filters``,
+    ``numerator_shifts`` (always zeros: superseded by ``post_shifts``),
+    ``pre_attenuation_db`` and ``peak_internal_gain_db``.
     """
     bands = []
     for b in rx.bands:
@@ -415,34 +556,59 @@ def to_json_dict(rx: RateExport, negate_feedback: bool = False) -> dict:
             "invert": b.invert,
             "biquads": _feedback(b.stored_sos, negate_feedback).tolist(),
             "fir": None if b.stored_fir is None else b.stored_fir.tolist(),
-            "scale": b.scale, "numerator_shifts": b.arith.shifts,
+            "scale": b.scale, "post_shifts": list(b.shifts),
+            "section_filters": b.section_filters,
+            "filters": [{"index": j, "label": t} for j, t in sorted(b.filter_labels.items())],
+            "numerator_shifts": [0] * len(b.stored_sos),
             "pre_attenuation_db": b.pre_attenuation_db,
             "peak_internal_gain_db": b.peak_internal_gain_db,
         })
     return {"format": FORMAT, "version": VERSION, "sample_rate": _rate_value(rx.fs_hz),
-            "bands": bands, "arith": rx.arith.name, "negated_feedback": bool(negate_feedback),
+            "bands": bands, "arith": rx.arith.name, "sections": rx.sections,
+            "negated_feedback": bool(negate_feedback),
             "denominator": _denominator_text(negate_feedback), "project": rx.project.name}
 
 
-def _num(x: float) -> str:
-    """Shortest text that reads back as the same float64."""
+def _num(x: float, arith: qz.Arith | None = None) -> str:
+    """A coefficient as text: exact for float64 and fixed point, 9 digits for float32.
+
+    float64 and ``qM.N`` values are written in the shortest form that reads
+    back as the same float64 (every ``qM.N`` value with ``M + N <= 53`` is one
+    exactly); a float32 value in the shortest form that reads back as the
+    same float32 (at most 9 significant digits, IEEE 754), so typing it by
+    hand is practical.
+    """
+    if arith is not None and arith.kind == "float32":
+        return repr(float(np.float32(x))) if not np.isfinite(x) else str(np.float32(x))
     return repr(float(x))
 
 
-def to_csv_text(rx: RateExport, negate_feedback: bool = False) -> str:
-    """CSV: header ``band,item,index,b0,b1,b2,a1,a2,value``.
+def _section_label(b: BandExport, k: int) -> str:
+    """``"filter 2: LR4 lowpass 2.2 kHz"`` for section ``k`` (0-based) in per-filter mode."""
+    if b.section_filters is None:
+        return ""
+    j = b.section_filters[k]
+    return f"filter {j + 1}: {b.filter_labels.get(j, '')}"
 
-    One ``section`` row per biquad (index from 0), one ``fir`` row per tap
-    (tap in ``value``), and per band the rows ``gain_db``, ``delay_samples``,
-    ``invert`` (0/1) and ``scale`` with the value in ``value``. Rows with an
-    empty band give ``sample_rate``, ``arith`` and ``negated_feedback``.
+
+def to_csv_text(rx: RateExport, negate_feedback: bool = False) -> str:
+    """CSV: header ``band,item,index,b0,b1,b2,a1,a2,value,post_shift,filter``.
+
+    One ``section`` row per biquad (index from 0; its post-shift, and in
+    per-filter mode the 1-based filter number and label of the band's chain
+    in ``filter``), one ``fir`` row per tap (tap in ``value``), and per band
+    the rows ``gain_db``, ``delay_samples``, ``invert`` (0/1) and ``scale``
+    with the value in ``value``. Rows with an empty band give
+    ``sample_rate``, ``arith``, ``sections`` and ``negated_feedback``.
     """
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["band", "item", "index", "b0", "b1", "b2", "a1", "a2", "value"])
+    w.writerow(["band", "item", "index", "b0", "b1", "b2", "a1", "a2", "value", "post_shift",
+                "filter"])
     blank = [""] * 5
     w.writerow(["", "sample_rate", ""] + blank + [_num(rx.fs_hz)])
     w.writerow(["", "arith", ""] + blank + [rx.arith.name])
+    w.writerow(["", "sections", ""] + blank + [rx.sections])
     w.writerow(["", "negated_feedback", ""] + blank + [int(bool(negate_feedback))])
     for b in rx.bands:
         w.writerow([b.name, "gain_db", ""] + blank + [_num(b.gain_db)])
@@ -450,18 +616,22 @@ def to_csv_text(rx: RateExport, negate_feedback: bool = False) -> str:
         w.writerow([b.name, "invert", ""] + blank + [int(b.invert)])
         w.writerow([b.name, "scale", ""] + blank + [_num(b.scale)])
         for k, row in enumerate(_feedback(b.stored_sos, negate_feedback)):
-            w.writerow([b.name, "section", k] + [_num(v) for v in row] + [""])
+            w.writerow([b.name, "section", k] + [_num(v, rx.arith) for v in row]
+                       + ["", b.shifts[k] if b.shifts else 0, _section_label(b, k)])
         if b.stored_fir is not None:
             for k, t in enumerate(b.stored_fir):
-                w.writerow([b.name, "fir", k] + blank + [_num(t)])
+                w.writerow([b.name, "fir", k] + blank + [_num(t, rx.arith)])
     return buf.getvalue()
 
 
 def to_text(rx: RateExport, negate_feedback: bool = False) -> str:
     """A readable block per band, for entering coefficients into a DSP by hand."""
     lines = [f"# crossplan coefficients: {rx.project.name}",
-             f"# sample rate {rx.fs_hz:g} Hz, coefficients in {rx.arith.name}",
+             f"# sample rate {rx.fs_hz:g} Hz, coefficients in {rx.arith.name}, "
+             f"sections {rx.sections}",
              f"# each section: (b0 + b1 z^-1 + b2 z^-2) / ({_denominator_text(negate_feedback)})",
+             "# a section with a post-shift k holds its coefficients / 2^k: shift its "
+             "accumulator left by k bits",
              "# band output = gain * scale * polarity * sections (in order) [* fir], "
              "delayed by delay_samples", ""]
     for b in rx.bands:
@@ -473,14 +643,17 @@ def to_text(rx: RateExport, negate_feedback: bool = False) -> str:
         lines.append(f"  polarity       {'inverted' if b.invert else 'normal'}")
         lines.append(f"  scale          {_num(b.scale)}")
         for k, row in enumerate(_feedback(b.stored_sos, negate_feedback)):
-            lines.append(f"  section {k + 1}")
-            lines.extend(f"    {name} = {_num(v)}" for name, v in zip(
+            label = _section_label(b, k)
+            shift = b.shifts[k] if b.shifts else 0
+            lines.append(f"  section {k + 1}" + (f"  ({label})" if label else "")
+                         + (f"  post-shift {shift}" if shift else ""))
+            lines.extend(f"    {name} = {_num(v, rx.arith)}" for name, v in zip(
                 ("b0", "b1", "b2", "a1", "a2"), row))
         if b.stored_fir is None:
             lines.append("  fir            none")
         else:
             lines.append(f"  fir            {len(b.stored_fir)} taps")
-            lines.extend(f"    {_num(t)}" for t in b.stored_fir)
+            lines.extend(f"    {_num(t, rx.arith)}" for t in b.stored_fir)
         lines.append("")
     return "\n".join(lines)
 
@@ -513,25 +686,47 @@ def band_impulse_response(b: BandExport, fs_hz: float) -> tuple[np.ndarray, int,
     return h, whole, float(b.delay_samples - whole)
 
 
+def _stage_text(b: BandExport) -> str:
+    n = len(b.stored_sos)
+    k = b.peak_internal_after
+    if not k:
+        return ""
+    what = f"section {k}" if k <= n else "the FIR" if k == n + 1 else "scale"
+    return f" after {what} near {fk.format_hz(b.peak_internal_at_hz)}"
+
+
+def _deviation_text(r: ArithResult) -> str:
+    if r.deviation_db is None:
+        return "deviation not evaluated"
+    at = f" at {fk.format_hz(r.deviation_at_hz)}" if math.isfinite(r.deviation_at_hz) else ""
+    text = (f"deviation {_against(r.deviation_db, MAX_DEVIATION_DB)} dB{at} within "
+            f"{r.range_db:g} dB of the peak")
+    if r.floor_error_db is not None and math.isfinite(r.floor_error_db):
+        text += f", error {_against(r.floor_error_db, r.floor_db)} dB re peak below it"
+    return text
+
+
 def arith_text(rx: RateExport) -> list[str]:
-    """Lines per band: the rounding result for the target, and the peak internal gain."""
-    out = [f"arithmetic {rx.arith.name} at {rx.fs_hz:g} Hz"]
+    """Lines per band: the rounding result for the target, and the peak internal gain.
+
+    The figures are those of :func:`arith_dict` (and the manifest), shown with
+    enough digits that a figure never reads as equal to a limit it fails.
+    """
+    out = [f"arithmetic {rx.arith.name} at {rx.fs_hz:g} Hz, sections {rx.sections}"]
     for b in rx.bands:
         r = b.arith
         state = "ok  " if r.ok else "FAIL"
-        at = f" at {fk.format_hz(r.deviation_at_hz)}" if math.isfinite(r.deviation_at_hz) else ""
-        scaled = [f"{i + 1}:>>{s}" for i, s in enumerate(r.shifts) if s]
+        shifted = [f"{i + 1}:<<{s}" for i, s in enumerate(r.shifts) if s]
         out.append(
-            f"  {state} {b.name}: max coefficient error {r.max_coef_error:.3g}, deviation "
-            f"{r.deviation_db:.3g} dB{at}, min stability margin {r.stability_margin:.3g} "
+            f"  {state} {b.name}: max coefficient error {r.max_coef_error:.3g}, "
+            f"{_deviation_text(r)}, min stability margin {r.stability_margin:.3g} "
             f"(largest pole radius {1 - r.stability_margin:.9g})")
         out.append(
             f"       overflow: {', '.join(map(str, r.overflow_sections)) or 'none'}; "
-            f"scaled numerators: {', '.join(scaled) or 'none'}"
-            + (f" (scale x{b.scale:g})" if b.scale != 1 else "")
+            f"post-shifts: {', '.join(shifted) or 'none'}"
+            + (f"; scale x{b.scale:.6g}" if b.scale != 1 else "")
             + f"; peak internal gain {round(b.peak_internal_gain_db, 2) + 0.0:+.2f} dB"
-            + (f" after stage {b.peak_internal_after} near "
-               f"{fk.format_hz(b.peak_internal_at_hz)}" if b.peak_internal_after else "")
+            + _stage_text(b)
             + (f"; pre-attenuated {b.pre_attenuation_db:.2f} dB" if b.pre_attenuation_db else ""))
         if not r.ok:
             where = f"section {r.failed_section}" if r.failed_section else "its FIR"
@@ -544,6 +739,7 @@ def arith_text(rx: RateExport) -> list[str]:
 def arith_dict(rx: RateExport) -> dict:
     """The JSON form of :func:`arith_text` (``crossplan check --arith --json``)."""
     return {"format": rx.arith.name, "sample_rate": _rate_value(rx.fs_hz), "ok": rx.arith_ok,
+            "sections": rx.sections,
             "bands": [{"name": b.name, "peak_internal_gain_db": b.peak_internal_gain_db,
                        "peak_internal_at_hz": b.peak_internal_at_hz, "scale": b.scale,
                        **b.arith.to_dict()} for b in rx.bands]}
@@ -577,7 +773,8 @@ class ExportResult:
 
 def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
                  arith: str = "float64", negate_feedback: bool = False,
-                 pre_attenuate: bool = False, source: str | None = None) -> ExportResult:
+                 pre_attenuate: bool = False, source: str | None = None,
+                 sections: str = "per-filter") -> ExportResult:
     """Export ``project`` at every rate in one format, with a manifest.
 
     Files: ``DIR/<project>-<rate>.json|.csv|.txt``, or for ``wav`` one
@@ -599,7 +796,7 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
         raise ExportError("give at least one sample rate", field="rate")
     a = qz.parse_arith(arith)
     uniq = list(dict.fromkeys(float(_check_rate(r)) for r in rates))
-    exports = [export_rate(project, r, a, pre_attenuate) for r in uniq]
+    exports = [export_rate(project, r, a, pre_attenuate, sections) for r in uniq]
     arith_ok = all(rx.arith_ok for rx in exports)
     checks_ok = all(rx.report.ok for rx in exports)
     if not arith_ok:
@@ -642,7 +839,7 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
         "crossplan_version": __version__,
         "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
         "file_format": fmt, "arith": a.name, "negated_feedback": bool(negate_feedback),
-        "pre_attenuate": bool(pre_attenuate),
+        "pre_attenuate": bool(pre_attenuate), "sections": sections,
         "denominator": _denominator_text(negate_feedback),
         "rates": [_rate_value(r) for r in uniq],
         "files": [p.name for p in files],
@@ -656,7 +853,7 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
 def _manifest_rate(rx: RateExport, wav_info: dict) -> dict:
     bands = []
     for b in rx.bands:
-        d = {"name": b.name, "sections": len(b.stored_sos),
+        d = {"name": b.name, "sections": len(b.stored_sos), "post_shifts": list(b.shifts),
              "fir_taps": 0 if b.stored_fir is None else len(b.stored_fir),
              "peak_internal_gain_db": b.peak_internal_gain_db,
              "pre_attenuation_db": b.pre_attenuation_db, "arith": b.arith.to_dict()}

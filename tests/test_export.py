@@ -126,11 +126,30 @@ def test_fractional_delay_split_in_manifest(proj, tmp_path):
     assert wav["delay_fraction_samples_not_applied"] == pytest.approx(0.6, abs=1e-12)
 
 
-def test_sections_paired_as_zpk2sos(proj):
+def test_per_filter_sections_are_the_design_labelled_by_filter(proj):
+    # The default layout: each filter's own sections, as scipy.signal.butter designs them
+    # (the woofer's 35 Hz BW2 highpass, then its LR4 lowpass = BW2 squared, Linkwitz 1976).
     rx = export.export_rate(proj, 48000)
+    b = rx.bands[0]
+    hp = signal.butter(2, 35, "highpass", fs=48000, output="sos")
+    lp = signal.butter(2, 2200, "lowpass", fs=48000, output="sos")
+    np.testing.assert_allclose(b.stored_sos, np.vstack([hp, lp, lp]), rtol=1e-12, atol=1e-15)
+    assert b.section_filters == [0, 1, 1]
+    d = export.to_json_dict(rx)["bands"][0]
+    assert d["filters"] == [{"index": 0, "label": "BW2 highpass 35 Hz"},
+                            {"index": 1, "label": "LR4 lowpass 2.2 kHz"}]
+    assert d["section_filters"] == [0, 1, 1] and d["post_shifts"] == [0, 0, 0]
+
+
+def test_paired_sections_as_zpk2sos_on_a_well_conditioned_band(proj):
+    # --sections paired: each pole pair with scipy.signal.zpk2sos's zeros, high-Q last.
+    rx = export.export_rate(proj, 48000, sections="paired")
     d = rx.report.designs[0].sos
-    ref = signal.zpk2sos(*signal.sos2zpk(d))  # scipy's pairing, poles nearest |z| = 1 last
-    np.testing.assert_allclose(rx.bands[0].stored_sos, ref, rtol=0, atol=1e-12)
+    ref = signal.zpk2sos(*signal.sos2zpk(d))
+    got = rx.bands[0].stored_sos
+    np.testing.assert_allclose(got[:, 3:], ref[:, 3:], rtol=0, atol=1e-12)
+    np.testing.assert_allclose(got[:, :3] / got[:, :1], ref[:, :3] / ref[:, :1], atol=1e-9)
+    assert rx.bands[0].section_filters is None and rx.sections == "paired"
 
 
 def test_negate_feedback_flag(proj, tmp_path):
@@ -189,12 +208,25 @@ def _fragile():
 
 
 def test_fragile_highpass_caught_in_q1_15():
+    # q1.15 holds the range with a post-shift of one bit, but its 15 fractional bits put
+    # a pole on the unit circle (radius by numpy.roots below); q2.30 holds it.
     rx = export.export_rate(_fragile(), 192000, "q1.15")
     r = rx.bands[0].arith
-    assert not r.ok and r.failed_section == 1 and r.overflow_sections
-    assert r.suggestions and any("integer bits" in s for s in r.suggestions)
+    assert not r.ok and r.failed_section == 1 and r.unstable_sections and r.deviation_db is None
+    assert r.shifts == [1, 1, 1, 1] and not r.overflow_sections
+    assert any("lower sample rate" in s for s in r.suggestions)
+    assert any(s.startswith("q2.30 holds this design") for s in r.suggestions)
     text = "\n".join(export.arith_text(rx))
-    assert "band 'sub', section 1: q1.15 cannot hold the design at 192000 Hz" in text
+    assert "band 'sub', section 1: q1.15 cannot hold the design at 192000 Hz: rounding moved " \
+           "a pole to radius 1" in text
+    assert "deviation not evaluated" in text
+
+
+def test_fragile_highpass_holds_in_q1_31_with_post_shifts():
+    rx = export.export_rate(_fragile(), 192000, "q1.31")
+    r = rx.bands[0].arith
+    assert r.ok and r.shifts == [1, 1, 1, 1]
+    assert export.to_json_dict(rx)["bands"][0]["post_shifts"] == [1, 1, 1, 1]
 
 
 def test_fragile_highpass_survives_float64():
@@ -210,23 +242,24 @@ def test_pole_radius_agrees_with_numpy_roots():
     np.testing.assert_allclose(b.arith.pole_radius, ref, rtol=0, atol=1e-9)
 
 
-def test_numerators_scaled_and_scale_restores_response():
-    # Audio EQ Cookbook: a +24 dB peak at 5 kHz, Q 1, 48 kHz has
-    # b0 = (1 + alpha A) / (1 + alpha / A) = 2.05 > 2, so in q2.30 ([-2, 2)) its
-    # numerator is shifted, while a1, a2 (|a1| = 1.48) fit.
+def test_fixed_point_sections_scaled_to_full_scale_and_scale_restores_response():
+    # Audio EQ Cookbook: a +24 dB peak at 5 kHz, Q 1, 48 kHz peaks at 24 dB, at f0. For a
+    # fixed-point target the section is scaled to peak at full scale (Jackson sec. 11.3)
+    # and the 24 dB move to the band's scale, after the chain.
     p = project.from_dict({
         "format": "crossplan-project", "version": 1, "name": "eq", "sample_rate": 48000,
         "bands": [{"name": "eq", "filters": [
             {"type": "peaking", "freq": 5000, "gain_db": 24.0, "q": 1.0}]}]})
     rx = export.export_rate(p, 48000, "q2.30")
-    b = rx.bands[0]
-    assert b.arith.shifts[0] >= 1 and b.scale == 2.0 ** sum(b.arith.shifts)
+    d = export.to_json_dict(rx)["bands"][0]
+    assert 20 * np.log10(d["scale"]) == pytest.approx(24.0, abs=0.01)
     f = _grid(48000)
-    row = b.stored_sos[0, [0, 1, 2, 4, 5]]
-    got = _numpy_chain([row], 48000, f) * b.scale
+    rows = np.array(d["biquads"]) * 2.0 ** np.array(d["post_shifts"])[:, None]
+    got = _numpy_chain(rows, 48000, f) * d["scale"]
+    assert np.max(np.abs(_numpy_chain(rows, 48000, f))) <= 1 + 1e-6   # full scale inside
     ref = signal.sosfreqz(rx.report.designs[0].sos, worN=f, fs=48000)[1]
-    # q2.30 rounding, 2^-31 per coefficient times the shift: 1e-6.
-    assert np.max(np.abs(got - ref)) < 1e-6
+    # q2.30 rounding, 2^-31 per coefficient, times the 24 dB scale: 1e-6 relative.
+    assert np.max(np.abs(got - ref) / np.abs(ref)) < 1e-6
 
 
 def test_peak_internal_gain_and_pre_attenuation():

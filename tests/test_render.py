@@ -51,7 +51,8 @@ def test_blocks_equal_one_sosfilt_call(rx):
 
 def test_fir_block_convolution_equals_numpy_convolve(rx):
     taps = signal.firwin(511, 3000, fs=FS)
-    b = replace(rx.bands[0], stored_sos=np.zeros((0, 6)), stored_fir=taps, scale=1.0)
+    b = replace(rx.bands[0], stored_sos=np.zeros((0, 6)), shifts=[], stored_fir=taps,
+                scale=1.0)
     x = white_noise(2 * render.BLOCK_SAMPLES + 777, FS, seed=4)
     ref = np.convolve(x, taps)[:len(x)]
     np.testing.assert_allclose(render.render_band(x, b), ref, rtol=0, atol=1e-12)

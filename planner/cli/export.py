@@ -25,6 +25,11 @@ def add_arguments(p, name):
                         "(M integer bits including sign), e.g. q1.31, q2.30, q1.23, q1.15")
     p.add_argument("--negate-feedback", action="store_true",
                    help="write -a1, -a2 (for engines whose recursion adds the feedback terms)")
+    p.add_argument("--sections", choices=("per-filter", "paired"), default="per-filter",
+                   help="per-filter (default): each filter's own sections in chain order, "
+                        "labelled with the filter, for a DSP's per-filter slots; paired: the "
+                        "band's poles and zeros re-paired, high-Q sections last, scaled for "
+                        "fixed point")
     p.add_argument("--pre-attenuate", action="store_true",
                    help="lower each band's gain by its peak internal gain (when above 0 dB)")
 
@@ -43,7 +48,8 @@ def _run(args) -> int:
     rates = args.rate or [proj.sample_rate]
     res = export.write_export(proj, rates, args.format, args.out, arith=args.arith,
                               negate_feedback=args.negate_feedback,
-                              pre_attenuate=args.pre_attenuate, source=args.file)
+                              pre_attenuate=args.pre_attenuate, source=args.file,
+                              sections=args.sections)
     for rx in res.rates:
         print("\n".join(export.arith_text(rx)))
     if not res.arith_ok:

@@ -13,18 +13,20 @@ implicitly 1 and is never stored, so it is not quantised here.
 
 Quantisation is rounding to the nearest multiple of ``2**-N`` (ties to even,
 as :func:`numpy.round`), and values outside the range saturate to the
-nearest end; every saturation is reported. A numerator that does not fit is
-scaled by a power of two (a right shift of the section's numerator), and the
-lost gain is kept as one separate linear factor, so the overall response is
-preserved. A denominator that does not fit cannot be scaled without changing
-the poles: that section overflows the format and is reported. Sections of a
-stable low-frequency filter at a high sample rate have ``a1`` close to
-``-2``, which needs 2 integer bits; this is the classic case.
+nearest end; every saturation is reported. A section whose coefficients do
+not fit is stored divided by a power of two, ``2**k``, with a matching
+*post-shift*: the DSP shifts the section's accumulator left by ``k`` bits,
+which runs the design's section exactly. This is how general-purpose
+fixed-point biquad code holds the sections of a low cut-off at a high
+rate, whose ``a1`` is close to ``-2`` and does not fit ``q1.N``. Numerators
+whose zeros sit exactly at ``z = +1`` or ``z = -1`` (as the bilinear
+transform puts them) keep them exactly: their common factor is rounded, not
+each coefficient.
 
 The sensitivity of pole positions to coefficient rounding grows as the
 poles approach ``z = 1`` (low cut-off relative to the sample rate): see
-[1]_ sec. 6.7-6.9 and [2]_. Section pairing and ordering follow [3]_ as
-implemented by :func:`scipy.signal.zpk2sos`.
+[1]_ sec. 6.7-6.9 and [2]_. Section pairing, ordering and scaling live in
+:mod:`planner.dsp.sections` ([3]_).
 
 References
 ----------
@@ -47,8 +49,8 @@ import re
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import signal
 
+from planner.dsp.sections import integer_shape, pair_sections
 from planner.errors import ExportError
 
 __all__ = [
@@ -59,7 +61,10 @@ __all__ = [
     "quantize_sos",
     "pole_radius",
     "response_deviation_db",
-    "order_sections",
+    "post_shifts",
+    "unshift",
+    "Deviation",
+    "judge_deviation",
     "peak_internal_gain_db",
     "suggest_fixes",
 ]
@@ -239,23 +244,24 @@ class QuantizedSos:
     ----------
     arith : Arith
     sos : ndarray, shape (n, 6)
-        The stored coefficients ``[b0, b1, b2, 1, a1, a2]`` (numerators
-        already scaled down by ``2**shifts``).
+        The stored coefficients ``[b0, b1, b2, 1, a1, a2]``: each section's
+        five coefficients divided by ``2**shifts`` and rounded (``a0 = 1`` is
+        implicit and not stored).
     shifts : ndarray of int, shape (n,)
-        Right shift applied to each numerator (``b / 2**shift``).
-    gain : float
-        Linear factor ``2**sum(shifts)`` to apply after the chain (a left
-        shift of the output) so the overall response is preserved.
+        Post-shift of each section: the DSP computes the section's
+        accumulator with the stored coefficients and shifts it left by this
+        many bits (multiplies it by ``2**shift``) to get the output, so
+        ``y = 2**k (b' x - a' y_prev)`` runs the design's section exactly.
     overflow : ndarray of bool, shape (n,)
-        A denominator coefficient lies outside the format's range: the
-        section cannot be held.
+        The section would need a post-shift of more than :attr:`Arith.word_bits` - 1
+        bits: the format cannot hold it.
     saturated : ndarray of bool, shape (n,)
         Some coefficient of the section was clipped to the range.
     max_coef_error : float
         Largest ``|effective - original|`` over all coefficients, in the
         original (unshifted) scale.
     pole_radius : ndarray, shape (n,)
-        Largest pole radius of each quantised section.
+        Largest pole radius of each section as the DSP runs it.
     stable : bool
         All pole radii below 1.
     """
@@ -263,7 +269,6 @@ class QuantizedSos:
     arith: Arith
     sos: np.ndarray
     shifts: np.ndarray
-    gain: float
     overflow: np.ndarray
     saturated: np.ndarray
     max_coef_error: float
@@ -272,18 +277,26 @@ class QuantizedSos:
 
     @property
     def effective_sos(self) -> np.ndarray:
-        """Sections the DSP effectively runs: stored numerators times ``2**shift``.
-
-        Their cascade equals the stored chain followed by :attr:`gain`.
-        """
-        out = self.sos.copy()
-        out[:, :3] *= (2.0 ** self.shifts)[:, None]
-        return out
+        """Sections the DSP effectively runs: every stored coefficient times ``2**shift``."""
+        return unshift(self.sos, self.shifts)
 
     @property
     def ok(self) -> bool:
         """Stable and no section overflowed or saturated."""
         return bool(self.stable and not self.overflow.any() and not self.saturated.any())
+
+
+def unshift(stored, shifts) -> np.ndarray:
+    """Sections as a DSP runs them: stored ``[b0, b1, b2, 1, a1, a2]`` times ``2**shift``.
+
+    The inverse of storing a section with a post-shift ``k``: every
+    coefficient but ``a0`` is multiplied by ``2**k``.
+    """
+    out = np.array(stored, dtype=float, copy=True).reshape(-1, 6)
+    k = (2.0 ** np.asarray(shifts, dtype=float))[:, None]
+    out[:, 0:3] *= k
+    out[:, 4:6] *= k
+    return out
 
 
 def _check_sos(sos, field: str = "sos") -> np.ndarray:
@@ -297,8 +310,54 @@ def _check_sos(sos, field: str = "sos") -> np.ndarray:
     return s
 
 
+def post_shifts(sos, arith: Arith | str) -> np.ndarray:
+    """Smallest post-shift ``k >= 0`` per section that puts all five coefficients in range.
+
+    Fixed point only (0 for floating point): ``[b0, b1, b2, a1, a2] / 2**k``
+    must lie in ``[min_value, max_value]``. A section of a low cut-off has
+    ``a1`` near -2, which needs ``k = 1`` in ``q1.N`` formats and ``k = 0``
+    in ``q2.N``.
+    """
+    a = parse_arith(arith) if isinstance(arith, str) else arith
+    s = _check_sos(sos)
+    five = s[:, [0, 1, 2, 4, 5]]
+    shifts = np.zeros(len(s), dtype=int)
+    if a.kind != "fixed":
+        return shifts
+    top = np.max(np.abs(five), axis=1)
+    limit = a.word_bits - 1
+    while True:
+        bad = ~np.all(a.holds(five / (2.0 ** shifts)[:, None]), axis=1) & (shifts <= limit)
+        if not bad.any():
+            return shifts
+        # Jump to a lower bound, then step: |c| / 2**k <= 2**(M-1) needs
+        # k >= log2(|c|) - (M-1) for the largest |c|.
+        low = np.floor(np.log2(np.maximum(top[bad], 1e-300) / -a.min_value)).astype(int)
+        shifts[bad] = np.maximum(shifts[bad] + 1, np.minimum(low, limit + 1))
+
+
+def _round_numerators(b: np.ndarray, a: Arith):
+    """Round numerators; one whose shape is whole numbers (zeros at +-1, 0) keeps its shape.
+
+    ``q [1, 2, 1]`` is stored as ``round(q) [1, 2, 1]``, so its zeros stay
+    exactly at ``z = -1`` after rounding (rounding the three coefficients one
+    by one would move them off the unit circle).
+    """
+    q, sat = a.quantize(b)
+    for i in range(len(b)):             # a loop over sections, not frequencies
+        shape = integer_shape(b[i])
+        if shape is None:
+            continue
+        lead = b[i][np.flatnonzero(b[i])[0]]
+        ql, sl = a.quantize(np.array([lead]))
+        cand = ql[0] * shape
+        if np.all(a.holds(cand)):
+            q[i], sat[i] = cand, np.repeat(sl, 3)
+    return q, sat
+
+
 def quantize_sos(sos, arith: Arith | str) -> QuantizedSos:
-    """Round sections to ``arith``, scaling numerators that do not fit.
+    """Round sections to ``arith``, with a post-shift per section where the values do not fit.
 
     Parameters
     ----------
@@ -313,14 +372,14 @@ def quantize_sos(sos, arith: Arith | str) -> QuantizedSos:
 
     Notes
     -----
-    For fixed point, each numerator whose largest coefficient exceeds the
-    range is divided by the smallest power of two that makes it fit, before
-    rounding; ``a1, a2`` are rounded as they are, and a section whose ``a1``
-    or ``a2`` lies outside the range is flagged in ``overflow`` (its
-    saturated value is kept, so the reported poles are those the DSP would
-    get). ``a0 = 1`` is implicit in the recursion and not stored.
-    Pole radii use :func:`pole_radius`. See [1]_ sec. 6.7 for the effect of
-    coefficient rounding on poles.
+    For fixed point, each section is divided by the smallest power of two
+    that puts its five coefficients in range (:func:`post_shifts`) and then
+    rounded; the DSP shifts the section's accumulator left by as many bits,
+    which is how general-purpose fixed-point biquad code holds sections whose
+    ``|a1|`` is near 2 in a ``q1.N`` word. Numerators whose shape is whole
+    numbers keep it (see :func:`_round_numerators`). Pole radii use
+    :func:`pole_radius` on the sections as they run. See [1]_ sec. 6.7 for
+    the effect of coefficient rounding on poles.
 
     References
     ----------
@@ -330,36 +389,27 @@ def quantize_sos(sos, arith: Arith | str) -> QuantizedSos:
     Examples
     --------
     >>> from scipy import signal
-    >>> q = quantize_sos(signal.butter(2, 1000, fs=48000, output="sos"), "q2.30")
+    >>> q = quantize_sos(signal.butter(2, 1000, fs=48000, output="sos"), "q1.31")
     >>> bool(q.stable), q.shifts.tolist()
-    (True, [0])
+    (True, [1])
     """
     a = parse_arith(arith) if isinstance(arith, str) else arith
     s = _check_sos(sos)
-    n = len(s)
-    shifts = np.zeros(n, dtype=int)
-    if a.kind == "fixed":
-        b = s[:, :3]
-        # Smallest shift k >= 0 with every b / 2**k inside [min, max].
-        while True:
-            bad = ~np.all(a.holds(b / (2.0 ** shifts)[:, None]), axis=1)
-            if not bad.any():
-                break
-            shifts[bad] += 1
-    stored = s.copy()
-    stored[:, :3] = s[:, :3] / (2.0 ** shifts)[:, None]
-    overflow = ~np.all(a.holds(s[:, 4:6]), axis=1)
-    q_b, sat_b = a.quantize(stored[:, :3])
-    q_a, sat_a = a.quantize(stored[:, 4:6])
-    stored[:, :3], stored[:, 4:6], stored[:, 3] = q_b, q_a, 1.0
+    shifts = post_shifts(s, a)
+    overflow = shifts > a.word_bits - 1
+    shifts = np.minimum(shifts, a.word_bits - 1)
+    scaled = s / (2.0 ** shifts)[:, None]
+    q_b, sat_b = _round_numerators(scaled[:, 0:3], a)
+    q_a, sat_a = a.quantize(scaled[:, 4:6])
+    stored = scaled.copy()
+    stored[:, 0:3], stored[:, 4:6], stored[:, 3] = q_b, q_a, 1.0
     saturated = sat_b.any(axis=1) | sat_a.any(axis=1) | overflow
-    result = QuantizedSos(
-        arith=a, sos=stored, shifts=shifts, gain=float(2.0 ** shifts.sum()),
-        overflow=overflow, saturated=saturated, max_coef_error=0.0,
-        pole_radius=pole_radius(stored), stable=False)
-    result.max_coef_error = float(np.max(np.abs(result.effective_sos - s)))
-    result.stable = bool(np.all(result.pole_radius < 1.0))
-    return result
+    effective = unshift(stored, shifts)
+    radius = pole_radius(effective)
+    return QuantizedSos(
+        arith=a, sos=stored, shifts=shifts, overflow=overflow, saturated=saturated,
+        max_coef_error=float(np.max(np.abs(effective - s))), pole_radius=radius,
+        stable=bool(np.all(radius < 1.0)))
 
 
 def _chain_response(sos: np.ndarray, freqs_hz: np.ndarray, fs_hz: float) -> np.ndarray:
@@ -430,39 +480,78 @@ def response_deviation_db(sos_ref, sos_q, freqs_hz, fs_hz: float, gain_q: float 
     return float(dev[i]), float(f[i])
 
 
-def order_sections(sos, pairing: str = "nearest") -> np.ndarray:
-    """Re-pair poles with the nearest zeros and re-order the sections.
+@dataclass(frozen=True)
+class Deviation:
+    """How far a rounded chain's magnitude is from its design, judged where it matters.
 
-    The chain is converted to zeros, poles and gain
-    (:func:`scipy.signal.sos2zpk`) and paired again by
-    :func:`scipy.signal.zpk2sos`: poles closest to the unit circle are paired
-    first with their nearest zeros, and those sections come *last* in the
-    cascade, so the high-Q sections see a signal already shaped by the others
-    (Jackson [1]_ sec. 11.4; scipy's documented behaviour). The overall
-    gain goes into the first section.
+    Attributes
+    ----------
+    in_range_db : float
+        Largest ``|20 log10 |H_q / H_ref||`` (dB) where the design is within
+        ``range_db`` of its peak level (0.0 where no point is).
+    in_range_at_hz : float
+        Where it occurs (nan if nowhere).
+    floor_error_db : float
+        Elsewhere (deeper than ``range_db`` below the peak), the largest
+        ``||H_q| - |H_ref||`` in dB relative to the peak (``-inf`` where there
+        is no such point): a 3 dB change at -90 dB is an error of about -94 dB
+        re the peak, inaudible beside the pass band.
+    floor_at_hz : float
+    range_db, floor_db : float
+        The judging range and the error floor (both in dB, relative to the peak).
+    """
+
+    in_range_db: float
+    in_range_at_hz: float
+    floor_error_db: float
+    floor_at_hz: float
+    range_db: float
+    floor_db: float
+
+    def ok(self, limit_db: float) -> bool:
+        """Within ``limit_db`` inside the range, and below the floor outside it."""
+        return bool(self.in_range_db <= limit_db and self.floor_error_db <= self.floor_db)
+
+
+def judge_deviation(ref_h, got_h, freqs_hz, range_db: float = 40.0,
+                    floor_db: float = -80.0) -> Deviation:
+    """Compare a rounded chain's response with its design where the response matters.
+
+    Inside ``range_db`` below the design's peak level the deviation is judged
+    in dB (a relative measure: what a listener hears in and near the pass
+    band); deeper down, by the absolute magnitude error relative to the peak
+    (``floor_db``), so that a large relative change deep in a stop band (2.9
+    dB at -90 dB, say) does not fail a benign design, while an error that
+    reaches up towards the pass band does. The defaults (40 dB, -80 dB: a
+    0.1 dB change at -40 dB is an error of -78.7 dB re the peak) are common
+    practice, no published source.
 
     Parameters
     ----------
-    sos : ndarray, shape (n, 6)
-    pairing : {'nearest', 'keep_odd', 'minimal'}
-        Passed to :func:`scipy.signal.zpk2sos`.
+    ref_h, got_h : ndarray, complex, shape (n,)
+        The design's and the rounded chain's responses on one grid.
+    freqs_hz : ndarray, shape (n,)
+    range_db, floor_db : float
 
     Returns
     -------
-    sos : ndarray, shape (n, 6)
-        Same response, new pairing and order.
-
-    References
-    ----------
-    .. [1] L. B. Jackson, "Digital Filters and Signal Processing", 3rd ed.,
-       Kluwer, 1996, sec. 11.4.
+    Deviation
     """
-    s = _check_sos(sos)
-    if pairing not in ("nearest", "keep_odd", "minimal"):
-        raise ExportError(f"must be 'nearest', 'keep_odd' or 'minimal', not {pairing!r}",
-                          field="pairing")
-    z, p, k = signal.sos2zpk(s)
-    return signal.zpk2sos(z, p, k, pairing=pairing)
+    ref = np.abs(np.asarray(ref_h))
+    got = np.abs(np.asarray(got_h))
+    f = np.asarray(freqs_hz, dtype=float)
+    peak = float(np.max(ref)) if len(ref) else 0.0
+    if not peak > 0:
+        return Deviation(0.0, float("nan"), float("-inf"), float("nan"), range_db, floor_db)
+    inside = _db(ref) >= _db(np.array(peak))[()] - range_db
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dev = np.where(inside, np.abs(_db(got) - _db(ref)), -np.inf)
+        err = np.where(inside, -np.inf, _db(np.abs(got - ref) / peak))
+    i, j = int(np.argmax(dev)), int(np.argmax(err))
+    in_db, in_at = (float(dev[i]), float(f[i])) if np.isfinite(dev[i]) else (0.0, float("nan"))
+    fl_db, fl_at = (float(err[j]), float(f[j])) if np.isfinite(err[j]) else (float("-inf"),
+                                                                             float("nan"))
+    return Deviation(in_db, in_at, fl_db, fl_at, float(range_db), float(floor_db))
 
 
 @dataclass
@@ -539,39 +628,39 @@ _WIDER = ("q2.14", "q2.22", "q2.30", "q3.29", "q2.46", "float32", "q4.60", "floa
 
 
 def suggest_fixes(sos, arith: Arith | str, fs_hz: float, freqs_hz,
-                  max_deviation_db: float = 0.1, floor_db: float = -100.0) -> list[str]:
-    """Plain-language fixes when ``arith`` cannot hold the design.
+                  max_deviation_db: float = 0.1, range_db: float = 40.0,
+                  floor_db: float = -80.0) -> list[str]:
+    """Plain-language fixes when ``arith`` cannot hold a band's sections.
 
     Checks, each giving at most one suggestion:
 
-    * a denominator out of range: the integer bits it needs, and the format
-      of the same word length that holds it;
-    * unstable, or response off by more than ``max_deviation_db``: a lower
-      sample rate for the band when its poles lie close to ``z = 1`` (pole
-      sensitivity grows as poles cluster near ``z = 1``, Kaiser 1966; see
-      Oppenheim and Schafer sec. 6.7), and the narrowest wider format that
-      meets the tolerance (by actually quantising to each candidate);
-    * fixed point only: an internal gain above 0 dB (more than 0.01 dB): the
-      pre-attenuation needed, and whether re-ordering
-      (:func:`order_sections`) lowers it by more than 0.5 dB.
+    * a section that needs a post-shift wider than the word: its largest
+      coefficient, and the wider format that holds it;
+    * unstable, or response off by more than ``max_deviation_db`` (judged by
+      :func:`judge_deviation`): a lower sample rate for the band when its
+      poles lie close to ``z = 1`` (pole sensitivity grows as poles cluster
+      near ``z = 1``, Kaiser 1966; see Oppenheim and Schafer sec. 6.7), and
+      the narrowest wider format that meets the tolerance (by actually
+      quantising to each candidate);
+    * re-pairing the sections (:func:`planner.dsp.sections.pair_sections`)
+      when that alone makes ``arith`` hold them.
 
     Parameters
     ----------
     sos : ndarray, shape (n, 6)
+        The sections as they would be stored before rounding (scaled).
     arith : Arith or str
     fs_hz : float
         Sample rate in Hz.
     freqs_hz : ndarray
-        Grid in Hz for the deviation and gain checks.
-    max_deviation_db : float
-        Largest acceptable magnitude deviation, dB.
-    floor_db : float
-        Reference levels below this (dB) are ignored in the deviation check.
+        Grid in Hz for the deviation check.
+    max_deviation_db, range_db, floor_db : float
+        See :func:`judge_deviation`.
 
     Returns
     -------
     list of str
-        Empty when the format holds the design.
+        Empty when the format holds the sections.
 
     References
     ----------
@@ -583,68 +672,50 @@ def suggest_fixes(sos, arith: Arith | str, fs_hz: float, freqs_hz,
     a = parse_arith(arith) if isinstance(arith, str) else arith
     s = _check_sos(sos)
     f = _check_grid(freqs_hz, fs_hz)
-    q = quantize_sos(s, a)
-    out: list[str] = []
+    ref = np.prod(_chain_response(s, f, fs_hz), axis=0)
 
-    def meets(res: QuantizedSos) -> bool:
+    def meets(cand: Arith, sections: np.ndarray = s) -> bool:
+        res = quantize_sos(sections, cand)
         if not res.ok:
             return False
-        return response_deviation_db(s, res.effective_sos, f, fs_hz,
-                                     floor_db=floor_db)[0] <= max_deviation_db
+        got = np.prod(_chain_response(res.effective_sos, f, fs_hz), axis=0)
+        return judge_deviation(ref, got, f, range_db, floor_db).ok(max_deviation_db)
 
+    q = quantize_sos(s, a)
+    out: list[str] = []
     if q.overflow.any():
         idx = np.flatnonzero(q.overflow)
-        need = a.int_bits_needed(s[idx][:, 4:6])
-        word = a.word_bits
-        worst = s[idx][:, 4:6].flat[np.argmax(np.abs(s[idx][:, 4:6]))]
+        worst = s[idx][:, [0, 1, 2, 4, 5]].flat[np.argmax(np.abs(s[idx][:, [0, 1, 2, 4, 5]]))]
         out.append(
-            f"section(s) {', '.join(str(i + 1) for i in idx)}: a denominator coefficient "
-            f"({worst:.6g}) is outside {a.name}'s range [{a.min_value:g}, {a.max_value:.6g}]; "
-            f"it needs {need} integer bits: use q{need}.{max(word - need, 0)} "
-            f"(same {word}-bit word) or a wider format")
-    ok = meets(q)
-    if not ok:
-        r = pole_radius(s)
-        worst = int(np.argmax(r))
-        # Distance of the pole from z = 1 expressed as a frequency: for a
-        # pole near z = 1, |1 - p| * fs / (2 pi) is close to its analog
-        # natural frequency (bilinear/impulse-invariant mapping, small w).
-        p = np.roots(s[worst, 3:6])
-        p = p[np.argmax(np.abs(p))]
-        f_pole = abs(1 - p) * fs_hz / (2 * np.pi)
-        if f_pole < fs_hz / 100:  # common practice, no published source
-            out.append(
-                f"section {worst + 1} has poles near z = 1 (radius {r[worst]:.6f}, about "
-                f"{f_pole:.3g} Hz at {fs_hz:g} Hz): run this band at a lower sample rate "
-                f"(e.g. {fs_hz / 4:g} Hz), which moves the poles away from z = 1 and "
-                f"makes them far less sensitive to rounding")
-        for name in _WIDER:
-            cand = parse_arith(name)
-            if cand == a or not _wider(cand, a):
-                continue
-            if meets(quantize_sos(s, cand)):
-                out.append(f"{cand.name} holds this design within {max_deviation_db:g} dB")
-                break
-        else:
-            out.append(f"no format tried ({', '.join(_WIDER)}) holds this design within "
-                       f"{max_deviation_db:g} dB: change the design or the sample rate")
-    if a.kind != "fixed":
+            f"section(s) {', '.join(str(i + 1) for i in idx)}: a coefficient ({worst:.6g}) "
+            f"needs a post-shift wider than {a.name}'s {a.word_bits}-bit word")
+    if meets(a):
         return out
-    # Levels a fixed-point DSP holds: the design with the numerator shifts
-    # applied, before rounding (rounding is judged above).
-    scaled = s.copy()
-    scaled[:, :3] /= (2.0 ** q.shifts)[:, None]
-    peaks = peak_internal_gain_db(scaled, f, fs_hz)
-    # 0.01 dB: below this an overshoot is numerical noise of a maximally flat
-    # passband (common practice, no published source).
-    if peaks.headroom_db > 0.01:
-        k = int(np.argmax(peaks.gain_db))
-        msg = (f"the signal rises to {peaks.headroom_db:.2f} dB above full scale inside the "
-               f"chain (after section {k + 1}, {peaks.at_hz[k]:.4g} Hz): attenuate the input "
-               f"by {np.ceil(peaks.headroom_db * 100) / 100:.2f} dB")
-        re_peaks = peak_internal_gain_db(order_sections(s), f, fs_hz)
-        if re_peaks.headroom_db < peaks.headroom_db - 0.5:
-            msg += (f", or re-order the sections (poles nearest the unit circle last), "
-                    f"which needs only {re_peaks.headroom_db:.1f} dB")
-        out.append(msg)
+    r = pole_radius(s)
+    worst = int(np.argmax(r))
+    # Distance of the pole from z = 1 expressed as a frequency: for a pole
+    # near z = 1, |1 - p| * fs / (2 pi) is close to its analog natural
+    # frequency (bilinear/impulse-invariant mapping, small w).
+    p = np.roots(s[worst, 3:6])
+    p = p[np.argmax(np.abs(p))]
+    f_pole = abs(1 - p) * fs_hz / (2 * np.pi)
+    if f_pole < fs_hz / 100:  # common practice, no published source
+        out.append(
+            f"section {worst + 1} has poles near z = 1 (radius {r[worst]:.6f}, about "
+            f"{f_pole:.3g} Hz at {fs_hz:g} Hz): run this band at a lower sample rate "
+            f"(e.g. {fs_hz / 4:g} Hz), which moves the poles away from z = 1 and "
+            f"makes them far less sensitive to rounding")
+    if len(s) > 1 and meets(a, pair_sections(s)):
+        out.append(f"{a.name} holds the sections re-paired with the poles nearest the unit "
+                   "circle last (export --sections paired)")
+    for name in _WIDER:
+        cand = parse_arith(name)
+        if cand == a or not _wider(cand, a):
+            continue
+        if meets(cand):
+            out.append(f"{cand.name} holds this design within {max_deviation_db:g} dB")
+            break
+    else:
+        out.append(f"no format tried ({', '.join(_WIDER)}) holds this design within "
+                   f"{max_deviation_db:g} dB: change the design or the sample rate")
     return out
