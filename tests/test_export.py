@@ -288,3 +288,56 @@ def test_float32_holds_a_crossover():
     for b in rx.bands:
         # float32 rounding (2^-24 relative) moves a 2 kHz LR4 by far less than 0.1 dB.
         assert b.arith.ok and 0 < b.arith.max_coef_error < 1e-6
+
+
+def _lowpass_192k(order, freq):
+    return project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": "lo", "sample_rate": 192000,
+        "bands": [{"name": "sub", "filters": [
+            {"type": "lowpass", "family": "butterworth", "order": order, "freq": freq}]}]})
+
+
+def test_tiny_overall_gain_survives_q2_30():
+    # scipy.signal.butter(8, 20, fs=192000) puts an overall gain of about 1e-26 in its first
+    # numerator, which rounds to 0 in q2.30 (the band reported as "6e+03 dB" off). Scaled to
+    # full scale section by section it holds: every stored numerator is non-zero and the
+    # file's chain is within 0.1 dB of scipy's design where it is within 40 dB of its peak.
+    assert signal.butter(8, 20, fs=192000, output="sos")[0, 0] < 1e-20
+    rx = export.export_rate(_lowpass_192k(8, 20), 192000, "q2.30")
+    b = rx.bands[0]
+    assert b.arith.ok and np.all(np.abs(b.stored_sos[:, 0]) > 0)
+    f = np.geomspace(10, 90000, 2000)
+    d = export.to_json_dict(rx)["bands"][0]
+    rows = np.array(d["biquads"]) * 2.0 ** np.array(d["post_shifts"])[:, None]
+    got = np.abs(_numpy_chain(rows, 192000, f)) * d["scale"]
+    ref = np.abs(signal.sosfreqz(signal.butter(8, 20, fs=192000, output="sos"), worN=f,
+                                 fs=192000)[1])
+    inside = 20 * np.log10(ref) >= -40
+    assert np.max(np.abs(20 * np.log10(got[inside] / ref[inside]))) < 0.1
+
+
+def test_a_band_that_fails_says_so_with_a_real_figure():
+    # A 10 Hz 6th-order lowpass at 192 kHz: poles 3e-4 from z = 1; 30 fractional bits move
+    # its pass band by a few tenths of a dB, which is what is reported (not a rounding of
+    # a numerator to zero).
+    rx = export.export_rate(_lowpass_192k(6, 10), 192000, "q2.30")
+    r = rx.bands[0].arith
+    assert not r.ok and 0.1 < r.deviation_db < 1.0
+    assert re.search(r"the response deviates by 0\.\d+ dB at [\d.]+ Hz \(limit 0\.1 dB within "
+                     r"40 dB of the band's peak\)", r.reason)
+
+
+def test_text_lines_agree_with_the_json_figures():
+    # What the export prints per rate is the figure of its JSON (and manifest), rounded,
+    # never rounded onto the limit it fails: 0.1049 is shown as 0.105, not 0.1.
+    assert export._against(0.10004, 0.1) == "0.10004"
+    assert export._against(0.0999, 0.1) == "0.0999"
+    assert export._against(0.5, 0.1) == "0.5"
+    for order, freq in ((6, 10), (8, 20), (4, 10)):
+        rx = export.export_rate(_lowpass_192k(order, freq), 192000, "q2.30")
+        d = export.arith_dict(rx)["bands"][0]
+        line = export.arith_text(rx)[1]
+        shown = float(re.search(r"deviation ([\d.e+-]+) dB", line).group(1))
+        assert shown == pytest.approx(d["deviation_db"], rel=5e-3)
+        assert (shown > export.MAX_DEVIATION_DB) == (not d["ok"])
+        assert line.lstrip().startswith("ok" if d["ok"] else "FAIL")
