@@ -1,0 +1,381 @@
+"""Acoustic responses of loudspeaker drivers: models, measured data, offsets and geometry.
+
+Pure functions on arrays. A driver's response multiplies its band's
+electrical response, so the check sees what reaches the listener:
+
+* analytic models of the small-signal response (:func:`closed_box`,
+  :func:`vented_box`, :func:`rolloff`, :func:`breakup`), evaluated at
+  ``s = j 2 pi f``;
+* measured magnitudes (and phases) brought onto the analysis grid in log
+  frequency (:func:`interpolate_response`), with the phase derived from the
+  magnitude where none was measured (:func:`minimum_phase_deg`);
+* the acoustic offset of a driver (its acoustic centre behind a reference
+  plane) as a delay (:func:`speed_of_sound_m_s`, :func:`offset_delay_s`);
+* the summed response off axis, from the drivers' positions on the baffle
+  (:func:`off_axis_paths`).
+
+References
+----------
+.. [1] R. H. Small, "Closed-Box Loudspeaker Systems, Part I: Analysis",
+   J. Audio Eng. Soc., vol. 20, no. 10, 1972 (second-order highpass from
+   the resonance f_c and total Q_tc).
+.. [2] A. N. Thiele, "Loudspeakers in Vented Boxes", J. Audio Eng. Soc.,
+   vol. 19, 1971; R. H. Small, "Vented-Box Loudspeaker Systems", J. Audio
+   Eng. Soc., vol. 21, 1973 (fourth-order highpass; the B4 alignment).
+.. [3] A. V. Oppenheim and R. W. Schafer, "Discrete-Time Signal Processing",
+   3rd ed., 2010, sec. 13.5 (minimum-phase reconstruction from the real
+   cepstrum); H. W. Bode, "Network Analysis and Feedback Amplifier Design",
+   1945 (gain-phase relation).
+.. [4] L. E. Kinsler, A. R. Frey, A. B. Coppens and J. V. Sanders,
+   "Fundamentals of Acoustics", 4th ed., 2000, sec. 5.6 (speed of sound in
+   an ideal gas, c proportional to the square root of absolute temperature).
+.. [5] R. Bristow-Johnson, "Audio EQ Cookbook", W3C Working Group Note, 2021
+   (the analog prototype of the peaking filter).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.errors import DesignError
+
+__all__ = [
+    "speed_of_sound_m_s", "offset_delay_s", "closed_box", "vented_box", "rolloff",
+    "breakup", "B4_Q", "minimum_phase_deg", "interpolate_response", "Interpolated",
+    "edge_slopes_db_per_octave", "off_axis_paths",
+]
+
+#: Q of the two second-order sections of a fourth-order Butterworth highpass: the B4
+#: alignment of a vented box (Thiele 1971): 1 / (2 cos(pi/8)), 1 / (2 cos(3 pi/8)).
+B4_Q = (1.0 / (2.0 * np.cos(np.pi / 8)), 1.0 / (2.0 * np.cos(3 * np.pi / 8)))
+
+
+def _positive(value, field: str, unit: str) -> float:
+    v = float(value)
+    if not np.isfinite(v) or v <= 0:
+        raise DesignError(f"must be a positive number of {unit}, not {value!r}", field=field)
+    return v
+
+
+def speed_of_sound_m_s(temp_c: float = 20.0) -> float:
+    """Speed of sound in dry air at ``temp_c`` deg C: ``331.3 + 0.606 T`` m/s.
+
+    The first-order expansion of ``331.3 sqrt(1 + T / 273.15)`` (ideal gas,
+    [4]_): 343.4 m/s at 20 deg C, within 0.25 % of the square-root form from
+    -20 to +40 deg C.
+    """
+    t = float(temp_c)
+    if not np.isfinite(t) or not -50.0 <= t <= 60.0:
+        raise DesignError(f"{temp_c!r} deg C is outside -50 .. 60 deg C", field="temperature_c")
+    return 331.3 + 0.606 * t
+
+
+def offset_delay_s(offset_mm, temp_c: float = 20.0) -> np.ndarray:
+    """Delay in seconds of an acoustic centre ``offset_mm`` behind the reference plane.
+
+    Positive offsets (recessed drivers) arrive later: ``offset / c``.
+    """
+    return np.asarray(offset_mm, dtype=float) / 1000.0 / speed_of_sound_m_s(temp_c)
+
+
+def _s(freqs_hz) -> np.ndarray:
+    return 2j * np.pi * np.asarray(freqs_hz, dtype=float)
+
+
+def _highpass2(s: np.ndarray, w0: float, q: float) -> np.ndarray:
+    return s * s / (s * s + s * w0 / q + w0 * w0)
+
+
+def closed_box(freqs_hz, fc_hz: float, qtc: float) -> np.ndarray:
+    """Closed-box woofer: ``s^2 / (s^2 + s wc / Qtc + wc^2)``, ``wc = 2 pi fc`` ([1]_ eq. 21).
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+    fc_hz : float
+        System resonance in Hz.
+    qtc : float
+        Total Q at resonance (0.707 is the maximally flat alignment).
+
+    Returns
+    -------
+    ndarray, complex
+    """
+    fc = _positive(fc_hz, "fc", "Hz")
+    q = _positive(qtc, "qtc", "")
+    return _highpass2(_s(freqs_hz), 2 * np.pi * fc, q)
+
+
+def vented_box(freqs_hz, fc_hz: float, q1: float = B4_Q[0], q2: float = B4_Q[1]) -> np.ndarray:
+    """Vented-box woofer: a fourth-order highpass at ``fc_hz`` ([2]_).
+
+    Modelled as two second-order highpass sections at ``fc_hz`` with Qs
+    ``q1`` and ``q2``; the defaults are the B4 (fourth-order Butterworth)
+    alignment, -3 dB at ``fc_hz`` and 24 dB/octave below.
+    """
+    fc = _positive(fc_hz, "fc", "Hz")
+    s, w0 = _s(freqs_hz), 2 * np.pi * fc
+    return _highpass2(s, w0, _positive(q1, "q1", "")) * _highpass2(s, w0, _positive(q2, "q2", ""))
+
+
+def rolloff(freqs_hz, f_hz: float, order: int = 2, q: float = 1 / np.sqrt(2)) -> np.ndarray:
+    """A simple high-frequency roll-off: first- or second-order lowpass at ``f_hz``.
+
+    ``wc / (s + wc)`` or ``wc^2 / (s^2 + s wc / Q + wc^2)``.
+    """
+    fc = _positive(f_hz, "rolloff_hz", "Hz")
+    s, w0 = _s(freqs_hz), 2 * np.pi * fc
+    if order == 1:
+        return w0 / (s + w0)
+    if order == 2:
+        return w0 * w0 / (s * s + s * w0 / _positive(q, "rolloff_q", "") + w0 * w0)
+    raise DesignError(f"must be 1 or 2, not {order!r}", field="rolloff_order")
+
+
+def breakup(freqs_hz, f_hz: float, gain_db: float, q: float) -> np.ndarray:
+    """A cone break-up resonance: an analog peak of ``gain_db`` at ``f_hz`` with ``q``.
+
+    ``(s^2 + s A w0 / Q + w0^2) / (s^2 + s w0 / (A Q) + w0^2)`` with
+    ``A = 10^(gain_db / 40)``: the analog prototype of the Audio EQ Cookbook
+    peaking filter ([5]_), ``gain_db`` at ``f_hz`` and 0 dB far from it.
+    """
+    f0 = _positive(f_hz, "breakup_hz", "Hz")
+    if not np.isfinite(gain_db):
+        raise DesignError(f"must be a finite number of dB, not {gain_db!r}", field="breakup_db")
+    qq = _positive(q, "breakup_q", "")
+    s, w0, a = _s(freqs_hz), 2 * np.pi * f0, 10.0 ** (gain_db / 40.0)
+    return (s * s + s * a * w0 / qq + w0 * w0) / (s * s + s * w0 / (a * qq) + w0 * w0)
+
+
+# ---------------------------------------------------------------------------
+# measured responses
+
+
+def edge_slopes_db_per_octave(freqs_hz, mag_db, octaves: float = 1 / 3):
+    """Slopes (dB/octave) of a magnitude over its lowest and highest ``octaves``.
+
+    Least-squares lines of ``mag_db`` against ``log2 f`` over each end; used to
+    extend a measured magnitude beyond its range.
+    """
+    f = np.asarray(freqs_hz, dtype=float)
+    m = np.asarray(mag_db, dtype=float)
+    lf = np.log2(f)
+    out = []
+    for k, mask in enumerate((lf <= lf[0] + octaves, lf >= lf[-1] - octaves)):
+        if mask.sum() < 2:          # fewer than two points in the span: the two outer ones
+            mask = np.zeros(len(f), dtype=bool)
+            mask[[0, 1] if k == 0 else [-2, -1]] = True
+        out.append(float(np.polyfit(lf[mask], m[mask], 1)[0]))
+    return out[0], out[1]
+
+
+def _extended_db(freqs_hz, mag_db, to_hz: np.ndarray, low_slope: float, high_slope: float):
+    """``mag_db`` on ``to_hz``: interpolated in log frequency inside, sloped lines outside."""
+    f = np.asarray(freqs_hz, dtype=float)
+    m = np.asarray(mag_db, dtype=float)
+    t = np.asarray(to_hz, dtype=float)
+    lt = np.log2(np.maximum(t, 1e-12))
+    out = np.interp(lt, np.log2(f), m)
+    lo, hi = t < f[0], t > f[-1]
+    out[lo] = m[0] + low_slope * (lt[lo] - np.log2(f[0]))
+    out[hi] = m[-1] + high_slope * (lt[hi] - np.log2(f[-1]))
+    return out
+
+
+#: Bounds of the slopes (dB/octave) used to extend a magnitude beyond the data: a
+#: driver's own roll-offs are at most about fifth order (30 dB/octave) in this model;
+#: steeper measured edges (a gate, a noise floor) are clipped to them, and a magnitude
+#: never rises beyond its ends. Common practice, no published source.
+LOW_SLOPE_DB_OCT = (0.0, 30.0)
+HIGH_SLOPE_DB_OCT = (-30.0, 0.0)
+
+
+#: Log-frequency resolution of the gain-phase integral, points per decade.
+_BODE_PER_DECADE = 240
+#: How far (decades) the magnitude is extended beyond the data each side: the
+#: integral's kernel falls as exp(-|u|), so what lies further adds below 1e-9 rad.
+_BODE_EXTEND_DECADES = 9.0
+
+
+def _bode_weights(h: float, n: int) -> np.ndarray:
+    """``W[k] = int_{k h}^{(k+1) h} ln coth(|u| / 2) du`` for ``k = -n .. n-1``.
+
+    Three-point Gauss-Legendre per cell; the two cells that touch the
+    kernel's logarithmic singularity at ``u = 0`` use its expansion
+    ``ln coth(u/2) = ln(2/u) + u^2/12 + O(u^4)``, whose integral from 0 to h
+    is ``h (ln(2/h) + 1) + h^3 / 36``.
+    """
+    k = np.arange(-n, n)
+    nodes = np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])
+    wts = np.array([5.0, 8.0, 5.0]) / 18.0
+    u = (k[:, None] + 0.5 + 0.5 * nodes[None, :]) * h
+    with np.errstate(divide="ignore"):
+        kern = np.log(1.0 / np.tanh(np.abs(u) / 2.0))
+    out = h * (kern * wts).sum(axis=1)
+    near = h * (np.log(2.0 / h) + 1.0) + h ** 3 / 36.0
+    out[n] = out[n - 1] = near                  # cells [0, h] and [-h, 0]
+    return out
+
+
+def minimum_phase_deg(freqs_hz, mag_db) -> np.ndarray:
+    """The minimum phase (deg) that goes with a magnitude response: Bode's gain-phase integral.
+
+    For a minimum-phase system the phase at ``f0`` follows from the slope of
+    the log magnitude ``A = ln |H|`` (nepers) against ``u = ln(f / f0)``
+    ([3]_; the Hilbert transform of the log magnitude, written in log
+    frequency)::
+
+        phi(f0) = (1 / pi) * integral of (dA/du) ln coth(|u| / 2) du
+
+    The magnitude is taken as piecewise linear in log frequency between the
+    given points and extended beyond them with the slopes of its lowest and
+    highest third of an octave, clipped to :data:`LOW_SLOPE_DB_OCT` and
+    :data:`HIGH_SLOPE_DB_OCT` (a measurement's edge often shows its gate or
+    noise floor, not the driver). The integral is one convolution on a uniform
+    log grid (:data:`_BODE_PER_DECADE` points per decade), vectorised.
+
+    Parameters
+    ----------
+    freqs_hz : array_like, increasing, > 0
+    mag_db : array_like
+
+    Returns
+    -------
+    phase_deg : ndarray
+        At ``freqs_hz``, continuous (unwrapped); 0 deg where the response is
+        flat far from any slope.
+
+    Notes
+    -----
+    Only the magnitude inside the measured range is data; the phase near the
+    range's ends depends on the extension, so it is most trustworthy away
+    from them (about an octave in).
+    """
+    f = np.asarray(freqs_hz, dtype=float)
+    m = np.asarray(mag_db, dtype=float)
+    if f.ndim != 1 or len(f) < 2 or m.shape != f.shape or np.any(np.diff(f) <= 0) or f[0] <= 0:
+        raise DesignError("needs increasing positive frequencies and one magnitude each",
+                          field="freqs_hz")
+    lo, hi = edge_slopes_db_per_octave(f, m)
+    lo, hi = float(np.clip(lo, *LOW_SLOPE_DB_OCT)), float(np.clip(hi, *HIGH_SLOPE_DB_OCT))
+    h = np.log(10.0) / _BODE_PER_DECADE
+    x0 = np.log(f[0]) - _BODE_EXTEND_DECADES * np.log(10.0)
+    x1 = np.log(f[-1]) + _BODE_EXTEND_DECADES * np.log(10.0)
+    x = x0 + h * np.arange(int(np.ceil((x1 - x0) / h)) + 1)
+    a_np = _extended_db(f, m, np.exp(x), lo, hi) * (np.log(10.0) / 20.0)
+    slope = np.diff(a_np) / h                              # dA/du on each cell
+    n = len(slope)
+    w = _bode_weights(h, n)
+    # phi at grid point i: sum_j slope_j W[j - i], the cell j spanning [x_j, x_j + h].
+    phi = np.convolve(slope, w[::-1], mode="full")[n - 1: 2 * n] / np.pi
+    phi = phi[: len(x)]
+    return np.degrees(np.interp(np.log(f), x, phi))
+
+
+@dataclass(frozen=True)
+class Interpolated:
+    """A response brought onto a grid.
+
+    Attributes
+    ----------
+    h : ndarray, complex
+        ``10^(mag_db/20) e^{j phase}`` on the grid.
+    extrapolated_below_hz, extrapolated_above_hz : float or None
+        Where the grid left the data's range (when extrapolation was allowed).
+    """
+
+    h: np.ndarray
+    extrapolated_below_hz: float | None = None
+    extrapolated_above_hz: float | None = None
+
+
+def interpolate_response(freqs_hz, mag_db, phase_deg, to_hz, extrapolate: bool = False,
+                         field: str = "driver") -> Interpolated:
+    """A measured response on another grid: log frequency, magnitude in dB, unwrapped phase.
+
+    Parameters
+    ----------
+    freqs_hz, mag_db, phase_deg : array_like
+        The data (increasing frequencies); ``phase_deg`` may be wrapped.
+    to_hz : array_like
+        The grid.
+    extrapolate : bool
+        Allow grid points outside the data's range: the magnitude follows the
+        slope of the data's outer third of an octave, the phase its outer two
+        points' trend. Otherwise such a grid is refused.
+
+    Raises
+    ------
+    DesignError
+        A grid beyond the data (without ``extrapolate``), naming both ranges.
+    """
+    f = np.asarray(freqs_hz, dtype=float)
+    m = np.asarray(mag_db, dtype=float)
+    p = np.unwrap(np.radians(np.asarray(phase_deg, dtype=float)))
+    t = np.asarray(to_hz, dtype=float)
+    below = t[0] < f[0] * (1 - 1e-9)
+    above = t[-1] > f[-1] * (1 + 1e-9)
+    if (below or above) and not extrapolate:
+        raise DesignError(
+            f"the data covers {f[0]:g} .. {f[-1]:g} Hz but the analysis needs {t[0]:g} .. "
+            f"{t[-1]:g} Hz; measure a wider range, narrow the analysis range, or allow "
+            "extrapolation", field=field)
+    lo, hi = edge_slopes_db_per_octave(f, m)
+    mag = _extended_db(f, m, t, lo, hi)
+    lt, lf = np.log2(t), np.log2(f)
+    ph = np.interp(lt, lf, p)
+    if below:
+        k = (p[1] - p[0]) / (lf[1] - lf[0])
+        ph = np.where(t < f[0], p[0] + k * (lt - lf[0]), ph)
+    if above:
+        k = (p[-1] - p[-2]) / (lf[-1] - lf[-2])
+        ph = np.where(t > f[-1], p[-1] + k * (lt - lf[-1]), ph)
+    return Interpolated(10.0 ** (mag / 20.0) * np.exp(1j * ph),
+                        float(t[0]) if below else None, float(t[-1]) if above else None)
+
+
+# ---------------------------------------------------------------------------
+# geometry
+
+
+def off_axis_paths(positions_mm, offsets_mm, distance_m: float, angles_deg,
+                   axis_mm: float = 0.0, temp_c: float = 20.0):
+    """Path delays and levels from each driver to a listener at each vertical angle.
+
+    The drivers are point sources on a vertical line (the baffle): driver
+    ``i`` sits ``positions_mm[i]`` above the origin and ``offsets_mm[i]``
+    behind the reference plane. The listener is ``distance_m`` from the
+    point ``axis_mm`` above the origin (the listening axis), at each
+    elevation angle (positive: above the axis). Relative to the path from
+    that point, each driver's path is longer by ``r_i - D``.
+
+    Parameters
+    ----------
+    positions_mm, offsets_mm : array_like, shape (n_bands,)
+    distance_m : float
+    angles_deg : array_like, shape (n_angles,)
+    axis_mm : float
+    temp_c : float
+
+    Returns
+    -------
+    delay_s : ndarray, shape (n_angles, n_bands)
+        ``(r_i - D) / c``.
+    level : ndarray, shape (n_angles, n_bands)
+        ``D / r_i`` (spherical spreading).
+
+    Notes
+    -----
+    Each driver is taken as a point source with no directivity of its own,
+    so what the angles show is the interference of the bands' paths: how a
+    crossover's lobe tilts when the drivers are not coincident.
+    """
+    d = _positive(distance_m, "distance_m", "m")
+    y = (np.asarray(positions_mm, dtype=float) - axis_mm) / 1000.0
+    x = np.asarray(offsets_mm, dtype=float) / 1000.0
+    th = np.radians(np.asarray(angles_deg, dtype=float))[:, None]
+    lx, ly = d * np.cos(th), d * np.sin(th)
+    r = np.hypot(lx + x[None, :], ly - y[None, :])
+    return (r - d) / speed_of_sound_m_s(temp_c), d / r
