@@ -31,6 +31,7 @@ References
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, replace
 from typing import Sequence
 
@@ -65,14 +66,16 @@ def check_mode(mode: str) -> str:
     return mode
 
 
-def fraction_of(delay_samples: float) -> float:
-    """``d - nearest_whole(d)``, in [-0.5, 0.5)."""
-    return float(delay_samples) - nearest_whole(delay_samples)
-
-
 def is_fractional(delay_samples: float) -> bool:
     """True when ``d`` is farther than :data:`FRACTION_TOL_SAMPLES` from a whole number."""
-    return abs(fraction_of(delay_samples)) > FRACTION_TOL_SAMPLES
+    return abs(float(delay_samples) - nearest_whole(delay_samples)) > FRACTION_TOL_SAMPLES
+
+
+def fraction_of(delay_samples: float) -> float:
+    """The fraction of a sample in ``d``, ``d - floor(d)`` in [0, 1); 0 for a whole ``d``
+    (:func:`is_fractional`)."""
+    d = float(delay_samples)
+    return d - math.floor(d) if is_fractional(d) else 0.0
 
 
 @dataclass(frozen=True)
@@ -157,8 +160,7 @@ class DelayPlan:
                 "magnitude_within_db": d.magnitude_bound_db,
                 "phase_within_deg": d.phase_bound_deg},
             "bands": [{"name": n, "delay_samples": b.delay_samples,
-                       "fraction_samples": fraction_of(b.delay_samples)
-                       if is_fractional(b.delay_samples) else 0.0,
+                       "fraction_samples": fraction_of(b.delay_samples),
                        "whole_samples": b.whole_samples,
                        "fraction_applied_samples": b.fraction_samples,
                        "rounded_by_samples": b.rounded_by_samples}

@@ -12,6 +12,7 @@ import csv
 import hashlib
 import json
 import re
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -105,25 +106,32 @@ def test_text_round_trip_matches_design(proj, tmp_path, fs):
 def test_wav_round_trip_float32_and_matches_design(proj, tmp_path, fs):
     res = export.write_export(proj, [fs], "wav", tmp_path)
     man = json.loads(res.manifest.read_text())
+    lat = man["checks"][0]["delays"]["added_latency_samples"]
     f = _grid(fs)
     for i, path in enumerate(res.files):
         rate, h = wavfile.read(path)
         assert rate == fs and h.dtype == np.float32 and h.ndim == 1
-        wav = man["checks"][0]["bands"][i]["wav"]
-        # The WAV holds the whole-sample delay; the fraction is in the manifest.
+        # The WAV holds the exact delay (the fraction by the fractional-delay filter),
+        # every band later by the run's added latency.
         dtft = np.exp(-2j * np.pi * np.outer(f / fs, np.arange(len(h)))) @ h.astype(float)
-        frac = wav["delay_fraction_samples_not_applied"]
-        dtft *= np.exp(-2j * np.pi * f / fs * frac)
-        # float32 samples (2^-24 relative each) and the -150 dB truncation: 1e-5.
-        assert np.max(np.abs(dtft - _design(proj, i, fs, f))) < 1e-5
+        ref = _design(proj, i, fs, f) * np.exp(-2j * np.pi * f / fs * lat)
+        # The fractional-delay filter's complex error (1e-4 of a gain <= 1, up to 0.45 fs),
+        # float32 samples (2^-24 relative each) and the -150 dB truncation: 1.1e-4.
+        assert np.max(np.abs(dtft - ref)) < 1.1e-4
 
 
 def test_fractional_delay_split_in_manifest(proj, tmp_path):
     res = export.write_export(proj, [48000], "wav", tmp_path)
-    wav = json.loads(res.manifest.read_text())["checks"][0]["bands"][1]["wav"]
-    # 0.0125 ms at 48 kHz = 0.6 samples: 0 whole samples, 0.6 left for the engine.
-    assert wav["delay_whole_samples"] == 0
-    assert wav["delay_fraction_samples_not_applied"] == pytest.approx(0.6, abs=1e-12)
+    rate = json.loads(res.manifest.read_text())["checks"][0]
+    wav = rate["bands"][1]["wav"]
+    lat = rate["delays"]["added_latency_samples"]
+    # 0.0125 ms at 48 kHz = 0.6 samples: the nearest whole is 1, the filter makes -0.4;
+    # the other band (no fraction) gets the filter's latency as whole samples.
+    assert wav["delay_whole_samples"] == 1
+    assert wav["delay_fraction_applied_samples"] == pytest.approx(-0.4, abs=1e-12)
+    assert wav["delay_rounded_by_samples"] == pytest.approx(0.0, abs=1e-12)
+    assert rate["bands"][0]["wav"]["delay_whole_samples"] == lat
+    assert rate["bands"][0]["wav"]["delay_fraction_applied_samples"] == 0.0
 
 
 def test_sections_paired_as_zpk2sos(proj):
@@ -255,3 +263,70 @@ def test_float32_holds_a_crossover():
     for b in rx.bands:
         # float32 rounding (2^-24 relative) moves a 2 kHz LR4 by far less than 0.1 dB.
         assert b.arith.ok and 0 < b.arith.max_coef_error < 1e-6
+
+
+# --- fractional delays in the manifest ---------------------------------------------
+
+def test_manifest_records_the_applied_fractions_and_the_latency(proj, tmp_path):
+    # The tweeter's 0.0125 ms: 0.6 samples at 48 kHz, 0.55125 at 44.1 kHz (exact products).
+    res = export.write_export(proj, [48000, 44100], "wav", tmp_path)
+    m = json.loads(res.manifest.read_text())
+    assert m["fractional_delay"] == "apply"
+    for entry, frac in zip(m["checks"], (0.6, 0.55125)):
+        dl = entry["delays"]
+        assert dl["fractional_delay"] == "apply" and dl["rounding"] is None
+        assert dl["added_latency_samples"] == (dl["filter"]["taps"] - 1) // 2 > 0
+        assert dl["added_latency_ms"] == pytest.approx(
+            1000 * dl["added_latency_samples"] / entry["sample_rate"])
+        assert [b["name"] for b in dl["bands"]] == ["woofer", "tweeter"]
+        assert dl["bands"][0]["fraction_samples"] == 0.0
+        assert dl["bands"][1]["fraction_samples"] == pytest.approx(frac, abs=1e-12)
+
+
+def test_manifest_records_rounding_and_its_cost(proj, tmp_path):
+    # round: 0.6 -> 1 sample, no added latency, and what it cost against the check.
+    res = export.write_export(proj, [48000], "wav", tmp_path, fractional_delay="round")
+    m = json.loads(res.manifest.read_text())
+    dl = m["checks"][0]["delays"]
+    assert m["fractional_delay"] == "round" and dl["fractional_delay"] == "round"
+    assert dl["added_latency_samples"] == 0 and dl["filter"] is None
+    assert dl["bands"][1]["whole_samples"] == 1
+    assert dl["bands"][1]["rounded_by_samples"] == pytest.approx(0.4, abs=1e-12)
+    (c,) = dl["rounding"]["crossings"]
+    # The tweeter 0.4 samples later: woofer - tweeter gains +360 fc 0.4 / fs (Oppenheim
+    # and Schafer sec. 2.7); to 1e-6 deg.
+    assert c["change_deg"] == pytest.approx(360 * c["freq_hz"] * 0.4 / 48000, abs=1e-6)
+    assert {"sum_change_db", "sum_change_at_hz", "rounded_max_dev_db"} <= set(dl["rounding"])
+    assert res.notes and res.notes[0].startswith("at 48000 Hz delays are rounded to the "
+                                                 "nearest sample (tweeter 0.6 -> 1 samples)")
+
+
+@pytest.mark.parametrize("fmt", ["json", "csv", "text"])
+def test_coefficient_manifests_say_the_delay_is_exact(proj, tmp_path, fmt):
+    res = export.write_export(proj, [48000], fmt, tmp_path, fractional_delay="round")
+    m = json.loads(res.manifest.read_text())
+    dl = m["checks"][0]["delays"]
+    assert m["fractional_delay"] == "exact" and dl["fractional_delay"] == "exact"
+    assert dl["added_latency_samples"] == 0
+    assert dl["bands"][1]["fraction_samples"] == pytest.approx(0.6, abs=1e-12)
+    assert res.notes[0].startswith("at 48000 Hz delay_samples is written exactly (tweeter 0.6)")
+
+
+def test_unknown_fractional_mode_refused_before_writing(proj, tmp_path):
+    with pytest.raises(ExportError, match=r"fractional_delay: must be one of apply, round, "
+                                          r"not 'nearest'"):
+        export.write_export(proj, [48000], "wav", tmp_path / "o", fractional_delay="nearest")
+    assert not (tmp_path / "o").exists()
+
+
+def test_band_impulse_response_round_mode_is_the_nearest_sample(proj):
+    # 0.6 samples: one leading zero in round mode (floor would give none).
+    from planner.delays import plan_delays
+
+    rx = export.export_rate(proj, 48000)
+    plan = plan_delays([b.delay_samples for b in rx.bands], "round")
+    h, bd = export.band_impulse_response(rx.bands[1], 48000, plan.bands[1])
+    plain, _ = export.band_impulse_response(
+        replace(rx.bands[1], delay_samples=0.0), 48000)
+    assert bd.whole_samples == 1 and h[0] == 0.0
+    np.testing.assert_array_equal(h[1:], plain)

@@ -92,3 +92,41 @@ def test_render_no_progress_bar_when_not_a_tty(write_project, tmp_path, capsys):
     assert main(["render", str(write_project(two_way())), "--noise", "--seconds", "6",
                  "--out", str(tmp_path)]) == 0
     assert "[" not in capsys.readouterr().err
+
+
+def _frac_two_way():
+    d = two_way(4, fc=3000.0)
+    d["bands"][1]["delay_ms"] = 0.01   # 0.48 samples at 48 kHz
+    return d
+
+
+def test_render_impulse_with_a_fraction_equals_the_exported_wav(write_project, tmp_path, capsys):
+    # Both apply the fraction with the same filter and the same added latency: the
+    # rendered impulse / 0.1 equals the exported WAV to float32 rounding.
+    path = str(write_project(_frac_two_way()))
+    assert main(["render", path, "--impulse", "--out", str(tmp_path / "r")]) == 0
+    out = capsys.readouterr().out
+    assert "note: at 48000 Hz fractional delays are applied by a " in out
+    assert main(["export", path, "--format", "wav", "--out", str(tmp_path / "e")]) == 0
+    for band in ("low", "high"):
+        _, y = wavfile.read(tmp_path / "r" / f"impulse-{band}.wav")
+        _, h = wavfile.read(tmp_path / "e" / f"test-2-way-48000-{band}.wav")
+        np.testing.assert_allclose(y[:len(h)] / np.float32(0.1), h, rtol=0,
+                                   atol=1e-6 * np.max(np.abs(h)))
+
+
+def test_render_round_says_what_it_costs(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(_frac_two_way())), "--impulse",
+                 "--fractional-delay", "round", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    # -360 * 3000 * 0.48 / 48000 = -10.8 deg (Oppenheim and Schafer sec. 2.7).
+    assert ("note: at 48000 Hz delays are rounded to the nearest sample (high 0.48 -> 0 "
+            "samples): the phase difference low - high at 3 kHz changes by -10.8 deg") in out
+    _, y = wavfile.read(tmp_path / "impulse-high.wav")
+    assert y[0] != 0.0   # 0.48 rounds to 0: the highpass answers at once
+
+
+def test_render_whole_delays_print_no_note(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--impulse",
+                 "--out", str(tmp_path)]) == 0
+    assert "note:" not in capsys.readouterr().out
