@@ -330,3 +330,122 @@ def test_band_impulse_response_round_mode_is_the_nearest_sample(proj):
         replace(rx.bands[1], delay_samples=0.0), 48000)
     assert bd.whole_samples == 1 and h[0] == 0.0
     np.testing.assert_array_equal(h[1:], plain)
+
+
+# --- band file names -----------------------------------------------------------------
+
+LONG = "a very long band name " * 14          # 308 characters
+
+
+def _named(names, gains=None, project_name="names"):
+    """A project of filterless bands: each one's impulse response is its gain alone."""
+    gains = gains or [-1.0 * (i + 1) for i in range(len(names))]
+    return project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": project_name,
+        "sample_rate": 48000,
+        "bands": [{"name": n, "gain_db": g, "filters": []} for n, g in zip(names, gains)]})
+
+
+@pytest.mark.parametrize("names,stems", [
+    (["Woofer", "woofer"], ["woofer-1", "woofer-2"]),
+    (["mid range", "mid-range", "tweeter"], ["mid-range-1", "mid-range-2", "tweeter"]),
+    (["sum", "low"], ["sum-1", "low"]),
+    (["low", "manifest"], ["low", "manifest-2"]),
+    (["Твитер", "低音", "ウーファー"], ["band-1", "band-2", "band-3"]),
+    (["Médium", "Baß"], ["medium", "ba"]),
+    (["Woofer", "woofer", "woofer 2"], ["woofer-1", "woofer-2-2", "woofer-2"]),
+    (["band 2", "★"], ["band-2", "band-2-2"]),
+])
+def test_band_file_stems_distinct_and_readable(names, stems):
+    assert export.band_file_stems(names) == stems
+
+
+def test_band_file_stems_shorten_long_names_and_keep_them_apart():
+    # Two names alike in their first 64 characters: shortened, then told apart by number.
+    names = [LONG + "woofer", LONG + "tweeter", "mid"]
+    stems = export.band_file_stems(names)
+    assert len(set(stems)) == 3 and stems[2] == "mid"
+    assert all(len(s) <= export.MAX_SLUG_CHARS + 3 for s in stems)
+    assert stems[0].endswith("-1") and stems[1].endswith("-2")
+
+
+def test_band_file_stems_are_deterministic():
+    names = ["Woofer", "woofer", "sum", "Твитер", LONG]
+    assert export.band_file_stems(names) == export.band_file_stems(list(names))
+
+
+def test_slug_is_cut_to_its_limit():
+    s = export.slug(LONG)
+    assert len(s) <= export.MAX_SLUG_CHARS and not s.endswith("-")
+    assert export.slug("Твитер") == "project" and export.slug("Твитер", fallback="") == ""
+
+
+def test_run_files_refuse_a_second_write_naming_both(tmp_path):
+    run = export.RunFiles()
+    run.claim(tmp_path / "x-woofer.wav", "band 'Woofer' at 48000 Hz")
+    with pytest.raises(ExportError, match=r"out: '.*x-woofer\.wav' would be written twice in one "
+                                          r"run, for band 'Woofer' at 48000 Hz and for band "
+                                          r"'woofer' at 48000 Hz; nothing is written over"):
+        run.claim(tmp_path / "x-woofer.wav", "band 'woofer' at 48000 Hz")
+
+
+def test_run_files_ignore_case(tmp_path):
+    # Some file systems (macOS, Windows) hold X.wav and x.wav as one file.
+    run = export.RunFiles()
+    run.claim(tmp_path / "X.wav", "band 'X'")
+    with pytest.raises(ExportError, match=r"for band 'X' and for band 'x'"):
+        run.claim(tmp_path / "x.wav", "band 'x'")
+
+
+def test_write_file_reports_a_system_error(tmp_path):
+    with pytest.raises(ExportError, match=r"out: cannot write '.*nope.*x\.wav': "):
+        export.write_file(tmp_path / "nope" / "x.wav", lambda t: None)
+
+
+def test_write_export_guard_stops_a_colliding_run(monkeypatch, tmp_path):
+    # Were two bands ever given one stem, the run refuses before writing anything.
+    monkeypatch.setattr(export, "band_file_stems", lambda names, reserved=(): ["same"] * len(names))
+    with pytest.raises(ExportError, match=r"names-48000-same\.wav' would be written twice in one "
+                                          r"run, for band 'a' at 48000 Hz and for band 'b' at "
+                                          r"48000 Hz"):
+        export.write_export(_named(["a", "b"]), [48000], "wav", tmp_path / "o")
+    assert not (tmp_path / "o").exists()
+
+
+COLLIDING = [["Woofer", "woofer"], ["mid range", "mid-range"], ["sum", "manifest"],
+             ["Твитер", "低音"], [LONG + "woofer", LONG + "tweeter"]]
+
+
+@pytest.mark.parametrize("names", COLLIDING)
+def test_wav_export_gives_every_band_its_own_file(tmp_path, names):
+    # Each WAV holds its own band: a filterless band's impulse response is 10^(gain/20).
+    p = _named(names)
+    res = export.write_export(p, [48000], "wav", tmp_path)
+    assert len(set(res.files)) == len(names) == len(list(tmp_path.glob("*.wav")))
+    m = json.loads(res.manifest.read_text())
+    entry = m["checks"][0]
+    for i, band in enumerate(p.bands):
+        f = entry["bands"][i]["file"]
+        assert entry["band_files"][band.name] == f == res.band_files[0][i].name
+        rate, h = wavfile.read(tmp_path / f)
+        assert h[0] == pytest.approx(10 ** (band.gain_db / 20), rel=1e-7)   # float32
+        assert len(f.encode()) < 255
+    assert sorted(m["files"]) == sorted(p.name for p in res.files)
+
+
+@pytest.mark.parametrize("fmt", ["json", "csv", "text"])
+@pytest.mark.parametrize("names", COLLIDING)
+def test_coefficient_exports_keep_every_band_apart(tmp_path, fmt, names):
+    # One file per rate holds every band under its own name; the manifest maps each band
+    # to that file; a long project name gives a short file name too.
+    p = _named(names, project_name=LONG)
+    res = export.write_export(p, [48000, 44100], fmt, tmp_path)
+    assert len(res.files) == 2 and all(len(f.name.encode()) < 255 for f in res.files)
+    m = json.loads(res.manifest.read_text())
+    for entry, f in zip(m["checks"], res.files):
+        assert entry["band_files"] == {n: f.name for n in names}
+        text = f.read_text(encoding="utf-8")
+        if fmt == "json":   # JSON may escape non-ASCII names (\uXXXX): read it back
+            assert [b["name"] for b in json.loads(text)["bands"]] == names
+        else:
+            assert all(n in text for n in names)

@@ -245,3 +245,20 @@ def test_export_bad_fractional_mode_exit_2(write_project, tmp_path, capsys):
     assert main(["export", str(write_project(two_way())), "--fractional-delay", "floor",
                  "--out", str(tmp_path)]) == 2
     assert "invalid choice: 'floor'" in capsys.readouterr().err
+
+
+def test_export_wav_names_each_bands_file(write_project, tmp_path, capsys):
+    # Woofer and woofer, and a 308-character name: distinct files, each named in the output.
+    long = "a very long band name " * 14
+    names = ["Woofer", "woofer", long]
+    raw = {"format": "crossplan-project", "version": 1, "name": "n", "sample_rate": 48000,
+           "bands": [{"name": x, "filters": []} for x in names]}
+    assert main(["export", str(write_project(raw)), "--format", "wav",
+                 "--out", str(tmp_path)]) == 0
+    cap = capsys.readouterr()
+    assert "Traceback" not in cap.err
+    for i, x in enumerate(names):
+        line = next(l for l in cap.out.splitlines() if l.endswith(f"(band {x}, 48000 Hz)"))
+        path = line[len("wrote "):-len(f" (band {x}, 48000 Hz)")]
+        assert wavfile.read(path)[0] == 48000
+    assert len(list(tmp_path.glob("*.wav"))) == 3
