@@ -252,7 +252,9 @@ def test_export_wav_names_each_bands_file(write_project, tmp_path, capsys):
     long = "a very long band name " * 14
     names = ["Woofer", "woofer", long]
     raw = {"format": "crossplan-project", "version": 1, "name": "n", "sample_rate": 48000,
-           "bands": [{"name": x, "filters": []} for x in names]}
+           # Three filterless bands at a third each (20 log10(1/3) dB) sum to 0 dB: check ok.
+           "bands": [{"name": x, "gain_db": 20 * np.log10(1 / 3), "filters": []}
+                     for x in names]}
     assert main(["export", str(write_project(raw)), "--format", "wav",
                  "--out", str(tmp_path)]) == 0
     cap = capsys.readouterr()
