@@ -178,12 +178,6 @@ class RunFiles:
         self._what[key] = (p, what)
         return p
 
-    def what(self, path) -> str:
-        """What a claimed ``path`` is for."""
-        import os
-
-        return self._what[os.path.normcase(os.path.abspath(Path(path))).lower()][1]
-
 
 def write_file(path: Path, write) -> None:
     """``write(tmp)`` then rename over ``path`` (atomic); an OSError as an ExportError.
