@@ -452,4 +452,6 @@ def _warnings(r: Report) -> list[Warning_]:
                     f"band {band.name} is protected only by a first-order (6 dB/octave) "
                     f"highpass at {_fmt_hz(top.params['freq'])}: a tweeter usually needs "
                     "12 dB/octave or more", band=i, filter=j, code="shallow-highpass"))
+    from planner.delays import fraction_warnings  # (imports this module)
+    out.extend(fraction_warnings(r))
     return out

@@ -73,7 +73,8 @@ __all__ = [
     "ExportResult",
     "content_hash", "slug", "rate_text", "project_at_rate", "export_rate", "to_json_dict",
     "to_csv_text", "to_text", "band_impulse_response", "arith_text", "arith_dict",
-    "write_export",
+    "write_export", "MAX_SLUG_CHARS", "RESERVED_STEMS", "band_file_stems", "RunFiles",
+    "write_file", "write_text_file",
 ]
 
 FORMAT = "crossplan-coefficients"
@@ -97,10 +98,130 @@ ERROR_FLOOR_DB = -80.0
 WAV_FLOOR_DB = -150.0
 
 
-def slug(text: str) -> str:
-    """Lower-case ASCII letters, digits and dashes, for file names (``'project'`` if empty)."""
-    s = re.sub(r"[^a-z0-9]+", "-", text.lower()).strip("-")
-    return s or "project"
+#: Longest slug in a file name, characters (a project's and a band's alike): with the
+#: rate, the dashes, a band number and the extension a name stays far below the
+#: 255 bytes most file systems allow.
+MAX_SLUG_CHARS = 64
+#: Band file stems a run keeps for itself: render's summed output and the manifest.
+RESERVED_STEMS = ("sum", "manifest")
+
+
+def slug(text: str, fallback: str = "project", max_chars: int = MAX_SLUG_CHARS) -> str:
+    """Lower-case ASCII letters, digits and dashes, for file names.
+
+    Accents are taken off first (Unicode NFKD decomposition: ``'Médium'``
+    gives ``'medium'``); any other run of characters becomes one dash. The
+    result is cut to ``max_chars`` (no dash at either end); ``fallback``
+    when nothing is left.
+    """
+    import unicodedata
+
+    plain = "".join(c for c in unicodedata.normalize("NFKD", str(text))
+                    if not unicodedata.combining(c))
+    s = re.sub(r"[^a-z0-9]+", "-", plain.lower()).strip("-")
+    s = s[:max(1, int(max_chars))].strip("-")
+    return s or fallback
+
+
+def band_file_stems(names: Sequence[str], reserved: Sequence[str] = RESERVED_STEMS) -> list[str]:
+    """A distinct, readable file stem per band, the same in every run of the same names.
+
+    Each band takes :func:`slug` of its name (at most :data:`MAX_SLUG_CHARS`
+    characters). A band whose slug is empty (a name of other than Latin
+    letters and digits), is one of ``reserved``, or is shared with another
+    band (``Woofer`` and ``woofer``; ``mid range`` and ``mid-range``; two
+    long names alike in their first characters) gets its band number
+    (1-based) after it: ``band-3``, ``sum-2``, ``woofer-1`` and
+    ``woofer-2``. Should that name be taken as well, ``-2``, ``-3``, ...
+    follow it. Comparisons ignore case, as some file systems do.
+
+    Parameters
+    ----------
+    names : sequence of str
+        Band names, project order.
+    reserved : sequence of str
+        Stems no band may take alone.
+
+    Returns
+    -------
+    list of str
+        One stem per band, no two alike (ignoring case).
+    """
+    bases = [slug(n, fallback="") for n in names]
+    keep = {r.lower() for r in reserved}
+    count: dict[str, int] = {}
+    for b in bases:
+        count[b] = count.get(b, 0) + 1
+    alone = [bool(b) and count[b] == 1 and b not in keep for b in bases]
+    taken = {b for b, ok in zip(bases, alone) if ok}
+    out = []
+    for k, (b, ok) in enumerate(zip(bases, alone), start=1):
+        if ok:
+            out.append(b)
+            continue
+        stem = f"{b or 'band'}-{k}"
+        j = 2
+        while stem in taken:
+            stem = f"{b or 'band'}-{k}-{j}"
+            j += 1
+        taken.add(stem)
+        out.append(stem)
+    return out
+
+
+class RunFiles:
+    """The files of one run (an export, a render): no path is written twice.
+
+    :meth:`claim` records each path with what it is for; claiming a path a
+    second time (case ignored, as some file systems do) raises, naming
+    both, so that no file written earlier in the run is overwritten.
+    """
+
+    def __init__(self) -> None:
+        self._what: dict[str, tuple[Path, str]] = {}
+
+    def claim(self, path, what: str) -> Path:
+        """Record ``path`` for ``what`` (e.g. ``"band 'woofer' at 48000 Hz"``) and return it.
+
+        Raises
+        ------
+        ExportError
+            ``field='out'``: ``path`` is claimed already in this run.
+        """
+        import os
+
+        p = Path(path)
+        key = os.path.normcase(os.path.abspath(p)).lower()
+        if key in self._what:
+            raise ExportError(f"{str(p)!r} would be written twice in one run, for "
+                              f"{self._what[key][1]} and for {what}; nothing is written over",
+                              field="out")
+        self._what[key] = (p, what)
+        return p
+
+
+def write_file(path: Path, write) -> None:
+    """``write(tmp)`` then rename over ``path`` (atomic); an OSError as an ExportError.
+
+    Raises
+    ------
+    ExportError
+        ``field='out'``: the file cannot be written (a name too long for the
+        file system, no space, no permission), with the system's reason.
+    """
+    try:
+        _write_bytes_atomic(Path(path), write)
+    except OSError as e:
+        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
+
+
+def write_text_file(path: Path, text: str) -> None:
+    """:func:`planner.project.atomic_write_text`, with an OSError as an ExportError (as
+    :func:`write_file`)."""
+    try:
+        pj.atomic_write_text(path, text)
+    except OSError as e:
+        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
 
 
 def rate_text(fs_hz: float) -> str:
@@ -658,32 +779,45 @@ def to_text(rx: RateExport, negate_feedback: bool = False) -> str:
     return "\n".join(lines)
 
 
-def band_impulse_response(b: BandExport, fs_hz: float) -> tuple[np.ndarray, int, float]:
-    """A band's impulse response as written to its WAV.
+def band_impulse_response(b: BandExport, fs_hz: float, delay=None):
+    """A band's impulse response as written to its WAV (and rendered).
 
     The stored sections (``scale`` folded in) are run by
     :func:`planner.dsp.signals.truncate_iir_impulse` until the tail is below
-    :data:`WAV_FLOOR_DB`; an FIR is convolved in exactly; gain and polarity
-    are applied; the delay's whole samples are leading zeros. A fractional
-    part of the delay cannot be put into a sampled response without
-    changing it (it would need an interpolating filter), so it is left out
-    and returned for the manifest.
+    :data:`WAV_FLOOR_DB`; an FIR is convolved in exactly; a fractional part
+    of the delay is convolved in as the fractional-delay FIR of ``delay``
+    (:mod:`planner.dsp.fracdelay`); gain and polarity are applied; the
+    delay line's whole samples are leading zeros.
+
+    Parameters
+    ----------
+    b : BandExport
+        Or any object with ``run_sos``, ``run_fir``, ``delay_samples`` and ``linear_gain``.
+    fs_hz : float
+    delay : planner.delays.BandDelay, optional
+        How the delay runs, from the run's :func:`planner.delays.plan_delays`
+        (which aligns the bands of one run). Default: the band alone, in
+        ``apply`` mode.
 
     Returns
     -------
     h : ndarray
-    delay_whole : int
-        Leading zeros, ``floor(delay_samples)``.
-    delay_fraction : float
-        ``delay_samples - delay_whole``, in [0, 1), not in ``h``.
+    delay : planner.delays.BandDelay
+        The delay as made: ``whole_samples`` leading zeros, then the filter
+        with ``taps`` (if any) for ``fraction_samples``.
     """
+    from planner.delays import plan_delays
+
+    if delay is None:
+        delay = plan_delays([b.delay_samples], "apply").bands[0]
     sos, fir = b.run_sos, b.run_fir
     h = truncate_iir_impulse(sos, fs_hz, WAV_FLOOR_DB) if len(sos) else np.ones(1)
     if fir is not None:
         h = fft_convolve(h, fir) if len(h) > 1 else h[0] * fir
-    whole = int(math.floor(b.delay_samples))
-    h = np.concatenate([np.zeros(whole), b.linear_gain * h])
-    return h, whole, float(b.delay_samples - whole)
+    if delay.taps is not None:
+        h = fft_convolve(h, delay.taps) if len(h) > 1 else h[0] * delay.taps
+    h = np.concatenate([np.zeros(delay.whole_samples), b.linear_gain * h])
+    return h, delay
 
 
 def _stage_text(b: BandExport) -> str:
@@ -762,36 +896,69 @@ def _write_bytes_atomic(path: Path, write) -> None:
 
 @dataclass
 class ExportResult:
-    """What :func:`write_export` did."""
+    """What :func:`write_export` did.
+
+    ``band_files`` holds per rate (the order of ``rates``) each band's file,
+    project order; ``delays`` per rate how the WAV impulse responses made
+    the band delays (:class:`planner.delays.DelayPlan`; ``None`` for the
+    coefficient formats, which hold the exact ``delay_samples``); ``notes``
+    the lines on fractional delays for the command's output.
+    """
 
     rates: list[RateExport]
     files: list[Path]
     manifest: Path | None
     arith_ok: bool
     checks_ok: bool
+    band_files: list[list[Path]] = field(default_factory=list)
+    delays: list = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+def _coefficient_text(rx: RateExport, fmt: str, negate_feedback: bool) -> str:
+    if fmt == "json":
+        return json.dumps(to_json_dict(rx, negate_feedback), indent=1) + "\n"
+    if fmt == "csv":
+        return to_csv_text(rx, negate_feedback)
+    return to_text(rx, negate_feedback)
+
+
 
 
 def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
                  arith: str = "float64", negate_feedback: bool = False,
                  pre_attenuate: bool = False, source: str | None = None,
-                 sections: str = "per-filter") -> ExportResult:
+                 sections: str = "per-filter",
+                 fractional_delay: str = "apply") -> ExportResult:
     """Export ``project`` at every rate in one format, with a manifest.
 
     Files: ``DIR/<project>-<rate>.json|.csv|.txt``, or for ``wav`` one
     ``DIR/<project>-<rate>-<band>.wav`` per band (32-bit float, mono), and
-    ``DIR/<project>-manifest.json``. Nothing is written when the target
-    arithmetic cannot hold the design at some rate (``arith_ok`` false).
+    ``DIR/<project>-manifest.json``; ``<project>`` is :func:`slug` of the
+    project's name and ``<band>`` the band's stem from
+    :func:`band_file_stems` (distinct for every band). Nothing is written
+    when the target arithmetic cannot hold the design at some rate
+    (``arith_ok`` false), and no file is written twice (:class:`RunFiles`).
+
+    ``fractional_delay`` (``"apply"`` or ``"round"``, see
+    :mod:`planner.delays`) says how the WAV impulse responses make a
+    fractional delay; coefficient files always hold the exact
+    ``delay_samples``.
 
     Raises
     ------
     ExportError
-        Unknown format, no rates, a bad rate or format name, an output
-        folder that cannot be made.
+        Unknown format or fractional-delay mode, no rates, a bad rate or
+        format name, an output folder that cannot be made, a file that
+        cannot be written.
     ProjectError
         A filter that cannot be made at a rate (named).
     """
+    from planner import delays as dl
+
     if fmt not in FORMATS:
         raise ExportError(f"must be one of {', '.join(FORMATS)}, not {fmt!r}", field="format")
+    dl.check_mode(fractional_delay)
     if not rates:
         raise ExportError("give at least one sample rate", field="rate")
     a = qz.parse_arith(arith)
@@ -802,36 +969,51 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
     if not arith_ok:
         return ExportResult(exports, [], None, False, checks_ok)
     out = Path(out_dir)
+    base = slug(project.name)
+    names = [b.name for b in project.bands]
+    stems = band_file_stems(names)
+    run = RunFiles()
+    # Every path is named and claimed before anything is written.
+    band_files: list[list[Path]] = []
+    plans: list = []
+    for rx in exports:
+        stem = f"{base}-{rate_text(rx.fs_hz)}"
+        at = f"at {rx.fs_hz:g} Hz"
+        if fmt == "wav":
+            band_files.append([run.claim(out / f"{stem}-{st}.wav", f"band {n!r} {at}")
+                               for n, st in zip(names, stems)])
+            plans.append(dl.plan_delays([b.delay_samples for b in rx.bands], fractional_delay))
+        else:
+            ext = {"json": "json", "csv": "csv", "text": "txt"}[fmt]
+            p = run.claim(out / f"{stem}.{ext}", f"the {fmt} coefficients {at}")
+            band_files.append([p] * len(names))
+            plans.append(None)
+    mpath = run.claim(out / f"{base}-manifest.json", "the manifest")
     try:
         out.mkdir(parents=True, exist_ok=True)
     except OSError as e:
         raise ExportError(f"cannot make the folder {str(out)!r}: {e}", field="out") from None
-    base = slug(project.name)
     files: list[Path] = []
-    rate_entries = []
-    for rx in exports:
-        stem = f"{base}-{rate_text(rx.fs_hz)}"
-        wav_info = {}
+    rate_entries, notes = [], []
+    for rx, paths, plan in zip(exports, band_files, plans):
+        wav_info = []
         if fmt == "wav":
             from planner.render import write_wav
 
-            for b in rx.bands:
-                h, whole, frac = band_impulse_response(b, rx.fs_hz)
-                p = out / f"{stem}-{slug(b.name)}.wav"
-                _write_bytes_atomic(p, lambda t, h=h: write_wav(t, h, rx.fs_hz))
+            for b, p, bd in zip(rx.bands, paths, plan.bands):
+                h, _ = band_impulse_response(b, rx.fs_hz, bd)
+                write_file(p, lambda t, h=h: write_wav(t, h, rx.fs_hz))
                 files.append(p)
-                wav_info[b.name] = {"file": p.name, "samples": len(h),
-                                    "delay_whole_samples": whole,
-                                    "delay_fraction_samples_not_applied": frac}
+                wav_info.append({"file": p.name, "samples": len(h),
+                                 "delay_whole_samples": bd.whole_samples,
+                                 "delay_fraction_applied_samples": bd.fraction_samples,
+                                 "delay_rounded_by_samples": bd.rounded_by_samples})
+            notes.extend(dl.run_notes(rx.report, plan))
         else:
-            ext = {"json": "json", "csv": "csv", "text": "txt"}[fmt]
-            text = {"json": lambda: json.dumps(to_json_dict(rx, negate_feedback), indent=1) + "\n",
-                    "csv": lambda: to_csv_text(rx, negate_feedback),
-                    "text": lambda: to_text(rx, negate_feedback)}[fmt]()
-            p = out / f"{stem}.{ext}"
-            pj.atomic_write_text(p, text)
-            files.append(p)
-        rate_entries.append(_manifest_rate(rx, wav_info))
+            write_text_file(paths[0], _coefficient_text(rx, fmt, negate_feedback))
+            files.append(paths[0])
+            notes.extend(dl.exact_notes(rx.report))
+        rate_entries.append(_manifest_rate(rx, paths, wav_info, plan))
     manifest = {
         "format": MANIFEST_FORMAT, "version": 1,
         "project": project.name, "project_file": source,
@@ -841,24 +1023,51 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
         "file_format": fmt, "arith": a.name, "negated_feedback": bool(negate_feedback),
         "pre_attenuate": bool(pre_attenuate), "sections": sections,
         "denominator": _denominator_text(negate_feedback),
+        "fractional_delay": fractional_delay if fmt == "wav" else "exact",
         "rates": [_rate_value(r) for r in uniq],
         "files": [p.name for p in files],
         "checks": rate_entries,
     }
-    mpath = out / f"{base}-manifest.json"
-    pj.atomic_write_text(mpath, json.dumps(_finite(manifest), indent=1, allow_nan=False) + "\n")
-    return ExportResult(exports, files, mpath, arith_ok, checks_ok)
+    text = json.dumps(_finite(manifest), indent=1, allow_nan=False) + "\n"
+    write_text_file(mpath, text)
+    return ExportResult(exports, files, mpath, arith_ok, checks_ok, band_files, plans, notes)
 
 
-def _manifest_rate(rx: RateExport, wav_info: dict) -> dict:
+def _manifest_rate(rx: RateExport, paths: Sequence[Path], wav_info: Sequence[dict],
+                   plan) -> dict:
+    """One rate's entry of the manifest: the check, and per band its file and figures.
+
+    ``delays`` says how the band delays were made at this rate: for the
+    WAV format the run's :class:`planner.delays.DelayPlan` (``apply`` or
+    ``round``, the fraction per band, the added latency, the filter, and
+    for ``round`` what rounding cost); for the coefficient formats
+    ``"exact"``: the files hold ``delay_samples`` as designed.
+    """
+    from planner import delays as dl
+
+    names = [b.name for b in rx.bands]
     bands = []
-    for b in rx.bands:
-        d = {"name": b.name, "sections": len(b.stored_sos), "post_shifts": list(b.shifts),
+    for i, (b, p) in enumerate(zip(rx.bands, paths)):
+        d = {"name": b.name, "file": p.name, "sections": len(b.stored_sos),
+             "post_shifts": list(b.shifts),
              "fir_taps": 0 if b.stored_fir is None else len(b.stored_fir),
              "peak_internal_gain_db": b.peak_internal_gain_db,
              "pre_attenuation_db": b.pre_attenuation_db, "arith": b.arith.to_dict()}
-        if b.name in wav_info:
-            d["wav"] = wav_info[b.name]
+        if wav_info:
+            d["wav"] = wav_info[i]
         bands.append(d)
+    if plan is None:
+        exact = dl.plan_delays([b.delay_samples for b in rx.bands], "round")
+        delays = {"fractional_delay": "exact", "added_latency_samples": 0,
+                  "added_latency_ms": 0.0, "filter": None,
+                  "bands": [{"name": n, "delay_samples": bd.delay_samples,
+                             "fraction_samples": dl.fraction_of(bd.delay_samples)}
+                            for n, bd in zip(names, exact.bands)],
+                  "rounding": None}
+    else:
+        delays = plan.to_dict(names, rx.fs_hz)
+        delays["rounding"] = (dl.rounding_effect(rx.report, plan.rounded_delays).to_dict()
+                              if plan.mode == "round" and plan.fractional else None)
     return {"sample_rate": _rate_value(rx.fs_hz), "check": rx.report.to_dict(),
-            "arith_ok": rx.arith_ok, "bands": bands}
+            "arith_ok": rx.arith_ok, "delays": delays, "bands": bands,
+            "band_files": {b.name: p.name for b, p in zip(rx.bands, paths)}}

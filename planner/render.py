@@ -4,9 +4,15 @@ Each band is run exactly as a DSP would run its export (see
 :mod:`planner.export`): the stored sections by :func:`scipy.signal.sosfilt`
 in float64 (the filter state carried from block to block), an FIR by
 overlap-add fast convolution (:func:`planner.dsp.signals.fft_convolve`, one
-block at a time), then gain, polarity and the delay's whole samples. The
-fractional part of a delay is left out (as in the exported WAV impulse
-responses) and reported. Outputs keep the input's length and channels.
+block at a time), then gain, polarity and the delay. A delay with a
+fraction of a sample runs as :mod:`planner.delays` says: by default
+(``apply``) the fraction is a fractional-delay FIR
+(:mod:`planner.dsp.fracdelay`, convolved in like the band's own taps) and
+every band of the run gets that filter's latency ``(N - 1) / 2`` samples, so
+that the bands stay aligned; ``round`` rounds each delay to the nearest
+sample instead. The exported WAV impulse responses are made the same way.
+Outputs keep the input's length and channels (what the delays push past
+the end is cut).
 
 WAV files are read and written with :mod:`scipy.io.wavfile`; everything is
 written as 32-bit float.
@@ -17,11 +23,12 @@ References
    3rd ed., sec. 6.3 (cascade form), 8.7.3 (block convolution, overlap-add).
 .. [2] Microsoft / IBM, "Multimedia Programming Interface and Data
    Specifications 1.0", 1991 (RIFF WAVE; WAVE_FORMAT_IEEE_FLOAT = 3).
+.. [3] T. I. Laakso, V. Valimaki, M. Karjalainen and U. K. Laine,
+   "Splitting the unit delay", IEEE Signal Processing Magazine 13(1), 1996.
 """
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Callable
@@ -30,6 +37,7 @@ import numpy as np
 from scipy import signal
 from scipy.io import wavfile
 
+from planner.delays import BandDelay, DelayPlan, plan_delays
 from planner.dsp.signals import fft_convolve
 from planner.errors import ExportError
 from planner.export import BandExport, RateExport
@@ -87,19 +95,29 @@ def write_wav(path, samples, fs_hz: float) -> None:
     wavfile.write(str(path), int(fs_hz), np.asarray(samples, dtype=np.float32))
 
 
-def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = None) -> np.ndarray:
+def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = None,
+                delay: BandDelay | None = None) -> np.ndarray:
     """Run ``x`` (shape ``(n,)`` or ``(n, channels)``) through one exported band.
 
     Sections by :func:`scipy.signal.sosfilt` in blocks of
-    :data:`BLOCK_SAMPLES` with the state carried, an FIR by overlap-add
-    (each block convolved by :func:`planner.dsp.signals.fft_convolve` and its
-    tail added into the next), then gain, polarity and
-    ``floor(delay_samples)`` samples of delay. The output has the input's
-    length. ``progress(done, total)`` is called after each block.
+    :data:`BLOCK_SAMPLES` with the state carried, an FIR (the band's taps
+    convolved with the fractional-delay filter of ``delay``, if any) by
+    overlap-add (each block convolved by
+    :func:`planner.dsp.signals.fft_convolve` and its tail added into the
+    next), then gain, polarity and ``delay.whole_samples`` samples of delay
+    line. The output has the input's length. ``progress(done, total)`` is
+    called after each block.
+
+    ``delay`` comes from the run's :func:`planner.delays.plan_delays`
+    (default: the band alone, in ``apply`` mode).
     """
+    if delay is None:
+        delay = plan_delays([band.delay_samples], "apply").bands[0]
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[0]
     sos, fir = band.run_sos, band.run_fir
+    if delay.taps is not None:
+        fir = delay.taps if fir is None else np.convolve(fir, delay.taps)
     y = np.empty_like(x)
     zi = None
     if len(sos):
@@ -124,7 +142,7 @@ def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = Non
         if progress is not None:
             progress(min(start + BLOCK_SAMPLES, n), n)
     y *= band.linear_gain
-    whole = int(math.floor(band.delay_samples))
+    whole = delay.whole_samples
     if whole:
         y = np.concatenate([np.zeros((min(whole, n),) + x.shape[1:]), y[:max(n - whole, 0)]])
     return y
@@ -132,32 +150,44 @@ def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = Non
 
 @dataclass
 class Rendered:
-    """Outputs of :func:`render`: one array per band (project order) and the sum of the active ones."""
+    """Outputs of :func:`render`.
+
+    Attributes
+    ----------
+    bands : dict
+        Band name -> output array, project order.
+    sum : ndarray
+        The sum of the active (mute/solo) bands.
+    delays : DelayPlan
+        How the band delays were made (mode, per band, the added latency).
+    """
 
     bands: dict
     sum: np.ndarray
-    dropped_fraction_samples: dict
+    delays: DelayPlan
 
 
-def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None) -> Rendered:
+def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
+           fractional_delay: str = "apply") -> Rendered:
     """Run ``x`` through every band of an export; the sum takes the active (mute/solo) bands.
 
+    ``fractional_delay`` (``"apply"`` or ``"round"``) says how delays with a
+    fraction of a sample are made (:func:`planner.delays.plan_delays`, one
+    plan for all the bands, so that they stay aligned).
     ``progress(done, total)`` counts samples over all bands together.
     """
     n = np.asarray(x).shape[0]
     total = n * len(rx.bands)
-    outs, frac = {}, {}
-    for i, b in enumerate(rx.bands):
+    plan = plan_delays([b.delay_samples for b in rx.bands], fractional_delay)
+    outs = {}
+    for i, (b, bd) in enumerate(zip(rx.bands, plan.bands)):
         cb = None if progress is None else (lambda d, t, i=i: progress(i * n + d, total))
-        outs[b.name] = render_band(x, b, cb)
-        f = b.delay_samples - math.floor(b.delay_samples)
-        if f:
-            frac[b.name] = f
+        outs[b.name] = render_band(x, b, cb, bd)
     s = np.zeros_like(np.asarray(x, dtype=np.float64))
     for b in rx.bands:
         if b.active:
             s = s + outs[b.name]
-    return Rendered(outs, s, frac)
+    return Rendered(outs, s, plan)
 
 
 def text_progress(stream, width: int = 30) -> Progress:

@@ -1,19 +1,21 @@
 """Impulse and step responses of a project's bands and of their sum.
 
 Each band is made into a sampled impulse response exactly as a WAV export
-holds it (:func:`planner.export.band_impulse_response`): the sections run
-by :func:`scipy.signal.sosfilt` until the tail energy is 150 dB below the
-peak (:func:`planner.dsp.signals.truncate_iir_impulse`; a response that has
-not decayed within :data:`MAX_SECONDS` is refused with the reason), an FIR
-convolved in exactly, gain and polarity applied, and the whole samples of
-the band's delay as leading zeros.
+holds it and ``render`` runs it (:func:`planner.export.band_impulse_response`):
+the sections run by :func:`scipy.signal.sosfilt` until the tail energy is
+150 dB below the peak (:func:`planner.dsp.signals.truncate_iir_impulse`; a
+response that has not decayed within its 10 s is refused with the reason),
+an FIR convolved in exactly, gain and polarity applied, and the band's
+delay.
 
-Fractional delays: a delay of ``d`` samples with a fractional part cannot
-be put into a sampled response without an interpolating filter that would
-change it (and add ringing of its own), so only ``floor(d)`` samples are
-applied, as in ``render`` and the WAV export; the part left out is kept
-per band in :attr:`TimeResponse.fraction_samples` (under one sample:
-20.8 us at 48 kHz). The frequency-domain check applies the exact delay.
+Fractional delays: the views show what ``render`` and the WAV export make by
+default, ``apply`` (:mod:`planner.delays`): a delay's fraction of a sample is
+a fractional-delay FIR (:mod:`planner.dsp.fracdelay`), and when any band has
+one, every band is :attr:`TimeResponse.added_latency_samples` later than its
+``delay_ms`` (the filter's ``(N - 1) / 2``), so that the bands stay aligned
+as in the check. ``fractional_delay="round"`` shows each delay rounded to
+the nearest sample instead. The fraction of each band's delay is kept in
+:attr:`TimeResponse.fraction_samples`.
 
 The step response is the running sum of the impulse response
 (``s[n] = sum_{k <= n} h[k]``), for the bands and the sum alike.
@@ -70,9 +72,14 @@ class TimeResponse:
     sum : ndarray, shape (n,)
         Sum of the active bands.
     fraction_samples : list of float
-        Per band, the fractional part of its delay left out (see the module notes).
+        Per band, the fraction of a sample in its delay, ``d - floor(d)`` in
+        [0, 1) (0 for a whole delay; see the module notes).
     lengths : list of int
         Per band, samples up to the end of its own response (leading zeros included).
+    fractional_delay : {"apply", "round"}
+        How the fractions were made.
+    added_latency_samples : int
+        Added to every band (``apply`` with a fraction somewhere; else 0).
     """
 
     kind: str
@@ -83,6 +90,8 @@ class TimeResponse:
     sum: np.ndarray
     fraction_samples: list[float]
     lengths: list[int]
+    fractional_delay: str = "apply"
+    added_latency_samples: int = 0
 
     @property
     def samples(self) -> np.ndarray:
@@ -100,11 +109,14 @@ class TimeResponse:
             raise ValueError(f"the step response is made from an impulse response, not a {self.kind}")
         return TimeResponse("step", self.fs_hz, self.names, self.active,
                             np.cumsum(self.bands, axis=-1), np.cumsum(self.sum),
-                            self.fraction_samples, self.lengths)
+                            self.fraction_samples, self.lengths, self.fractional_delay,
+                            self.added_latency_samples)
 
     def to_dict(self) -> dict:
         """JSON form: rate, axes and the series (lists of floats)."""
         return {"kind": self.kind, "sample_rate": self.fs_hz,
+                "fractional_delay": self.fractional_delay,
+                "added_latency_samples": self.added_latency_samples,
                 "time_ms": self.time_ms.tolist(),
                 "bands": [{"name": n, "active": a, "fraction_samples": f, "length": k,
                            "values": row.tolist()}
@@ -115,7 +127,8 @@ class TimeResponse:
 
 
 def impulse_responses(designs: Sequence[BandDesign], fs_hz: float, names: Sequence[str],
-                      active: Sequence[bool] | None = None) -> TimeResponse:
+                      active: Sequence[bool] | None = None,
+                      fractional_delay: str = "apply") -> TimeResponse:
     """Impulse responses of designed bands (e.g. :attr:`planner.engine.Report.designs`).
 
     Parameters
@@ -125,6 +138,9 @@ def impulse_responses(designs: Sequence[BandDesign], fs_hz: float, names: Sequen
     names : sequence of str
     active : sequence of bool, optional
         Bands in the sum (default: all).
+    fractional_delay : {"apply", "round"}
+        How a fraction of a sample of delay is made (:func:`planner.delays.plan_delays`,
+        one plan for all the bands).
 
     Returns
     -------
@@ -136,37 +152,41 @@ def impulse_responses(designs: Sequence[BandDesign], fs_hz: float, names: Sequen
     ExportError
         A band whose sections do not decay (a pole on or outside the unit
         circle, or a tail still above the floor after
-        :func:`~planner.dsp.signals.truncate_iir_impulse`'s 10 s).
+        :func:`~planner.dsp.signals.truncate_iir_impulse`'s 10 s); an
+        unknown ``fractional_delay``.
     """
+    from planner.delays import fraction_of, plan_delays
     from planner.export import band_impulse_response
 
     fs = float(fs_hz)
     act = [True] * len(designs) if active is None else [bool(a) for a in active]
-    rows, fracs = [], []
-    for d in designs:
+    plan = plan_delays([d.delay_samples for d in designs], fractional_delay)
+    rows = []
+    for d, bd in zip(designs, plan.bands):
         gain = (-1.0 if d.invert else 1.0) * 10.0 ** (d.gain_db / 20.0)
-        h, _, frac = band_impulse_response(_Run(d.sos, d.fir, d.delay_samples, gain), fs)
+        h, _ = band_impulse_response(_Run(d.sos, d.fir, d.delay_samples, gain), fs, bd)
         rows.append(h)
-        fracs.append(frac)
+    fracs = [fraction_of(d.delay_samples) for d in designs]
     n = max([len(h) for h in rows] + [1])
     bands = np.zeros((len(rows), n))
     for i, h in enumerate(rows):
         bands[i, :len(h)] = h
     total = bands[np.asarray(act, bool)].sum(axis=0) if len(rows) else np.zeros(n)
     return TimeResponse("impulse", fs, list(names), act, bands, total, fracs,
-                        [len(h) for h in rows])
+                        [len(h) for h in rows], plan.mode, plan.added_latency_samples)
 
 
-def project_impulse(project: Project) -> TimeResponse:
+def project_impulse(project: Project, fractional_delay: str = "apply") -> TimeResponse:
     """Impulse responses of every band of ``project`` and of the sum, at its sample rate."""
     fs = float(project.sample_rate)
     designs = [engine.design_band(b, fs) for b in project.bands]
-    return impulse_responses(designs, fs, [b.name for b in project.bands], project.active())
+    return impulse_responses(designs, fs, [b.name for b in project.bands], project.active(),
+                             fractional_delay)
 
 
-def project_step(project: Project) -> TimeResponse:
+def project_step(project: Project, fractional_delay: str = "apply") -> TimeResponse:
     """Step responses of every band of ``project`` and of the sum (running sums of the impulses)."""
-    return project_impulse(project).step()
+    return project_impulse(project, fractional_delay).step()
 
 
 def settle_samples(tr: TimeResponse, floor_db: float = -50.0) -> int:

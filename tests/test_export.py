@@ -12,6 +12,7 @@ import csv
 import hashlib
 import json
 import re
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -105,25 +106,32 @@ def test_text_round_trip_matches_design(proj, tmp_path, fs):
 def test_wav_round_trip_float32_and_matches_design(proj, tmp_path, fs):
     res = export.write_export(proj, [fs], "wav", tmp_path)
     man = json.loads(res.manifest.read_text())
+    lat = man["checks"][0]["delays"]["added_latency_samples"]
     f = _grid(fs)
     for i, path in enumerate(res.files):
         rate, h = wavfile.read(path)
         assert rate == fs and h.dtype == np.float32 and h.ndim == 1
-        wav = man["checks"][0]["bands"][i]["wav"]
-        # The WAV holds the whole-sample delay; the fraction is in the manifest.
+        # The WAV holds the exact delay (the fraction by the fractional-delay filter),
+        # every band later by the run's added latency.
         dtft = np.exp(-2j * np.pi * np.outer(f / fs, np.arange(len(h)))) @ h.astype(float)
-        frac = wav["delay_fraction_samples_not_applied"]
-        dtft *= np.exp(-2j * np.pi * f / fs * frac)
-        # float32 samples (2^-24 relative each) and the -150 dB truncation: 1e-5.
-        assert np.max(np.abs(dtft - _design(proj, i, fs, f))) < 1e-5
+        ref = _design(proj, i, fs, f) * np.exp(-2j * np.pi * f / fs * lat)
+        # The fractional-delay filter's complex error (1e-4 of a gain <= 1, up to 0.45 fs),
+        # float32 samples (2^-24 relative each) and the -150 dB truncation: 1.1e-4.
+        assert np.max(np.abs(dtft - ref)) < 1.1e-4
 
 
 def test_fractional_delay_split_in_manifest(proj, tmp_path):
     res = export.write_export(proj, [48000], "wav", tmp_path)
-    wav = json.loads(res.manifest.read_text())["checks"][0]["bands"][1]["wav"]
-    # 0.0125 ms at 48 kHz = 0.6 samples: 0 whole samples, 0.6 left for the engine.
-    assert wav["delay_whole_samples"] == 0
-    assert wav["delay_fraction_samples_not_applied"] == pytest.approx(0.6, abs=1e-12)
+    rate = json.loads(res.manifest.read_text())["checks"][0]
+    wav = rate["bands"][1]["wav"]
+    lat = rate["delays"]["added_latency_samples"]
+    # 0.0125 ms at 48 kHz = 0.6 samples: the nearest whole is 1, the filter makes -0.4;
+    # the other band (no fraction) gets the filter's latency as whole samples.
+    assert wav["delay_whole_samples"] == 1
+    assert wav["delay_fraction_applied_samples"] == pytest.approx(-0.4, abs=1e-12)
+    assert wav["delay_rounded_by_samples"] == pytest.approx(0.0, abs=1e-12)
+    assert rate["bands"][0]["wav"]["delay_whole_samples"] == lat
+    assert rate["bands"][0]["wav"]["delay_fraction_applied_samples"] == 0.0
 
 
 def test_per_filter_sections_are_the_design_labelled_by_filter(proj):
@@ -341,3 +349,189 @@ def test_text_lines_agree_with_the_json_figures():
         assert shown == pytest.approx(d["deviation_db"], rel=5e-3)
         assert (shown > export.MAX_DEVIATION_DB) == (not d["ok"])
         assert line.lstrip().startswith("ok" if d["ok"] else "FAIL")
+
+
+# --- fractional delays in the manifest ---------------------------------------------
+
+def test_manifest_records_the_applied_fractions_and_the_latency(proj, tmp_path):
+    # The tweeter's 0.0125 ms: 0.6 samples at 48 kHz, 0.55125 at 44.1 kHz (exact products).
+    res = export.write_export(proj, [48000, 44100], "wav", tmp_path)
+    m = json.loads(res.manifest.read_text())
+    assert m["fractional_delay"] == "apply"
+    for entry, frac in zip(m["checks"], (0.6, 0.55125)):
+        dl = entry["delays"]
+        assert dl["fractional_delay"] == "apply" and dl["rounding"] is None
+        assert dl["added_latency_samples"] == (dl["filter"]["taps"] - 1) // 2 > 0
+        assert dl["added_latency_ms"] == pytest.approx(
+            1000 * dl["added_latency_samples"] / entry["sample_rate"])
+        assert [b["name"] for b in dl["bands"]] == ["woofer", "tweeter"]
+        assert dl["bands"][0]["fraction_samples"] == 0.0
+        assert dl["bands"][1]["fraction_samples"] == pytest.approx(frac, abs=1e-12)
+
+
+def test_manifest_records_rounding_and_its_cost(proj, tmp_path):
+    # round: 0.6 -> 1 sample, no added latency, and what it cost against the check.
+    res = export.write_export(proj, [48000], "wav", tmp_path, fractional_delay="round")
+    m = json.loads(res.manifest.read_text())
+    dl = m["checks"][0]["delays"]
+    assert m["fractional_delay"] == "round" and dl["fractional_delay"] == "round"
+    assert dl["added_latency_samples"] == 0 and dl["filter"] is None
+    assert dl["bands"][1]["whole_samples"] == 1
+    assert dl["bands"][1]["rounded_by_samples"] == pytest.approx(0.4, abs=1e-12)
+    (c,) = dl["rounding"]["crossings"]
+    # The tweeter 0.4 samples later: woofer - tweeter gains +360 fc 0.4 / fs (Oppenheim
+    # and Schafer sec. 2.7); to 1e-6 deg.
+    assert c["change_deg"] == pytest.approx(360 * c["freq_hz"] * 0.4 / 48000, abs=1e-6)
+    assert {"sum_change_db", "sum_change_at_hz", "rounded_max_dev_db"} <= set(dl["rounding"])
+    assert res.notes and res.notes[0].startswith("at 48000 Hz delays are rounded to the "
+                                                 "nearest sample (tweeter 0.6 -> 1 samples)")
+
+
+@pytest.mark.parametrize("fmt", ["json", "csv", "text"])
+def test_coefficient_manifests_say_the_delay_is_exact(proj, tmp_path, fmt):
+    res = export.write_export(proj, [48000], fmt, tmp_path, fractional_delay="round")
+    m = json.loads(res.manifest.read_text())
+    dl = m["checks"][0]["delays"]
+    assert m["fractional_delay"] == "exact" and dl["fractional_delay"] == "exact"
+    assert dl["added_latency_samples"] == 0
+    assert dl["bands"][1]["fraction_samples"] == pytest.approx(0.6, abs=1e-12)
+    assert res.notes[0].startswith("at 48000 Hz delay_samples is written exactly (tweeter 0.6)")
+
+
+def test_unknown_fractional_mode_refused_before_writing(proj, tmp_path):
+    with pytest.raises(ExportError, match=r"fractional_delay: must be one of apply, round, "
+                                          r"not 'nearest'"):
+        export.write_export(proj, [48000], "wav", tmp_path / "o", fractional_delay="nearest")
+    assert not (tmp_path / "o").exists()
+
+
+def test_band_impulse_response_round_mode_is_the_nearest_sample(proj):
+    # 0.6 samples: one leading zero in round mode (floor would give none).
+    from planner.delays import plan_delays
+
+    rx = export.export_rate(proj, 48000)
+    plan = plan_delays([b.delay_samples for b in rx.bands], "round")
+    h, bd = export.band_impulse_response(rx.bands[1], 48000, plan.bands[1])
+    plain, _ = export.band_impulse_response(
+        replace(rx.bands[1], delay_samples=0.0), 48000)
+    assert bd.whole_samples == 1 and h[0] == 0.0
+    np.testing.assert_array_equal(h[1:], plain)
+
+
+# --- band file names -----------------------------------------------------------------
+
+LONG = "a very long band name " * 14          # 308 characters
+
+
+def _named(names, gains=None, project_name="names"):
+    """A project of filterless bands: each one's impulse response is its gain alone."""
+    gains = gains or [-1.0 * (i + 1) for i in range(len(names))]
+    return project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": project_name,
+        "sample_rate": 48000,
+        "bands": [{"name": n, "gain_db": g, "filters": []} for n, g in zip(names, gains)]})
+
+
+@pytest.mark.parametrize("names,stems", [
+    (["Woofer", "woofer"], ["woofer-1", "woofer-2"]),
+    (["mid range", "mid-range", "tweeter"], ["mid-range-1", "mid-range-2", "tweeter"]),
+    (["sum", "low"], ["sum-1", "low"]),
+    (["low", "manifest"], ["low", "manifest-2"]),
+    (["Твитер", "低音", "ウーファー"], ["band-1", "band-2", "band-3"]),
+    (["Médium", "Baß"], ["medium", "ba"]),
+    (["Woofer", "woofer", "woofer 2"], ["woofer-1", "woofer-2-2", "woofer-2"]),
+    (["band 2", "★"], ["band-2", "band-2-2"]),
+])
+def test_band_file_stems_distinct_and_readable(names, stems):
+    assert export.band_file_stems(names) == stems
+
+
+def test_band_file_stems_shorten_long_names_and_keep_them_apart():
+    # Two names alike in their first 64 characters: shortened, then told apart by number.
+    names = [LONG + "woofer", LONG + "tweeter", "mid"]
+    stems = export.band_file_stems(names)
+    assert len(set(stems)) == 3 and stems[2] == "mid"
+    assert all(len(s) <= export.MAX_SLUG_CHARS + 3 for s in stems)
+    assert stems[0].endswith("-1") and stems[1].endswith("-2")
+
+
+def test_band_file_stems_are_deterministic():
+    names = ["Woofer", "woofer", "sum", "Твитер", LONG]
+    assert export.band_file_stems(names) == export.band_file_stems(list(names))
+
+
+def test_slug_is_cut_to_its_limit():
+    s = export.slug(LONG)
+    assert len(s) <= export.MAX_SLUG_CHARS and not s.endswith("-")
+    assert export.slug("Твитер") == "project" and export.slug("Твитер", fallback="") == ""
+
+
+def test_run_files_refuse_a_second_write_naming_both(tmp_path):
+    run = export.RunFiles()
+    run.claim(tmp_path / "x-woofer.wav", "band 'Woofer' at 48000 Hz")
+    with pytest.raises(ExportError, match=r"out: '.*x-woofer\.wav' would be written twice in one "
+                                          r"run, for band 'Woofer' at 48000 Hz and for band "
+                                          r"'woofer' at 48000 Hz; nothing is written over"):
+        run.claim(tmp_path / "x-woofer.wav", "band 'woofer' at 48000 Hz")
+
+
+def test_run_files_ignore_case(tmp_path):
+    # Some file systems (macOS, Windows) hold X.wav and x.wav as one file.
+    run = export.RunFiles()
+    run.claim(tmp_path / "X.wav", "band 'X'")
+    with pytest.raises(ExportError, match=r"for band 'X' and for band 'x'"):
+        run.claim(tmp_path / "x.wav", "band 'x'")
+
+
+def test_write_file_reports_a_system_error(tmp_path):
+    with pytest.raises(ExportError, match=r"out: cannot write '.*nope.*x\.wav': "):
+        export.write_file(tmp_path / "nope" / "x.wav", lambda t: None)
+
+
+def test_write_export_guard_stops_a_colliding_run(monkeypatch, tmp_path):
+    # Were two bands ever given one stem, the run refuses before writing anything.
+    monkeypatch.setattr(export, "band_file_stems", lambda names, reserved=(): ["same"] * len(names))
+    with pytest.raises(ExportError, match=r"names-48000-same\.wav' would be written twice in one "
+                                          r"run, for band 'a' at 48000 Hz and for band 'b' at "
+                                          r"48000 Hz"):
+        export.write_export(_named(["a", "b"]), [48000], "wav", tmp_path / "o")
+    assert not (tmp_path / "o").exists()
+
+
+COLLIDING = [["Woofer", "woofer"], ["mid range", "mid-range"], ["sum", "manifest"],
+             ["Твитер", "低音"], [LONG + "woofer", LONG + "tweeter"]]
+
+
+@pytest.mark.parametrize("names", COLLIDING)
+def test_wav_export_gives_every_band_its_own_file(tmp_path, names):
+    # Each WAV holds its own band: a filterless band's impulse response is 10^(gain/20).
+    p = _named(names)
+    res = export.write_export(p, [48000], "wav", tmp_path)
+    assert len(set(res.files)) == len(names) == len(list(tmp_path.glob("*.wav")))
+    m = json.loads(res.manifest.read_text())
+    entry = m["checks"][0]
+    for i, band in enumerate(p.bands):
+        f = entry["bands"][i]["file"]
+        assert entry["band_files"][band.name] == f == res.band_files[0][i].name
+        rate, h = wavfile.read(tmp_path / f)
+        assert h[0] == pytest.approx(10 ** (band.gain_db / 20), rel=1e-7)   # float32
+        assert len(f.encode()) < 255
+    assert sorted(m["files"]) == sorted(p.name for p in res.files)
+
+
+@pytest.mark.parametrize("fmt", ["json", "csv", "text"])
+@pytest.mark.parametrize("names", COLLIDING)
+def test_coefficient_exports_keep_every_band_apart(tmp_path, fmt, names):
+    # One file per rate holds every band under its own name; the manifest maps each band
+    # to that file; a long project name gives a short file name too.
+    p = _named(names, project_name=LONG)
+    res = export.write_export(p, [48000, 44100], fmt, tmp_path)
+    assert len(res.files) == 2 and all(len(f.name.encode()) < 255 for f in res.files)
+    m = json.loads(res.manifest.read_text())
+    for entry, f in zip(m["checks"], res.files):
+        assert entry["band_files"] == {n: f.name for n in names}
+        text = f.read_text(encoding="utf-8")
+        if fmt == "json":   # JSON may escape non-ASCII names (\uXXXX): read it back
+            assert [b["name"] for b in json.loads(text)["bands"]] == names
+        else:
+            assert all(n in text for n in names)

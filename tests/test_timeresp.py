@@ -44,17 +44,74 @@ def test_fir_band_equals_numpy_convolve_of_a_unit_impulse():
 
 
 def test_gain_polarity_and_whole_delay_are_applied():
-    # Gain -6 dB, inverted, 10.5 samples of delay: -10^(-6/20) h[n - 10], the half
-    # sample left out and reported.
+    # Gain -6 dB, inverted, 10 samples of delay: -10^(-6/20) h[n - 10]; a whole delay
+    # adds no latency (no fractional-delay filter runs).
     d = two_way(order=4, fc=2000.0)
     plain = timeresp.project_impulse(project.from_dict(d))
     moved = timeresp.project_impulse(_with(d, 0, gain_db=-6.0, invert=True,
-                                           delay_ms=10.5 * 1000 / FS))
+                                           delay_ms=10 * 1000 / FS))
     g = -10 ** (-6 / 20)
     n = plain.bands.shape[-1]
     assert np.allclose(moved.bands[0][10:10 + n], g * plain.bands[0], rtol=0, atol=1e-15)
     assert np.all(moved.bands[0][:10] == 0.0)
-    assert moved.fraction_samples[0] == pytest.approx(0.5, abs=1e-9)
+    assert moved.fraction_samples == [0.0, 0.0] and moved.added_latency_samples == 0
+
+
+def test_round_mode_delays_by_the_nearest_sample():
+    # 10.6 samples rounded to the nearest is 11 (not floor's 10): h[n - 11] exactly,
+    # sosfilt of a unit impulse as reference.
+    p = _with(two_way(order=4, fc=2000.0), 0, delay_ms=10.6 * 1000 / FS)
+    tr = timeresp.project_impulse(p, "round")
+    sos = engine.design_band(p.bands[0], FS).sos
+    x = np.zeros(tr.sum.shape[-1])
+    x[11] = 1.0
+    ref = signal.sosfilt(sos, x)
+    assert np.max(np.abs(tr.bands[0] - ref)) < 1e-12 * np.max(np.abs(ref))
+    assert tr.fraction_samples[0] == pytest.approx(0.6, abs=1e-9)
+    assert tr.fractional_delay == "round" and tr.added_latency_samples == 0
+
+
+def _dtft(h, f, fs=FS):
+    """Reference spectrum of a sampled response: scipy.signal.freqz on an explicit grid."""
+    return signal.freqz(h, worN=f, fs=fs)[1]
+
+
+def test_apply_mode_is_the_exact_fractional_delay_up_to_045_fs():
+    # The shown band, against sosfreqz(chain) e^{-jw(d + L)} with the exact delay d = 10.3
+    # samples and the added latency L: 0.01 dB and 0.05 deg up to 0.45 fs (the
+    # fractional-delay filter's spec is 0.00087 dB, 0.0057 deg; the rest is the -150 dB
+    # truncation of the IIR tail).
+    p = _with(two_way(order=4, fc=2000.0), 1, delay_ms=10.3 * 1000 / FS)
+    tr = timeresp.project_impulse(p)
+    lat = tr.added_latency_samples
+    assert lat > 0 and tr.fractional_delay == "apply"
+    assert tr.fraction_samples[1] == pytest.approx(0.3, abs=1e-9)
+    f = np.geomspace(20, 0.45 * FS, 400)
+    sos = engine.design_band(p.bands[1], FS).sos
+    ref = signal.sosfreqz(sos, worN=f, fs=FS)[1] * np.exp(-2j * np.pi * f / FS * (10.3 + lat))
+    got = _dtft(tr.bands[1], f)
+    keep = np.abs(ref) > 1e-3     # where the highpass passes more than -60 dB
+    assert np.max(np.abs(20 * np.log10(np.abs(got[keep] / ref[keep])))) < 0.01
+    assert np.max(np.abs(np.degrees(np.angle(got[keep] / ref[keep])))) < 0.05
+
+
+def test_apply_mode_delays_the_whole_band_by_the_added_latency_too():
+    # The other band (no fraction) is its plain response shifted by the same latency.
+    d = two_way(order=4, fc=2000.0)
+    plain = timeresp.project_impulse(project.from_dict(d))
+    tr = timeresp.project_impulse(_with(d, 1, delay_ms=0.48 * 1000 / FS))
+    lat = tr.added_latency_samples
+    n = plain.bands.shape[-1]
+    assert np.array_equal(tr.bands[0][lat:lat + n], plain.bands[0])
+    assert np.all(tr.bands[0][:lat] == 0.0)
+
+
+def test_to_dict_says_how_fractions_were_made():
+    tr = timeresp.project_impulse(_with(two_way(), 1, delay_ms=0.48 * 1000 / FS))
+    d = tr.to_dict()
+    assert d["fractional_delay"] == "apply" and d["added_latency_samples"] == \
+        tr.added_latency_samples
+    assert d["bands"][1]["fraction_samples"] == pytest.approx(0.48, abs=1e-9)
 
 
 def test_sum_is_the_sum_of_the_active_bands(lr4):

@@ -2,7 +2,10 @@
 
 ``crossplan render FILE IN.wav --out DIR [--rate R ...]`` runs IN through every
 band with the exported (float64, or ``--arith``) coefficients and writes one
-32-bit float WAV per band and their sum. ``crossplan render FILE --sweep|--impulse|
+32-bit float WAV per band and their sum (``<stem>-<band>.wav``, the band's
+part from :func:`planner.export.band_file_stems`, and ``<stem>-sum.wav``).
+``--fractional-delay apply|round`` says how a delay with a fraction of a
+sample is made (:mod:`planner.delays`). ``crossplan render FILE --sweep|--impulse|
 --noise [--seconds S --rate R --level-db L] --out DIR`` first writes the test
 signal (with, for the sweep, a JSON sidecar holding f1 and f2 for
 ``crossplan measure``) and then the bands' outputs.
@@ -43,6 +46,10 @@ def add_arguments(p, name):
     p.add_argument("--seed", type=int, default=None, help="noise seed (repeatable noise)")
     p.add_argument("--arith", default="float64", metavar="FORMAT",
                    help="coefficients rounded to this format first (run in float64)")
+    p.add_argument("--fractional-delay", choices=("apply", "round"), default="apply",
+                   help="a delay with a fraction of a sample: apply it with a fractional-delay "
+                        "FIR, every band then one latency later (default), or round it to the "
+                        "nearest sample (the cost is printed)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
 
 
@@ -76,7 +83,9 @@ def run(args) -> int:
 
 
 def _run(args) -> int:
-    from planner import export, render
+    from pathlib import Path
+
+    from planner import delays, export, render
     from planner.cli.common import load_project
     from planner.errors import CrossplanError
     from planner.report import SAFETY_NOTE
@@ -87,38 +96,50 @@ def _run(args) -> int:
     if testing == bool(args.input):
         raise CrossplanError("give either IN.wav or one of --sweep, --impulse, --noise",
                              field="input")
-    written = []
+    out = Path(args.out)
+    run = export.RunFiles()
+    signal_files = []
     if testing:
         fs = float(rates[0])
         stem, x, meta = _test_signal(args, fs)
-        print(SAFETY_NOTE)
-        p = render.out_path(args.out, f"{stem}.wav")
-        render.write_wav(p, x, fs)
-        written.append(p)
+        p = run.claim(out / f"{stem}.wav", f"the {stem} signal")
+        signal_files.append((p, x, None))
         if meta is not None:
-            side = p.with_suffix(".json")
-            side.write_text(json.dumps(meta, indent=1) + "\n", encoding="utf-8")
-            written.append(side)
+            signal_files.append((run.claim(p.with_suffix(".json"), f"the {stem} parameters"),
+                                 None, meta))
     else:
         x, fs_in = render.read_wav(args.input)
         fs = render.same_rate_or_refuse(fs_in, rates)
-        from pathlib import Path
-
         stem = Path(args.input).stem
     rx = export.export_rate(proj, fs, args.arith)
     bad = [b for b in rx.bands if not b.arith.ok]
     if bad:
         print("\n".join(export.arith_text(rx)), file=sys.stderr)
         return 1
+    names = [b.name for b in rx.bands]
+    band_paths = [run.claim(out / f"{stem}-{st}.wav", f"band {n!r}")
+                  for n, st in zip(names, export.band_file_stems(names))]
+    sum_path = run.claim(out / f"{stem}-sum.wav", "the sum")
+    render.out_path(out, "")   # makes the folder
+    if testing:
+        print(SAFETY_NOTE)
+    written = []
+    for p, sig, meta in signal_files:
+        if meta is None:
+            export.write_file(p, lambda t, sig=sig: render.write_wav(t, sig, fs))
+        else:
+            export.write_text_file(p, json.dumps(meta, indent=1) + "\n")
+        written.append((p, ""))
     show = (not args.quiet and sys.stderr.isatty() and len(x) > PROGRESS_AFTER_S * fs)
-    out = render.render(x, rx, render.text_progress(sys.stderr) if show else None)
-    for name, y in list(out.bands.items()) + [("sum", out.sum)]:
-        p = render.out_path(args.out, f"{stem}-{export.slug(name)}.wav")
-        render.write_wav(p, y, fs)
-        written.append(p)
-    for p in written:
-        print(f"wrote {p}")
-    for name, frac in out.dropped_fraction_samples.items():
-        print(f"note: band {name}: {frac:.3f} of a sample of its delay is not applied "
-              "(whole samples only)")
+    res = render.render(x, rx, render.text_progress(sys.stderr) if show else None,
+                        args.fractional_delay)
+    for name, p in zip(names, band_paths):
+        export.write_file(p, lambda t, y=res.bands[name]: render.write_wav(t, y, fs))
+        written.append((p, f" (band {name})"))
+    export.write_file(sum_path, lambda t: render.write_wav(t, res.sum, fs))
+    written.append((sum_path, " (sum of the active bands)"))
+    for p, what in written:
+        print(f"wrote {p}{what}")
+    for line in delays.run_notes(rx.report, res.delays):
+        print(f"note: {line}")
     return 0

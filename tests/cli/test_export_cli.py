@@ -198,3 +198,69 @@ def test_export_unmet_fir_spec_exit_1(write_project, tmp_path, capsys):
     assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "out")]) == 1
     assert "max_taps 101" in capsys.readouterr().err
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").glob("*.json"))
+
+
+def _frac_two_way():
+    # The high band 0.01 ms late: 0.48 samples at 48 kHz.
+    d = two_way(4, fc=3000.0)
+    d["bands"][1]["delay_ms"] = 0.01
+    return d
+
+
+def test_export_wav_applies_fractions_and_says_so(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(_frac_two_way())), "--format", "wav",
+                 "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    m = json.loads((tmp_path / "test-2-way-manifest.json").read_text())
+    lat = m["checks"][0]["delays"]["added_latency_samples"]
+    taps = m["checks"][0]["delays"]["filter"]["taps"]
+    assert (f"note: at 48000 Hz fractional delays are applied by a {taps}-tap Kaiser-windowed "
+            f"sinc (fraction in samples: high 0.48); every band is {lat} samples "
+            f"({1000 * lat / 48000:.4g} ms) later than its delay_ms") in out
+
+
+def test_export_wav_round_says_what_it_costs(write_project, tmp_path, capsys):
+    # -360 * 3000 * 0.48 / 48000 = -10.8 deg at the crossing (Oppenheim and Schafer sec. 2.7).
+    assert main(["export", str(write_project(_frac_two_way())), "--format", "wav",
+                 "--fractional-delay", "round", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert ("note: at 48000 Hz delays are rounded to the nearest sample (high 0.48 -> 0 "
+            "samples): the phase difference low - high at 3 kHz changes by -10.8 deg; the "
+            "sum's level by up to ") in out
+    m = json.loads((tmp_path / "test-2-way-manifest.json").read_text())
+    assert m["checks"][0]["delays"]["fractional_delay"] == "round"
+
+
+def test_export_json_holds_the_exact_delay_and_notes_it(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(_frac_two_way())), "--fractional-delay", "round",
+                 "--out", str(tmp_path)]) == 0
+    cap = capsys.readouterr()
+    assert "--fractional-delay is for --format wav" in cap.err
+    assert "note: at 48000 Hz delay_samples is written exactly (high 0.48)" in cap.out
+    d = json.loads((tmp_path / "test-2-way-48000.json").read_text())
+    assert d["bands"][1]["delay_samples"] == pytest.approx(0.48, abs=1e-12)
+
+
+def test_export_bad_fractional_mode_exit_2(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way())), "--fractional-delay", "floor",
+                 "--out", str(tmp_path)]) == 2
+    assert "invalid choice: 'floor'" in capsys.readouterr().err
+
+
+def test_export_wav_names_each_bands_file(write_project, tmp_path, capsys):
+    # Woofer and woofer, and a 308-character name: distinct files, each named in the output.
+    long = ("a very long band name " * 14).strip()   # names are stripped on loading
+    names = ["Woofer", "woofer", long]
+    raw = {"format": "crossplan-project", "version": 1, "name": "n", "sample_rate": 48000,
+           # Three filterless bands at a third each (20 log10(1/3) dB) sum to 0 dB: check ok.
+           "bands": [{"name": x, "gain_db": 20 * np.log10(1 / 3), "filters": []}
+                     for x in names]}
+    assert main(["export", str(write_project(raw)), "--format", "wav",
+                 "--out", str(tmp_path)]) == 0
+    cap = capsys.readouterr()
+    assert "Traceback" not in cap.err
+    for i, x in enumerate(names):
+        line = next(l for l in cap.out.splitlines() if l.endswith(f"(band {x}, 48000 Hz)"))
+        path = line[len("wrote "):-len(f" (band {x}, 48000 Hz)")]
+        assert wavfile.read(path)[0] == 48000
+    assert len(list(tmp_path.glob("*.wav"))) == 3

@@ -6,8 +6,10 @@ rendered impulses; Farina, AES 2000 (the sweep's sidecar holds f1 and f2).
 """
 
 import json
+import re
 
 import numpy as np
+import pytest
 from scipy.io import wavfile
 
 from planner.cli import main
@@ -92,3 +94,90 @@ def test_render_no_progress_bar_when_not_a_tty(write_project, tmp_path, capsys):
     assert main(["render", str(write_project(two_way())), "--noise", "--seconds", "6",
                  "--out", str(tmp_path)]) == 0
     assert "[" not in capsys.readouterr().err
+
+
+def _frac_two_way():
+    d = two_way(4, fc=3000.0)
+    d["bands"][1]["delay_ms"] = 0.01   # 0.48 samples at 48 kHz
+    return d
+
+
+def test_render_impulse_with_a_fraction_equals_the_exported_wav(write_project, tmp_path, capsys):
+    # Both apply the fraction with the same filter and the same added latency: the
+    # rendered impulse / 0.1 equals the exported WAV to float32 rounding.
+    path = str(write_project(_frac_two_way()))
+    assert main(["render", path, "--impulse", "--out", str(tmp_path / "r")]) == 0
+    out = capsys.readouterr().out
+    assert "note: at 48000 Hz fractional delays are applied by a " in out
+    assert main(["export", path, "--format", "wav", "--out", str(tmp_path / "e")]) == 0
+    for band in ("low", "high"):
+        _, y = wavfile.read(tmp_path / "r" / f"impulse-{band}.wav")
+        _, h = wavfile.read(tmp_path / "e" / f"test-2-way-48000-{band}.wav")
+        np.testing.assert_allclose(y[:len(h)] / np.float32(0.1), h, rtol=0,
+                                   atol=1e-6 * np.max(np.abs(h)))
+
+
+def test_render_round_says_what_it_costs(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(_frac_two_way())), "--impulse",
+                 "--fractional-delay", "round", "--out", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    # -360 * 3000 * 0.48 / 48000 = -10.8 deg (Oppenheim and Schafer sec. 2.7).
+    assert ("note: at 48000 Hz delays are rounded to the nearest sample (high 0.48 -> 0 "
+            "samples): the phase difference low - high at 3 kHz changes by -10.8 deg") in out
+    _, y = wavfile.read(tmp_path / "impulse-high.wav")
+    assert y[0] != 0.0   # 0.48 rounds to 0: the highpass answers at once
+
+
+def test_render_whole_delays_print_no_note(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--impulse",
+                 "--out", str(tmp_path)]) == 0
+    assert "note:" not in capsys.readouterr().out
+
+
+LONG = "a very long band name " * 14          # 308 characters
+
+
+def _named(names):
+    """Filterless bands: each one's output is its input times 10^(gain/20), gain -1, -2, ..."""
+    return {"format": "crossplan-project", "version": 1, "name": "names", "sample_rate": 48000,
+            "bands": [{"name": n, "gain_db": -1.0 * (i + 1), "filters": []}
+                      for i, n in enumerate(names)]}
+
+
+@pytest.mark.parametrize("names", [["Woofer", "woofer"], ["mid range", "mid-range"],
+                                   ["sum", "low"], ["Твитер", "低音", "ウーファー"],
+                                   [LONG + "woofer", LONG + "tweeter"]])
+def test_render_gives_every_band_and_the_sum_their_own_file(write_project, tmp_path, capsys,
+                                                            names):
+    # Each band file holds its band (impulse 0.1 times its gain) and the sum file the sum;
+    # the output says which file is which band.
+    out = tmp_path / "o"
+    assert main(["render", str(write_project(_named(names))), "--impulse", "--seconds", "0.01",
+                 "--out", str(out)]) == 0
+    text = capsys.readouterr().out
+    wrote = dict(re.findall(r"^wrote (\S+) \((band .*|sum of the active bands)\)$", text,
+                            flags=re.M))
+    assert len(wrote) == len(names) + 1 == len(list(out.glob("impulse-*.wav")))
+    by_band = {v[len("band "):]: k for k, v in wrote.items() if v.startswith("band ")}
+    assert sorted(by_band) == sorted(names)
+    total = 0.0
+    for i, n in enumerate(names):
+        _, y = wavfile.read(by_band[n])
+        assert y[0] == pytest.approx(0.1 * 10 ** (-(i + 1) / 20), rel=1e-6)   # float32
+        total += 0.1 * 10 ** (-(i + 1) / 20)
+    (sum_file,) = [k for k, v in wrote.items() if v.startswith("sum")]
+    assert sum_file.endswith("impulse-sum.wav")
+    _, s = wavfile.read(sum_file)
+    assert s[0] == pytest.approx(total, rel=1e-6)
+
+
+def test_render_guard_stops_a_colliding_run(write_project, tmp_path, capsys, monkeypatch):
+    from planner import export
+
+    monkeypatch.setattr(export, "band_file_stems", lambda names, reserved=(): ["sum"] * len(names))
+    assert main(["render", str(write_project(_named(["a"]))), "--impulse",
+                 "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert re.search(r"impulse-sum\.wav' would be written twice in one run, for band 'a' and "
+                     r"for the sum", err), err
+    assert not (tmp_path / "o").exists()

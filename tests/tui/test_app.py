@@ -612,3 +612,19 @@ def test_a_list_of_frequencies_is_read_as_people_write_it(text):
 
     spec = next(s for s in lookup("split", "fir").fields if s.name == "crossovers")
     assert _parse_field(spec, text) == [300.0, 2800.0]
+
+
+async def test_fractional_delay_warning_shows_in_the_editor(tmp_path):
+    # The editor lists the engine's warnings: a tweeter delayed 0.48 samples at 48 kHz
+    # (0.01 ms) gets the fractional-delay warning with the cost of rounding it.
+    d = project.to_dict(presets_lib.load("two-way"))
+    d["bands"][1]["delay_ms"] = 0.01
+    path = tmp_path / "frac.json"
+    project.save(project.from_dict(d), path)
+    app = make_app(path)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        items = [w.text for w in app.query_one("#warnings")._items]
+        assert any(t.startswith("band tweeter: its delay, 0.48 samples at 48000 Hz, is not a "
+                                "whole number of samples; rounded to 0, the phase difference")
+                   for t in items), items
