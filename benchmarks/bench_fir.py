@@ -58,7 +58,7 @@ def main() -> None:
     ts = best(lambda: fir.min_taps_equiripple(spec, FS), repeat=3)
     t1 = best(single, repeat=5)
     print(f"spec: {spec.describe()} at {FS:g} Hz")
-    print(f"minimum taps found: {n} (Herrmann et al. 1973 estimate {design.estimate_taps}, "
+    print(f"minimum taps found: {n} (Kaiser 1974 estimate {design.estimate_taps}, "
           f"{design.trials} trial designs); measured ripple {design.ripple_db:.4f} dB, "
           f"attenuation {design.atten_db:.2f} dB")
     print(f"single scipy.signal.remez at {n} taps          {t1 * 1e3:8.1f} ms")

@@ -749,7 +749,8 @@ def fir_equivalent(spec: DerivedSpec, fs_hz: float, max_taps: int = dfir.DEFAULT
         # The wider transition narrowed to the narrower one: a tighter spec (so
         # the original one is still met) that remez handles well; in a wide
         # don't-care band next to a narrow one the exchange goes astray. The
-        # length is set by the narrower transition either way (Herrmann et al.).
+        # length is set by the narrower transition either way (Kaiser 1974: the
+        # length goes as one over the transition width).
         (pl, ph), (sl, sh) = spec.pass_hz, spec.stop_hz
         tw = min(pl - sl, sh - ph)
         fspec = dfir.FirSpec("bandpass", (pl, ph), (pl - tw, ph + tw), spec.ripple_db,

@@ -31,10 +31,6 @@ References
 .. [3] T. W. Parks and J. H. McClellan, "Chebyshev approximation for
    nonrecursive digital filters with linear phase", IEEE Trans. Circuit
    Theory, vol. CT-19, no. 2, pp. 189-194, 1972.
-.. [4] O. Herrmann, L. R. Rabiner and D. S. K. Chan, "Practical design rules
-   for optimum finite impulse response low-pass digital filters", Bell
-   System Technical Journal, vol. 52, no. 6, pp. 769-799, 1973 (the length
-   estimate is often credited to Herrmann, Rabiner and Schuessler).
 .. [5] F. J. Harris, "On the use of windows for harmonic analysis with the
    discrete Fourier transform", Proc. IEEE, vol. 66, no. 1, pp. 51-83, 1978.
 .. [6] T. W. Parks and C. S. Burrus, "Digital Filter Design", Wiley, 1987,
@@ -64,7 +60,6 @@ __all__ = [
     "kaiser_beta",
     "kaiser_taps",
     "kaiser_equiripple_taps",
-    "herrmann_taps",
     "estimate_taps",
     "equiripple_fir",
     "least_squares_fir",
@@ -388,38 +383,6 @@ def kaiser_equiripple_taps(ripple_db: float, atten_db: float, transition_hz: flo
     return max(3, n | 1)
 
 
-# Herrmann, Rabiner and Chan 1973 [4]: D_inf(dp, ds) and f(dp, ds) fitted for
-# dp >= ds (log10 deviations). The coefficients are quoted from memory of the
-# paper (they are also the ones reproduced in Rabiner and Gold 1975).
-_H_A = (5.309e-3, 7.114e-2, -4.761e-1, -2.66e-3, -5.941e-1, -4.278e-1)
-
-
-def herrmann_taps(ripple_db: float, atten_db: float, transition_hz: float, fs_hz: float) -> int:
-    """Length estimate of an optimum (equiripple) lowpass, Herrmann et al. 1973.
-
-    ``N = D_inf(dp, ds) / dF - f(dp, ds) dF + 1`` with ``dF = transition/fs``,
-    ``D_inf = (a1 L1^2 + a2 L1 + a3) L2 + (a4 L1^2 + a5 L1 + a6)``,
-    ``f = 11.01217 + 0.51244 (L1 - L2)``, ``L1 = log10 dp``, ``L2 = log10 ds``
-    and ``dp >= ds`` (the two are swapped otherwise: the complementary
-    filter ``delay - H`` exchanges their roles). Rounded up to odd.
-
-    References
-    ----------
-    .. [4] O. Herrmann, L. R. Rabiner and D. S. K. Chan, Bell Syst. Tech. J.
-       52(6), pp. 769-799, 1973.
-    """
-    dp, ds = _deviations(_check_positive(ripple_db, "ripple_db", "dB"), _check_atten(atten_db))
-    df = _check_positive(transition_hz, "transition_hz", "Hz") / _check_fs(fs_hz)
-    if dp < ds:
-        dp, ds = ds, dp
-    l1, l2 = math.log10(dp), math.log10(ds)
-    a1, a2, a3, a4, a5, a6 = _H_A
-    d_inf = (a1 * l1 * l1 + a2 * l1 + a3) * l2 + (a4 * l1 * l1 + a5 * l1 + a6)
-    f = 11.01217 + 0.51244 * (l1 - l2)
-    n = int(math.ceil(d_inf / df - f * df + 1.0))
-    return max(3, n | 1)
-
-
 # --------------------------------------------------------------------------
 # specifications
 
@@ -497,12 +460,20 @@ def _spec_bands(spec: FirSpec, fs_hz: float):
 
 
 def estimate_taps(spec: FirSpec, fs_hz: float) -> int:
-    """Herrmann et al. 1973 length estimate of the equiripple filter meeting ``spec``.
+    """Kaiser 1974 length estimate of the equiripple filter meeting ``spec``.
 
-    For a bandpass the narrower transition is used. See :func:`herrmann_taps`.
+    :func:`kaiser_equiripple_taps` on the spec's transition (the narrower
+    one of a bandpass). Over ripples of 0.01-1 dB, attenuations of 40-100 dB
+    and transitions of 0.005-0.1 fs it lies within -15 % and +10 % of the
+    fewest taps the search finds (see the tests); the searches start from
+    it but do not depend on it.
+
+    References
+    ----------
+    .. [2] J. F. Kaiser, Proc. IEEE ISCAS, 1974.
     """
     _, _, _, tw = _spec_bands(spec, fs_hz)
-    return herrmann_taps(spec.ripple_db, spec.atten_db, tw, fs_hz)
+    return kaiser_equiripple_taps(spec.ripple_db, spec.atten_db, tw, fs_hz)
 
 
 def _weights(spec: FirSpec, is_pass) -> list[float]:
@@ -671,7 +642,7 @@ class FirDesign:
     ripple_db, atten_db : float
         Its measured pass-band ripple and stop-band attenuation (dB).
     estimate_taps : int
-        The Herrmann et al. 1973 estimate the search started from.
+        The Kaiser 1974 estimate (:func:`estimate_taps`) the search started from.
     trials : int
         Number of designs made during the search.
     """
@@ -793,9 +764,9 @@ def _min_taps(design: Callable[[int], np.ndarray], method: str, spec: FirSpec, f
         n_best, (h, r, a, why) = value
         reached = (f"reached ripple {r:.3g} dB and attenuation {a:.3g} dB at {n_best} taps"
                    if h is not None else f"{method} failed at {n_best} taps ({why})")
-        need = (f"about {est} taps would be needed (Herrmann et al. 1973 estimate)"
+        need = (f"about {est} taps would be needed (Kaiser 1974 estimate)"
                 if est > max_taps else
-                f"the Herrmann et al. 1973 estimate is {est} taps, but {method} did not "
+                f"the Kaiser 1974 estimate is {est} taps, but {method} did not "
                 f"meet the spec up to max_taps")
         raise SpecNotMetError(
             f"{spec.describe()} not met by {method} within max_taps {max_taps} at "
@@ -809,7 +780,7 @@ def min_taps_equiripple(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX
                         cancel: Callable[[], bool] | None = None) -> FirDesign:
     """Shortest odd-length Parks-McClellan filter that meets ``spec``.
 
-    Starts from the Herrmann et al. 1973 estimate (:func:`estimate_taps`),
+    Starts from the Kaiser 1974 estimate (:func:`estimate_taps`),
     brackets the answer with a doubling step and bisects over odd lengths.
     Each trial design is measured on a dense grid (:func:`measure_spec`);
     only a design that meets both ripple and attenuation is returned.
@@ -842,7 +813,7 @@ def min_taps_equiripple(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX
     References
     ----------
     .. [3] Parks and McClellan, 1972.
-    .. [4] Herrmann, Rabiner and Chan, 1973.
+    .. [2] Kaiser, 1974.
     """
     return _min_taps(lambda n: equiripple_fir(spec, fs_hz, n), "equiripple (remez)", spec,
                      fs_hz, max_taps, progress, cancel)
@@ -855,7 +826,7 @@ def min_taps_least_squares(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_
 
     The weights are those of the equiripple design (``delta_p/delta_s`` in
     the stop band). The search is the one of :func:`min_taps_equiripple`,
-    started from the Herrmann estimate: the equiripple filter is the
+    started from the Kaiser estimate: the equiripple filter is the
     shortest that meets a minimax spec, so a least-squares one is no
     shorter and the search usually goes up from there.
 

@@ -480,7 +480,7 @@ def _with_fir_lowpass(p, **params):
 
 
 async def test_an_fir_spec_that_cannot_be_met_is_refused_and_the_edit_undone():
-    # Herrmann et al. 1973: 80 dB over 100 Hz at 48 kHz needs about 1500 taps; 101 cannot.
+    # Kaiser 1974: 80 dB over 100 Hz at 48 kHz needs about 1600 taps; 101 cannot.
     app = make_app()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
