@@ -52,6 +52,7 @@ import numpy as np
 from scipy import optimize, signal, special
 
 from planner import engine
+from planner.defaults import COMPARE_ATTEN_DB, COMPARE_RIPPLE_DB, IIR_FAMILIES
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
 from planner.dsp import iir
@@ -69,13 +70,12 @@ __all__ = [
 
 #: Default pass-band ripple of the derived spec (dB, peak to peak): the band's
 #: pass band ends where its response leaves a 1 dB window.
-DEFAULT_RIPPLE_DB = 1.0
+DEFAULT_RIPPLE_DB = COMPARE_RIPPLE_DB
 #: Default stop-band attenuation of the derived spec (dB below the nominal
 #: pass gain): the stop band starts where the response stays 60 dB down.
-DEFAULT_ATTEN_DB = 60.0
-#: ``auto``: Butterworth when an order up to 8 (the largest planner.dsp.iir
-#: designs) meets the spec, else elliptic.
-IIR_FAMILIES = ("auto", "butterworth", "elliptic")
+DEFAULT_ATTEN_DB = COMPARE_ATTEN_DB
+# IIR_FAMILIES (from planner.defaults): ``auto``: Butterworth when an order up
+# to 8 (the largest planner.dsp.iir designs) meets the spec, else elliptic.
 #: Highest elliptic order tried (sections stay well conditioned far beyond it).
 MAX_ELLIPTIC_ORDER = 40
 

@@ -47,6 +47,7 @@ import numpy as np
 
 from planner import __version__, engine, filters as fk, project as pj
 from planner.cli.check import _finite
+from planner.defaults import EXPORT_FORMATS
 from planner.dsp import quantize as qz
 from planner.dsp.response import band_responses
 from planner.dsp.signals import fft_convolve, truncate_iir_impulse
@@ -64,7 +65,7 @@ __all__ = [
 FORMAT = "crossplan-coefficients"
 VERSION = 1
 MANIFEST_FORMAT = "crossplan-export-manifest"
-FORMATS = ("json", "csv", "text", "wav")
+FORMATS = EXPORT_FORMATS
 
 #: Largest magnitude deviation (dB) of the rounded design from the float64
 #: design that still counts as holding it, above FLOOR_DB. The same values

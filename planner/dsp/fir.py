@@ -46,6 +46,7 @@ from typing import Callable, Sequence
 import numpy as np
 from scipy import signal, special
 
+from planner.defaults import MAX_TAPS
 from planner.errors import DesignError, SpecNotMetError
 
 __all__ = [
@@ -85,7 +86,7 @@ WINDOWS = ("boxcar", "triangular", "hann", "hamming", "blackman", "kaiser")
 KINDS = ("lowpass", "highpass", "bandpass")
 
 #: Largest tap count the searches try unless told otherwise.
-DEFAULT_MAX_TAPS = 8191
+DEFAULT_MAX_TAPS = MAX_TAPS
 
 
 class DesignCancelled(DesignError):
