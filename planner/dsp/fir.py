@@ -1250,7 +1250,7 @@ def complementary_split(crossovers_hz: Sequence[float], fs_hz: float, taps: int,
         else:
             sw = _check_positive(stop_weight, "stop_weight", "(relative weight)")
             lows = [signal.remez(n, [0, f - tw / 2, f + tw / 2, fs / 2], [1, 0],
-                                 weight=[1, sw], fs=fs, maxiter=40) for f in xo]
+                                 weight=[1, sw], fs=fs, maxiter=_MAXITER) for f in xo]
     else:
         raise DesignError(f"must be window, equiripple or least_squares, not {design!r}",
                           field="design")
