@@ -1,8 +1,9 @@
 """IIR versus FIR: for each band, the two designs that meet the same magnitude spec.
 
 For every band of a project the crossover filters (lowpass, highpass and the
-``fir`` family; EQ filters are left out) are read as one chain, and a
-magnitude spec is derived from that chain's own response (see
+``fir`` family; EQ filters and end-of-range filters, see :func:`end_of_range`,
+are left out and kept as they are in both builds) are read as one chain, and
+a magnitude spec is derived from that chain's own response (see
 :func:`derive_spec`). Then both ways of meeting that spec are put side by
 side:
 
@@ -52,6 +53,7 @@ import numpy as np
 from scipy import optimize, signal, special
 
 from planner import engine
+from planner.defaults import COMPARE_ATTEN_DB, COMPARE_RIPPLE_DB, IIR_FAMILIES
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
 from planner.dsp import iir
@@ -63,19 +65,18 @@ from planner.model import Filter, Project
 __all__ = [
     "DEFAULT_RIPPLE_DB", "DEFAULT_ATTEN_DB", "IIR_FAMILIES", "MAX_ELLIPTIC_ORDER",
     "DerivedSpec", "Side", "BandComparison", "Build", "Comparison",
-    "is_crossover", "derive_spec", "butterworth_order", "elliptic_order",
+    "is_crossover", "end_of_range", "derive_spec", "butterworth_order", "elliptic_order",
     "iir_equivalent", "fir_equivalent", "side_metrics", "compare_chain", "compare_project",
 ]
 
 #: Default pass-band ripple of the derived spec (dB, peak to peak): the band's
 #: pass band ends where its response leaves a 1 dB window.
-DEFAULT_RIPPLE_DB = 1.0
+DEFAULT_RIPPLE_DB = COMPARE_RIPPLE_DB
 #: Default stop-band attenuation of the derived spec (dB below the nominal
 #: pass gain): the stop band starts where the response stays 60 dB down.
-DEFAULT_ATTEN_DB = 60.0
-#: ``auto``: Butterworth when an order up to 8 (the largest planner.dsp.iir
-#: designs) meets the spec, else elliptic.
-IIR_FAMILIES = ("auto", "butterworth", "elliptic")
+DEFAULT_ATTEN_DB = COMPARE_ATTEN_DB
+# IIR_FAMILIES (from planner.defaults): ``auto``: Butterworth when an order up
+# to 8 (the largest planner.dsp.iir designs) meets the spec, else elliptic.
 #: Highest elliptic order tried (sections stay well conditioned far beyond it).
 MAX_ELLIPTIC_ORDER = 40
 
@@ -210,9 +211,12 @@ OK, NO_CROSSOVER, NOT_MET = "ok", "no crossover to compare", "spec not met"
 class BandComparison:
     """One band: its spec and both sides, or why there are none.
 
-    ``status`` is :data:`OK`, :data:`NO_CROSSOVER` (full-range EQ only) or
-    :data:`NOT_MET` (``message`` says which spec and what was reached).
-    ``own`` is ``"iir"`` or ``"fir"``: which side is the band's own design.
+    ``status`` is :data:`OK`, :data:`NO_CROSSOVER` (full-range EQ only, or
+    only end-of-range filters) or :data:`NOT_MET` (``message`` says which
+    spec and what was reached). ``own`` is ``"iir"`` or ``"fir"``: which side
+    is the band's own design. ``end_of_range`` lists the labels of the
+    band's end-of-range filters (see :func:`end_of_range`), left out of the
+    spec and kept as they are in both builds.
     """
 
     index: int
@@ -223,6 +227,7 @@ class BandComparison:
     iir: Side | None = None
     fir: Side | None = None
     message: str = ""
+    end_of_range: tuple[str, ...] = ()
 
     @property
     def multiplies_ratio(self) -> float | None:
@@ -247,7 +252,8 @@ class BandComparison:
                 "iir": None if self.iir is None else self.iir.to_dict(),
                 "fir": None if self.fir is None else self.fir.to_dict(),
                 "multiplies_ratio": self.multiplies_ratio,
-                "multiplies_ratio_direct": self.multiplies_ratio_direct}
+                "multiplies_ratio_direct": self.multiplies_ratio_direct,
+                "end_of_range": list(self.end_of_range)}
 
 
 @dataclass(frozen=True)
@@ -343,6 +349,62 @@ def _check_family(iir_family: str) -> str:
         raise DesignError(f"must be one of {', '.join(IIR_FAMILIES)}, not {iir_family!r}",
                           field="iir_family")
     return iir_family
+
+
+def _low_edge(flt: Filter) -> float:
+    """Where ``flt`` starts to pass from below (Hz; 0 for none): a highpass side."""
+    p = flt.params
+    if flt.type == "highpass" or (flt.family == "fir" and flt.type == "bandpass"):
+        return float(p["freq"])
+    if flt.type == "split" and p["band"] > 0:
+        return float(p["crossovers"][p["band"] - 1])
+    return 0.0
+
+
+def _high_edge(flt: Filter) -> float:
+    """Where ``flt`` stops passing above (Hz; infinity for none): a lowpass side."""
+    p = flt.params
+    if flt.type == "lowpass":
+        return float(p["freq"])
+    if flt.family == "fir" and flt.type == "bandpass":
+        return float(p["freq2"])
+    if flt.type == "split" and p["band"] < len(p["crossovers"]):
+        return float(p["crossovers"][p["band"]])
+    return math.inf
+
+
+def end_of_range(project: Project) -> list[set[int]]:
+    """Per band, the positions of its end-of-range filters.
+
+    A highpass (of any family) below which no other band of the project
+    passes guards the bottom of the range, as a subsonic filter under a
+    woofer does; a lowpass above which no other band passes guards the top.
+    They hand nothing over to another band, so they are no crossover: left
+    out, their gentle slopes would otherwise set the spec (a second-order
+    highpass at 25 Hz is 60 dB down only at 0.77 Hz, which no FIR of
+    sensible length resolves). Another band "passes below" a frequency when
+    none of its own highpass sides (highpass, FIR bandpass, split band above
+    the lowest) lies at or above it; "above" likewise. A project of one band
+    has no end-of-range filters: there is nothing to tell them apart from.
+    Bypassed filters count for nothing.
+    """
+    live = [[f for f in b.filters if not f.bypass] for b in project.bands]
+    lows = [max((_low_edge(f) for f in fl), default=0.0) for fl in live]
+    highs = [min((_high_edge(f) for f in fl), default=math.inf) for fl in live]
+    out: list[set[int]] = [set() for _ in project.bands]
+    if len(project.bands) < 2:
+        return out
+    for i, band in enumerate(project.bands):
+        others = [j for j in range(len(project.bands)) if j != i]
+        for k, f in enumerate(band.filters):
+            if f.bypass or f.type not in ("lowpass", "highpass"):
+                continue
+            freq = float(f.params["freq"])
+            if f.type == "highpass" and all(lows[j] >= freq for j in others):
+                out[i].add(k)
+            elif f.type == "lowpass" and all(highs[j] <= freq for j in others):
+                out[i].add(k)
+    return out
 
 
 def is_crossover(flt: Filter) -> bool:
@@ -749,7 +811,8 @@ def fir_equivalent(spec: DerivedSpec, fs_hz: float, max_taps: int = dfir.DEFAULT
         # The wider transition narrowed to the narrower one: a tighter spec (so
         # the original one is still met) that remez handles well; in a wide
         # don't-care band next to a narrow one the exchange goes astray. The
-        # length is set by the narrower transition either way (Herrmann et al.).
+        # length is set by the narrower transition either way (Kaiser 1974: the
+        # length goes as one over the transition width).
         (pl, ph), (sl, sh) = spec.pass_hz, spec.stop_hz
         tw = min(pl - sl, sh - ph)
         fspec = dfir.FirSpec("bandpass", (pl, ph), (pl - tw, ph + tw), spec.ripple_db,
@@ -802,14 +865,19 @@ def compare_chain(sos: np.ndarray, fir: np.ndarray | None, fs_hz: float, design:
     return _ChainResult("fir", spec, other, own)
 
 
-def _parts(band, fs: float):
-    """(crossover sos, crossover fir, EQ sos, EQ fir, label) of a band's live filters."""
-    xs, xf, es, ef, labels = [], None, [], None, []
-    for f in band.filters:
+def _parts(band, fs: float, kept: set[int] = frozenset()):
+    """(crossover sos, crossover fir, EQ sos, EQ fir, label, kept labels) of a band's live filters.
+
+    The filters at the positions ``kept`` (end-of-range ones) go with the EQ.
+    """
+    xs, xf, es, ef, labels, kept_labels = [], None, [], None, [], []
+    for k, f in enumerate(band.filters):
         if f.bypass:
             continue
         d = engine.design_filter(f, fs)
-        if is_crossover(f):
+        if k in kept:
+            kept_labels.append(f.label())
+        if is_crossover(f) and k not in kept:
             labels.append(f.label())
             if len(d.sos):
                 xs.append(d.sos)
@@ -824,7 +892,7 @@ def _parts(band, fs: float):
     def stack(lst):
         return np.vstack(lst) if lst else np.zeros((0, 6))
 
-    return stack(xs), xf, stack(es), ef, " + ".join(labels)
+    return stack(xs), xf, stack(es), ef, " + ".join(labels), tuple(kept_labels)
 
 
 def _scope_callbacks(progress, cancel, text: str):
@@ -873,12 +941,18 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
     fs = float(project.sample_rate)
     rep = engine.analyse(project)
     nb = len(project.bands)
-    parts = [_parts(b, fs) for b in project.bands]
+    ends = end_of_range(project)
+    parts = [_parts(b, fs, e) for b, e in zip(project.bands, ends)]
     bands: list[BandComparison] = []
-    for i, (band, (xs, xf, _, _, label)) in enumerate(zip(project.bands, parts)):
+    for i, (band, (xs, xf, _, _, label, kept)) in enumerate(zip(project.bands, parts)):
         if not len(xs) and xf is None:
-            bands.append(BandComparison(i, band.name, NO_CROSSOVER))
+            msg = (f"only end-of-range filters ({', '.join(kept)}), kept as they are in both "
+                   "builds" if kept else "")
+            bands.append(BandComparison(i, band.name, NO_CROSSOVER, message=msg,
+                                        end_of_range=kept))
             continue
+        if kept:
+            label += f"; {', '.join(kept)} kept on both sides (end of range)"
         prog, canc = _scope_callbacks(progress, cancel,
                                       f"compare: band {band.name}, FIR equivalent")
         sub = None
@@ -891,9 +965,10 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
         except SpecNotMetError as e:
             bands.append(BandComparison(i, band.name, NOT_MET,
                                         own="fir" if xf is not None else "iir",
-                                        message=f"band {band.name}: {e}"))
+                                        message=f"band {band.name}: {e}", end_of_range=kept))
             continue
-        bands.append(BandComparison(i, band.name, OK, c.own, c.spec, c.iir, c.fir))
+        bands.append(BandComparison(i, band.name, OK, c.own, c.spec, c.iir, c.fir,
+                                    end_of_range=kept))
     if progress is not None:
         progress(1.0)
     return Comparison(project.name, fs, r, a, iir_family, bands,
@@ -909,7 +984,7 @@ def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComp
     if missing:
         return Build(family, False, missing)
     chains, delta = [], []
-    for b, (xs, xf, es, ef, _), own in zip(bands, parts, rep.designs):
+    for b, (xs, xf, es, ef, _, _), own in zip(bands, parts, rep.designs):
         if b.status != OK:
             chains.append(None)
             delta.append(0.0)
@@ -921,7 +996,8 @@ def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComp
     top = max(delta) if delta else 0.0
     align = [top - d for d in delta]
     designs = []
-    for (b, (xs, xf, es, ef, _), own, side, al) in zip(bands, parts, rep.designs, chains, align):
+    for (b, (xs, xf, es, ef, _, _), own, side, al) in zip(bands, parts, rep.designs, chains,
+                                                          align):
         if side is None:
             designs.append(own)
             continue

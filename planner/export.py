@@ -60,6 +60,7 @@ import numpy as np
 
 from planner import __version__, engine, filters as fk, project as pj
 from planner.cli.check import _finite
+from planner.defaults import EXPORT_FORMATS
 from planner.dsp import quantize as qz
 from planner.dsp import sections as dsec
 from planner.dsp.response import band_responses
@@ -80,7 +81,7 @@ __all__ = [
 FORMAT = "crossplan-coefficients"
 VERSION = 1
 MANIFEST_FORMAT = "crossplan-export-manifest"
-FORMATS = ("json", "csv", "text", "wav")
+FORMATS = EXPORT_FORMATS
 
 #: How each band's sections are laid out: each filter's own sections in
 #: chain order (the default), or re-paired and re-ordered for fixed point.

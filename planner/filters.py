@@ -260,7 +260,8 @@ def _crossover_kind(type_: str, family: str) -> FilterKind:
     if family == "bessel":
         fields.append(FieldSpec("norm", "choice", required=False, default="phase",
                                 choices=iir.BESSEL_NORMS,
-                                help="phase: Butterworth-like phase at freq; delay; mag: -3 dB"))
+                                help="phase: Butterworth-like phase at freq; delay: lowpass DC "
+                                     "group delay 1/(2 pi freq); mag: -3 dB"))
 
     def _design(p, fs):
         return FilterDesign(iir.crossover_sos(family, type_, p["order"], p["freq"], fs,

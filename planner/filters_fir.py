@@ -33,8 +33,6 @@ References
    window function", Proc. IEEE ISCAS, 1974, pp. 20-23.
 .. [3] T. W. Parks and J. H. McClellan, IEEE Trans. Circuit Theory CT-19(2),
    1972, pp. 189-194.
-.. [4] O. Herrmann, L. R. Rabiner and D. S. K. Chan, Bell Syst. Tech. J.
-   52(6), 1973, pp. 769-799.
 """
 
 from __future__ import annotations
@@ -317,9 +315,9 @@ def _fixed(p: Mapping[str, Any], kind: str, fs_hz: float, spec: fir.FirSpec) -> 
         return h
     est = fir.estimate_taps(spec, fs_hz)
     if est > n:
-        need = f"about {est} taps would be needed (Herrmann et al. 1973 estimate)"
+        need = f"about {est} taps would be needed (Kaiser 1974 estimate)"
     else:
-        need = (f"the Herrmann et al. 1973 estimate for an equiripple design is {est} taps, "
+        need = (f"the Kaiser 1974 estimate for an equiripple design is {est} taps, "
                 f"but {what} needs more")
     raise _not_met(f"{spec.describe()} not met by {what} at {n} taps, {fs_hz:g} Hz: reached "
                    f"ripple {ripple:.3g} dB and attenuation {atten:.3g} dB; {need}; omit taps "

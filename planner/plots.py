@@ -15,12 +15,11 @@ from typing import Sequence
 
 import numpy as np
 
+from planner.defaults import PLOT_VIEWS as VIEWS, TIME_VIEWS
+
 __all__ = ["Series", "freq_plot", "time_plot", "VIEWS", "TIME_VIEWS", "use_color",
            "downsample_log"]
 
-VIEWS = ("magnitude", "phase", "delay")
-#: Views on a time axis (ms): impulse and step responses.
-TIME_VIEWS = ("impulse", "step")
 
 _FREQ_TICKS = (10, 20, 50, 100, 200, 500, 1e3, 2e3, 5e3, 1e4, 2e4, 5e4, 1e5)
 _COLORS = ("blue", "orange", "green", "magenta", "cyan", "red", "yellow", "gray")

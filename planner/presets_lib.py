@@ -6,11 +6,14 @@ import json
 from importlib import resources
 from pathlib import Path
 
-from planner import project
-from planner.errors import ProjectError
-from planner.model import Project
+from typing import TYPE_CHECKING
 
-__all__ = ["DEMO", "names", "text", "load", "describe"]
+from planner.errors import ProjectError
+
+if TYPE_CHECKING:
+    from planner.model import Project
+
+__all__ = ["DEMO", "names", "text", "load", "describe", "title"]
 
 #: The project opened by ``crossplan`` with no file.
 DEMO = "two-way"
@@ -42,11 +45,18 @@ def text(name: str) -> str:
 
 
 def load(name: str) -> Project:
-    """Preset ``name`` as a checked project."""
+    """Preset ``name`` as a checked project (this designs its filters)."""
+    from planner import project
+
     return project.loads(text(name))
 
 
 def describe(name: str) -> str:
-    """The preset's project name and its description (``"description"`` key)."""
+    """The preset's description (``"description"`` key), else its project name."""
     raw = json.loads(text(name))
     return raw.get("description") or raw.get("name", "")
+
+
+def title(name: str) -> str:
+    """The preset's project name (``"name"`` key), read without checking the project."""
+    return json.loads(text(name)).get("name", "")

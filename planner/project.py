@@ -14,12 +14,12 @@ from __future__ import annotations
 import json
 import math
 import os
-import tempfile
 from pathlib import Path
 from typing import Any, Mapping
 
 from planner import filters as fk
 from planner.errors import CrossplanError, ProjectError
+from planner.files import atomic_write_text
 from planner.model import FORMAT, VERSION, Analysis, Band, Filter, Project
 
 __all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
@@ -280,33 +280,6 @@ def load(path: str | os.PathLike, design: bool = True) -> Project:
     except (OSError, UnicodeDecodeError) as e:
         raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
     return loads(text, design)
-
-
-def atomic_write_text(path: str | os.PathLike, text: str) -> None:
-    """Write ``text`` to ``path`` so that a crash never leaves a half-written file.
-
-    The text goes to a temporary file in the same folder, is flushed to disk,
-    and is then renamed over ``path`` (an atomic step on POSIX and Windows).
-    """
-    p = Path(path)
-    folder = p.parent if str(p.parent) else Path(".")
-    fd, tmp = tempfile.mkstemp(prefix=f".{p.name}.", suffix=".tmp", dir=folder)
-    try:
-        with os.fdopen(fd, "w", encoding="utf-8", newline="\n") as fh:
-            fh.write(text)
-            fh.flush()
-            os.fsync(fh.fileno())
-        if p.exists():
-            os.chmod(tmp, p.stat().st_mode & 0o7777)
-        else:
-            os.chmod(tmp, 0o644)
-        os.replace(tmp, p)
-    except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
-        raise
 
 
 def save(project: Project, path: str | os.PathLike) -> None:

@@ -279,3 +279,94 @@ class TestProject:
         assert [b.own for b in c.bands] == ["fir", "fir", "fir"]
         assert all(b.iir.design.startswith("elliptic") for b in c.bands)
         assert abs(c.fir_sum.max_dev_db) < 1e-9
+
+
+@pytest.fixture(scope="module")
+def two_way_preset():
+    from planner import presets_lib
+
+    return presets_lib.load("two-way")   # woofer: BW2 highpass 25 Hz + LR4 lowpass 2.4 kHz
+
+
+class TestEndOfRange:
+    """Subsonic and ultrasonic filters: no other band passes beyond them."""
+
+    def test_the_subsonic_highpass_is_the_end_of_range(self, two_way_preset):
+        assert compare.end_of_range(two_way_preset) == [{0}, set()]
+
+    def test_the_woofer_is_compared_on_its_crossover(self, two_way_preset, monkeypatch):
+        # Without the subsonic filter the woofer's spec is its LR4 lowpass's: the
+        # 1 dB and 60 dB points of |H| = 1 / (1 + x^4) on the prewarped axis,
+        # x^4 = 10^(1/20) - 1 and 1 + x^4 = 10^3 / g with g the nominal gain
+        # (Linkwitz and Riley 1976; Oppenheim and Schafer sec. 7.2), not a stop
+        # band below 1 Hz. Every remez call stays short (counted on
+        # scipy.signal.remez itself).
+        calls = []
+        real = signal.remez
+
+        def counting(numtaps, *a, **k):
+            calls.append(numtaps)
+            return real(numtaps, *a, **k)
+
+        monkeypatch.setattr(signal, "remez", counting)
+        dfir.clear_design_cache()
+        c = compare.compare_project(two_way_preset)
+        w = c.bands[0]
+        assert w.status == compare.OK and w.end_of_range == ("BW2 highpass 25 Hz",)
+        assert w.spec.kind == "lowpass"
+        t = np.tan(np.pi * 2400.0 / FS)
+        fp = FS / np.pi * np.arctan(t * (10 ** (1 / 20) - 1) ** 0.25)
+        assert w.spec.pass_hz == pytest.approx(fp, rel=1e-7)       # root finding to 1e-9
+        g = (1 + 10 ** (-1 / 20)) / 2
+        x4 = 1e3 / g - 1
+        fs_ = FS / np.pi * np.arctan(t * x4 ** 0.25)
+        assert w.spec.stop_hz == pytest.approx(fs_, rel=1e-6)
+        assert "kept on both sides (end of range)" in w.iir.design
+        assert calls and max(calls) < 100
+
+    def test_the_subsonic_filter_stays_in_both_builds(self, two_way_preset):
+        # The IIR build is the project itself (the same flatness as the check),
+        # and the FIR build still holds the BW2 highpass's sections.
+        c = compare.compare_project(two_way_preset)
+        assert c.iir_sum.max_dev_db == pytest.approx(engine.analyse(two_way_preset).max_dev_db,
+                                                     abs=1e-12)
+        bw2 = iir.butterworth_sos("highpass", 2, 25.0, FS)
+        woofer = c.fir_sum.designs[0]
+        assert any(np.allclose(row, bw2[0]) for row in woofer.sos)
+
+    def test_a_lowpass_above_every_other_band_is_the_end_of_range(self):
+        d = two_way(order=4, fc=2000.0)
+        d["bands"][1]["filters"].append({"type": "lowpass", "family": "butterworth",
+                                         "order": 2, "freq": 20000})
+        p = project.from_dict(d)
+        assert compare.end_of_range(p) == [set(), {1}]
+        assert compare.compare_project(p).bands[1].end_of_range == ("BW2 lowpass 20 kHz",)
+
+    def test_a_highpass_with_a_band_below_it_is_a_crossover(self):
+        # The satellites' LR2 highpass at 90 Hz hands the bass to the sub: compared.
+        from planner import presets_lib
+
+        assert compare.end_of_range(presets_lib.load("sub-sat")) == [set(), set()]
+
+    def test_a_band_of_end_of_range_filters_only_says_so(self):
+        d = two_way(order=4, fc=2000.0)
+        d["bands"].insert(0, {"name": "sub", "filters": [
+            {"type": "highpass", "family": "butterworth", "order": 2, "freq": 20}]})
+        d["bands"][1]["filters"].insert(0, {"type": "highpass", "family": "butterworth",
+                                            "order": 2, "freq": 20})
+        c = compare.compare_project(project.from_dict(d))
+        assert c.bands[0].status == compare.NO_CROSSOVER
+        assert c.bands[0].message == ("only end-of-range filters (BW2 highpass 20 Hz), kept as "
+                                      "they are in both builds")
+        assert c.bands[1].end_of_range == ("BW2 highpass 20 Hz",)
+        assert c.to_dict()["bands"][1]["end_of_range"] == ["BW2 highpass 20 Hz"]
+
+    def test_a_project_of_one_band_has_none(self):
+        d = two_way(order=4, fc=2000.0)
+        d["bands"] = d["bands"][:1]
+        assert compare.end_of_range(project.from_dict(d)) == [set()]
+
+    def test_bypassed_filters_count_for_nothing(self, two_way_preset):
+        d = project.to_dict(two_way_preset)
+        d["bands"][0]["filters"][0]["bypass"] = True
+        assert compare.end_of_range(project.from_dict(d)) == [set(), set()]

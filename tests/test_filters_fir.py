@@ -5,8 +5,8 @@ library; J. F. Kaiser, "Nonrecursive digital filter design using the I0-sinh
 window function", Proc. IEEE ISCAS 1974 (beta and length formulas, as given in
 Oppenheim and Schafer, "Discrete-Time Signal Processing", 3rd ed., eqs. 7.62
 and 7.63); Oppenheim and Schafer sec. 5.7.3 (type I linear phase needs an odd
-length for a highpass: a type II filter has a zero at Nyquist); Herrmann,
-Rabiner and Chan 1973 (the length estimate quoted in refusals).
+length for a highpass: a type II filter has a zero at Nyquist); Kaiser 1974
+also for the equiripple length estimate quoted in refusals.
 """
 
 import copy
@@ -180,7 +180,7 @@ class TestFixedLength:
 
     def test_missed_spec_is_refused_with_reached_and_needed(self):
         spec = fir.FirSpec("lowpass", 2150.0, 2250.0, 0.1, 80.0)
-        need = fir.estimate_taps(spec, FS)     # Herrmann et al. 1973
+        need = fir.estimate_taps(spec, FS)     # Kaiser 1974
         with pytest.raises(FirSpecNotMetError,
                            match=r"^bands\[0\]\.filters\[0\]\.taps: lowpass spec \(pass edge "
                                  r"2150 Hz, stop edge 2250 Hz, ripple 0\.1 dB, attenuation 80 dB\)"

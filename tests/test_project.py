@@ -169,7 +169,7 @@ def _impossible_fir(example):
 
 
 def test_loading_designs_and_refuses_an_fir_spec_that_cannot_be_met(example):
-    # Herrmann et al. 1973: about 1600 taps are needed for 80 dB over 100 Hz at 48 kHz.
+    # Kaiser 1974: about 1600 taps are needed for 80 dB over 100 Hz at 48 kHz.
     with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps: .*max_taps 101"):
         project.from_dict(_impossible_fir(example))
 

@@ -3,8 +3,15 @@
 ``main(argv)`` runs any command in-process and returns its exit code:
 0 when every check passes, 1 when a check fails (or a design spec cannot be
 met), 2 when the input is invalid. Commands live in small modules of this
-package; each has ``add_arguments(parser)`` and ``run(args) -> int``. This
-package never imports textual (only the ``edit`` command does, when run).
+package; each has ``add_arguments(parser, name)`` and ``run(args) -> int``.
+
+Parsing stays light: only the chosen command's module is imported to add its
+arguments (the top-level help lists the commands from :data:`COMMANDS`), the
+command modules import nothing of the numerical core at module level (their
+choices and defaults come from :mod:`planner.defaults`), and the core is
+imported when the command runs. So ``crossplan --help``, ``--version``,
+``presets``, ``new`` and ``COMMAND --help`` import neither numpy nor scipy.
+This package never imports textual (only the ``edit`` command does, when run).
 """
 
 from __future__ import annotations
@@ -46,7 +53,13 @@ class _UsageError(Exception):
     pass
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(command: str | None = None) -> argparse.ArgumentParser:
+    """The ``crossplan`` parser, with the arguments of ``command`` only.
+
+    Every command is listed (name and one-line help, from :data:`COMMANDS`),
+    but only ``command``'s module is imported to add its arguments; with
+    ``command=None`` none is, which is enough for ``--help`` and ``--version``.
+    """
     parser = _Parser(
         prog="crossplan",
         description="Plan and check multi-band loudspeaker crossovers and EQ. "
@@ -55,7 +68,8 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     for name, (mod, help_) in COMMANDS.items():
         p = sub.add_parser(name, help=help_, description=help_)
-        importlib.import_module(mod).add_arguments(p, name)
+        if name == command:
+            importlib.import_module(mod).add_arguments(p, name)
         p.set_defaults(_module=mod)
     return parser
 
@@ -67,7 +81,7 @@ def main(argv: list[str] | None = None) -> int:
     # ``crossplan`` and ``crossplan FILE`` open the editor.
     if not argv or (argv[0] not in names and not argv[0].startswith("-")):
         argv = ["edit", *argv]
-    parser = build_parser()
+    parser = build_parser(argv[0] if argv[0] in names else None)
     try:
         args = parser.parse_args(argv)
     except _UsageError as e:

@@ -1,9 +1,15 @@
-"""Helpers shared by the commands: loading a project or the demo; progress bar and cancel."""
+"""Helpers shared by the commands: loading a project or the demo; progress bar and cancel.
+
+Imported while the arguments are parsed, so it imports nothing of the
+numerical core at module level (see :mod:`planner.cli`).
+"""
 
 from __future__ import annotations
 
-from planner import presets_lib as presets, project
-from planner.model import Project
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from planner.model import Project
 
 
 def positive_number(unit: str):
@@ -28,6 +34,8 @@ def load_project(path: str | None, design: bool = True) -> Project:
     ``design=False`` checks every field but leaves the designs to the
     analysis (the editor, which designs in a worker with progress).
     """
+    from planner import presets_lib as presets, project
+
     if path is None:
         return presets.load(presets.DEMO)
     return project.load(path, design)

@@ -11,8 +11,8 @@ import argparse
 import json
 
 from planner.cli.common import positive_number
-from planner.compare import DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, IIR_FAMILIES
-from planner.report import compare_text
+from planner.defaults import (COMPARE_ATTEN_DB as DEFAULT_ATTEN_DB,
+                              COMPARE_RIPPLE_DB as DEFAULT_RIPPLE_DB, IIR_FAMILIES, MAX_TAPS)
 
 
 _db_value = positive_number("dB")
@@ -41,7 +41,7 @@ def add_arguments(p, name):
                    help="IIR equivalents of FIR bands: auto (Butterworth up to order 8, "
                         "else elliptic), butterworth or elliptic")
     p.add_argument("--max-taps", type=_taps_value, default=None, metavar="N",
-                   help="longest FIR equivalent tried (default 8191)")
+                   help=f"longest FIR equivalent tried (default {MAX_TAPS})")
 
 
 def run(args) -> int:
@@ -56,6 +56,7 @@ def _run(args) -> int:
     from planner.cli.common import load_project
     from planner.dsp.fir import DEFAULT_MAX_TAPS
     from planner.errors import ProjectError
+    from planner.report import compare_text
 
     if not args.atten_db > args.ripple_db:
         raise ProjectError(f"{args.atten_db:g} dB must be above --ripple-db "

@@ -16,7 +16,7 @@ import sys
 
 
 def add_arguments(p, name):
-    from planner.export import FORMATS
+    from planner.defaults import EXPORT_FORMATS as FORMATS
 
     p.add_argument("file", metavar="FILE", help="project file (JSON)")
     p.add_argument("--rate", type=float, action="append", metavar="HZ",

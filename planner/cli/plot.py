@@ -5,7 +5,7 @@ from __future__ import annotations
 import shutil
 
 from planner.cli.common import positive_number
-from planner.plots import TIME_VIEWS, VIEWS
+from planner.defaults import PLOT_VIEWS as VIEWS, TIME_VIEWS
 
 
 def add_arguments(p, name):

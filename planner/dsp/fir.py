@@ -31,10 +31,6 @@ References
 .. [3] T. W. Parks and J. H. McClellan, "Chebyshev approximation for
    nonrecursive digital filters with linear phase", IEEE Trans. Circuit
    Theory, vol. CT-19, no. 2, pp. 189-194, 1972.
-.. [4] O. Herrmann, L. R. Rabiner and D. S. K. Chan, "Practical design rules
-   for optimum finite impulse response low-pass digital filters", Bell
-   System Technical Journal, vol. 52, no. 6, pp. 769-799, 1973 (the length
-   estimate is often credited to Herrmann, Rabiner and Schuessler).
 .. [5] F. J. Harris, "On the use of windows for harmonic analysis with the
    discrete Fourier transform", Proc. IEEE, vol. 66, no. 1, pp. 51-83, 1978.
 .. [6] T. W. Parks and C. S. Burrus, "Digital Filter Design", Wiley, 1987,
@@ -44,12 +40,15 @@ References
 from __future__ import annotations
 
 import math
+import threading
+from collections import OrderedDict
 from dataclasses import dataclass
 from typing import Callable, Sequence
 
 import numpy as np
 from scipy import signal, special
 
+from planner.defaults import MAX_TAPS
 from planner.errors import DesignError, SpecNotMetError
 
 __all__ = [
@@ -64,13 +63,13 @@ __all__ = [
     "kaiser_beta",
     "kaiser_taps",
     "kaiser_equiripple_taps",
-    "herrmann_taps",
     "estimate_taps",
     "equiripple_fir",
     "least_squares_fir",
     "measure_spec",
     "min_taps_equiripple",
     "min_taps_least_squares",
+    "clear_design_cache",
     "complementary_split",
     "fir_response",
     "fir_response_and_derivative",
@@ -90,7 +89,10 @@ WINDOWS = ("boxcar", "triangular", "hann", "hamming", "blackman", "kaiser")
 KINDS = ("lowpass", "highpass", "bandpass")
 
 #: Largest tap count the searches try unless told otherwise.
-DEFAULT_MAX_TAPS = 8191
+DEFAULT_MAX_TAPS = MAX_TAPS
+
+#: Most exchanges of the equiripple designs (scipy.signal.remez's maxiter).
+_MAXITER = 100
 
 
 class DesignCancelled(DesignError):
@@ -388,38 +390,6 @@ def kaiser_equiripple_taps(ripple_db: float, atten_db: float, transition_hz: flo
     return max(3, n | 1)
 
 
-# Herrmann, Rabiner and Chan 1973 [4]: D_inf(dp, ds) and f(dp, ds) fitted for
-# dp >= ds (log10 deviations). The coefficients are quoted from memory of the
-# paper (they are also the ones reproduced in Rabiner and Gold 1975).
-_H_A = (5.309e-3, 7.114e-2, -4.761e-1, -2.66e-3, -5.941e-1, -4.278e-1)
-
-
-def herrmann_taps(ripple_db: float, atten_db: float, transition_hz: float, fs_hz: float) -> int:
-    """Length estimate of an optimum (equiripple) lowpass, Herrmann et al. 1973.
-
-    ``N = D_inf(dp, ds) / dF - f(dp, ds) dF + 1`` with ``dF = transition/fs``,
-    ``D_inf = (a1 L1^2 + a2 L1 + a3) L2 + (a4 L1^2 + a5 L1 + a6)``,
-    ``f = 11.01217 + 0.51244 (L1 - L2)``, ``L1 = log10 dp``, ``L2 = log10 ds``
-    and ``dp >= ds`` (the two are swapped otherwise: the complementary
-    filter ``delay - H`` exchanges their roles). Rounded up to odd.
-
-    References
-    ----------
-    .. [4] O. Herrmann, L. R. Rabiner and D. S. K. Chan, Bell Syst. Tech. J.
-       52(6), pp. 769-799, 1973.
-    """
-    dp, ds = _deviations(_check_positive(ripple_db, "ripple_db", "dB"), _check_atten(atten_db))
-    df = _check_positive(transition_hz, "transition_hz", "Hz") / _check_fs(fs_hz)
-    if dp < ds:
-        dp, ds = ds, dp
-    l1, l2 = math.log10(dp), math.log10(ds)
-    a1, a2, a3, a4, a5, a6 = _H_A
-    d_inf = (a1 * l1 * l1 + a2 * l1 + a3) * l2 + (a4 * l1 * l1 + a5 * l1 + a6)
-    f = 11.01217 + 0.51244 * (l1 - l2)
-    n = int(math.ceil(d_inf / df - f * df + 1.0))
-    return max(3, n | 1)
-
-
 # --------------------------------------------------------------------------
 # specifications
 
@@ -497,12 +467,20 @@ def _spec_bands(spec: FirSpec, fs_hz: float):
 
 
 def estimate_taps(spec: FirSpec, fs_hz: float) -> int:
-    """Herrmann et al. 1973 length estimate of the equiripple filter meeting ``spec``.
+    """Kaiser 1974 length estimate of the equiripple filter meeting ``spec``.
 
-    For a bandpass the narrower transition is used. See :func:`herrmann_taps`.
+    :func:`kaiser_equiripple_taps` on the spec's transition (the narrower
+    one of a bandpass). Over ripples of 0.01-1 dB, attenuations of 40-100 dB
+    and transitions of 0.005-0.1 fs it lies within -15 % and +11 % of the
+    fewest taps the search finds (see the tests); the searches start from
+    it but do not depend on it.
+
+    References
+    ----------
+    .. [2] J. F. Kaiser, Proc. IEEE ISCAS, 1974.
     """
     _, _, _, tw = _spec_bands(spec, fs_hz)
-    return herrmann_taps(spec.ripple_db, spec.atten_db, tw, fs_hz)
+    return kaiser_equiripple_taps(spec.ripple_db, spec.atten_db, tw, fs_hz)
 
 
 def _weights(spec: FirSpec, is_pass) -> list[float]:
@@ -512,13 +490,15 @@ def _weights(spec: FirSpec, is_pass) -> list[float]:
     return [1.0 if p else dp / ds for p in is_pass]
 
 
-def equiripple_fir(spec: FirSpec, fs_hz: float, taps: int, maxiter: int = 40,
+def equiripple_fir(spec: FirSpec, fs_hz: float, taps: int, maxiter: int = _MAXITER,
                    grid_density: int = 16) -> np.ndarray:
     """Parks-McClellan (equiripple) design of ``spec`` at a fixed odd length.
 
     Weights are ``1`` in the pass band and ``delta_p / delta_s`` in the stop
     band, so that the equal weighted ripple splits as the spec asks. The
     result is not checked against the spec (see :func:`min_taps_equiripple`).
+    Designs are kept in the design cache (see :func:`clear_design_cache`):
+    the same spec, rate, length and settings are designed once.
 
     Parameters
     ----------
@@ -527,18 +507,35 @@ def equiripple_fir(spec: FirSpec, fs_hz: float, taps: int, maxiter: int = 40,
     taps : int
         Odd length (type I).
     maxiter, grid_density : int
-        Passed to :func:`scipy.signal.remez`.
+        Passed to :func:`scipy.signal.remez`. Most designs converge in well
+        under 40 exchanges; some steep ones at high attenuation need more,
+        and scipy then returns the unconverged design without a word (10 dB
+        or more off the spec where a converged one meets it), hence 100.
 
     Returns
     -------
     ndarray, shape (taps,)
+        A fresh array (the cached one is read-only).
+
+    Raises
+    ------
+    ValueError
+        As :func:`scipy.signal.remez` when the exchange does not converge.
 
     References
     ----------
     .. [3] Parks and McClellan, IEEE Trans. Circuit Theory CT-19(2), 1972.
     """
-    bands, desired, is_pass, _ = _spec_bands(spec, fs_hz)
+    _spec_bands(spec, fs_hz)
     n = _check_taps(taps, odd=True)
+    entry = _design(_REMEZ, spec, float(fs_hz), n, int(grid_density), int(maxiter))
+    if entry.taps is None:
+        raise ValueError(entry.error)
+    return entry.taps.copy()
+
+
+def _remez(spec: FirSpec, fs_hz: float, n: int, grid_density: int, maxiter: int) -> np.ndarray:
+    bands, desired, is_pass, _ = _spec_bands(spec, fs_hz)
     edges = [f for b in bands for f in b]
     return signal.remez(n, edges, desired, weight=_weights(spec, is_pass), fs=float(fs_hz),
                         maxiter=maxiter, grid_density=grid_density)
@@ -657,6 +654,117 @@ def measure_spec(taps: np.ndarray, spec: FirSpec, fs_hz: float) -> tuple[float, 
 
 
 # --------------------------------------------------------------------------
+# design cache (shared by the fixed-length designs and the searches)
+
+_REMEZ, _FIRLS = "remez", "firls"
+
+#: Grid density of the bracketing trials of the equiripple search (half of
+#: scipy.signal.remez's default 16, which the final designs use): at 1625
+#: taps it costs about 0.75 of a full design, and the attenuation it reaches
+#: is within about 0.15 dB of the full design's.
+_COARSE_DENSITY = 8
+#: Full grid density (scipy.signal.remez's default).
+_FULL_DENSITY = 16
+#: Most taps the design cache holds, over all its designs (8 bytes each).
+_CACHE_VALUES = 1 << 21
+
+
+class _Entry:
+    """One cached design: its taps (read-only) or why it failed, and its measure per spec."""
+
+    __slots__ = ("taps", "error", "measured")
+
+    def __init__(self, taps: np.ndarray | None, error: str = ""):
+        self.taps, self.error, self.measured = taps, error, None
+
+
+class _DesignCache:
+    """Designs by (method, spec, rate, taps, settings); the least recently used go first.
+
+    Shared by the command line and the editor's worker threads (one lock
+    around the table; two threads asking for the same new design may both
+    make it, and the later one is kept).
+    """
+
+    def __init__(self, max_values: int):
+        self.max_values = max_values
+        self._table: OrderedDict[tuple, _Entry] = OrderedDict()
+        self._values = 0
+        self._lock = threading.Lock()
+
+    def get(self, key: tuple) -> _Entry | None:
+        with self._lock:
+            e = self._table.get(key)
+            if e is not None:
+                self._table.move_to_end(key)
+            return e
+
+    def put(self, key: tuple, entry: _Entry) -> None:
+        size = 0 if entry.taps is None else len(entry.taps)
+        with self._lock:
+            old = self._table.pop(key, None)
+            if old is not None and old.taps is not None:
+                self._values -= len(old.taps)
+            self._table[key] = entry
+            self._values += size
+            while self._values > self.max_values and len(self._table) > 1:
+                _, e = self._table.popitem(last=False)
+                if e.taps is not None:
+                    self._values -= len(e.taps)
+
+    def clear(self) -> None:
+        with self._lock:
+            self._table.clear()
+            self._values = 0
+
+    def __len__(self) -> int:
+        return len(self._table)
+
+
+_CACHE = _DesignCache(_CACHE_VALUES)
+
+
+def clear_design_cache() -> None:
+    """Forget every cached equiripple and least-squares design (for timing, or to free memory).
+
+    :func:`equiripple_fir`, :func:`min_taps_equiripple` and
+    :func:`min_taps_least_squares` keep their designs, keyed by method,
+    spec, sample rate, length and design settings, in one table of at most
+    about two million taps (16 MB), the least recently used dropped first.
+    """
+    _CACHE.clear()
+
+
+def _spec_key(spec: FirSpec) -> tuple:
+    def edges(v):
+        return tuple(float(x) for x in np.atleast_1d(np.asarray(v, dtype=float)))
+    return (spec.kind, edges(spec.pass_hz), edges(spec.stop_hz), float(spec.ripple_db),
+            float(spec.atten_db))
+
+
+def _design(method: str, spec: FirSpec, fs: float, n: int, grid_density: int = _FULL_DENSITY,
+            maxiter: int = _MAXITER) -> _Entry:
+    """The cached design of ``spec`` at ``n`` taps (``spec`` already checked)."""
+    key = (method, _spec_key(spec), fs, n) + ((grid_density, maxiter) if method == _REMEZ else ())
+    entry = _CACHE.get(key)
+    if entry is None:
+        try:
+            h = (_remez(spec, fs, n, grid_density, maxiter) if method == _REMEZ
+                 else _least_squares_spec(spec, fs, n))
+        except (ValueError, np.linalg.LinAlgError) as exc:   # no convergence / singular
+            entry = _Entry(None, str(exc) or type(exc).__name__)
+        else:
+            if np.all(np.isfinite(h)):
+                h = np.asarray(h, dtype=float)
+                h.setflags(write=False)
+                entry = _Entry(h)
+            else:
+                entry = _Entry(None, "non-finite taps")
+        _CACHE.put(key, entry)
+    return entry
+
+
+# --------------------------------------------------------------------------
 # minimum-length search (shared by the equiripple and least-squares designs)
 
 
@@ -671,9 +779,11 @@ class FirDesign:
     ripple_db, atten_db : float
         Its measured pass-band ripple and stop-band attenuation (dB).
     estimate_taps : int
-        The Herrmann et al. 1973 estimate the search started from.
+        The Kaiser 1974 estimate (:func:`estimate_taps`) the search started from.
     trials : int
-        Number of designs made during the search.
+        Number of trial designs the search looked at (made, or taken from
+        the design cache), the bracketing ones at the lower grid density
+        included.
     """
 
     taps: np.ndarray
@@ -688,120 +798,313 @@ class FirDesign:
         return len(self.taps)
 
 
-def _odd(n: float) -> int:
-    return int(n) | 1
+def _ceil_odd(x: float) -> int:
+    """The smallest odd whole number >= ``x``."""
+    n = int(math.ceil(x - 1e-9))
+    return n if n % 2 else n + 1
 
 
-def _search_min_odd(trial: Callable[[int], tuple[bool, object]], n_start: int, max_taps: int,
-                    progress: Callable[[float], None] | None,
-                    cancel: Callable[[], bool] | None):
-    """Smallest odd ``n`` in ``[3, max_taps]`` with ``trial(n)[0]`` true.
+def _round_odd(x: float) -> int:
+    """The odd whole number nearest to ``x``."""
+    return 2 * int(math.floor((x - 1.0) / 2.0 + 0.5)) + 1
 
-    Assumes the spec is met monotonically in ``n`` (true of exact minimax
-    designs: the type I amplitudes of length N are a subset of those of
-    length N + 2). Brackets from ``n_start`` with a step that doubles, then
-    bisects over odd lengths. Returns ``(n, value, trials)`` or
-    ``(None, best_failing_(n, value), trials)`` when even ``max_taps`` fails.
+
+#: Margins (dB) beyond this are clipped: a design that far off says only "far".
+_MARGIN_CLIP_DB = 300.0
+#: A trial whose predicted length is more than this fraction away (or 4 taps)
+#: is followed by a bracketing trial at the lower grid density; a closer one
+#: by a full design. (At 95-100 dB the coarse designs' margins scatter by a
+#: few dB, so they only serve to get near.)
+_COARSE_STEP = 0.1
+#: A secant through a coarse and a full trial needs margins this far apart
+#: (dB), well above what the grid density changes.
+_MIXED_SECANT_DB = 1.5
+#: Secant slopes are kept between 1/_SLOPE_LOW and _SLOPE_RANGE times the
+#: nominal (Kaiser) slope: two noisy margins close together give any slope.
+_SLOPE_LOW, _SLOPE_RANGE = 2.0, 3.0
+#: Fraction of the way a prediction from one full trial and the nominal slope
+#: goes: near the crossing the margin usually grows 1.5-2 times faster.
+_DAMP = 0.67
+#: Allowance (dB) of the downward check, at least: see :func:`_descent_floor`.
+_NOISE_FLOOR_DB = 0.05
+#: Full trials nearest the answer that the downward check fits its line to.
+_FIT_POINTS = 5
+#: The margin's jitter from one length to the next, in odd steps of the
+#: nominal slope (measured over the tests' sweeps: within about 1.5 steps).
+_JITTER_STEPS = 1.5
+#: Most extra full designs the downward check makes.
+_MAX_DESCENT = 8
+#: Most trials of the prediction step (it takes 2-5 as a rule; bisection over
+#: the whole range takes at most 13).
+_MAX_TRIALS = 40
+
+
+def _margin_db(spec: FirSpec, ripple_db: float, atten_db: float) -> float:
+    """How far a measured design is inside ``spec`` (dB; negative: outside).
+
+    The smaller of the stop-band margin ``atten - A`` and the pass-band one
+    ``20 log10(delta_p / delta_p_measured)``. An equiripple design of fixed
+    weights keeps ``delta_p / delta_s`` constant, so both margins grow at
+    the same rate with the length, nearly linearly in dB (Kaiser 1974 [2]_:
+    ``-20 log10 sqrt(delta_p delta_s)`` grows by ``14.6 transition / fs``
+    dB per tap).
     """
-    cache: dict[int, tuple[bool, object]] = {}
-    frac = [0.0]
+    dp, _ = _deviations(spec.ripple_db, spec.atten_db)
+    r = 10.0 ** (min(ripple_db, 600.0) / 20.0)
+    dp_m = (r - 1.0) / (r + 1.0)
+    mp = 20.0 * math.log10(dp / dp_m) if dp_m > 0 else math.inf
+    m = min(mp, atten_db - spec.atten_db)
+    return max(-_MARGIN_CLIP_DB, min(_MARGIN_CLIP_DB, m))
 
-    def report(f):
-        frac[0] = max(frac[0], min(1.0, f))
-        if progress is not None:
-            progress(frac[0])
+def _descent_floor(full: dict, hi: int, slope0: float) -> float:
+    """Shortest length that could still meet the spec below ``hi``, given the full trials.
 
-    def run(n):
-        if n not in cache:
-            if cancel is not None and cancel():
-                raise DesignCancelled(
-                    f"the design was cancelled after {len(cache)} trial designs "
-                    f"(next would have been {n} taps)", field="taps")
-            cache[n] = trial(n)
-        return cache[n]
+    scipy's remez is not exactly monotone in the length: the margin it
+    reaches jitters about its trend by up to about one and a half odd steps
+    (some tenths of a dB at 95-100 dB, where its stop-band error is near the
+    limits of its arithmetic), so a length just below the first miss may
+    still meet. The trend down from ``hi`` falls at ``s`` dB per tap, the
+    slope fitted to the full trials nearest ``hi`` but no steeper than the
+    nominal ``slope0``; a shorter length can meet only while that line plus an
+    allowance ``L`` stays above 0 dB, that is down to ``hi - (m(hi) + L) / s``.
+    ``L`` is the largest of _NOISE_FLOOR_DB, the scatter of those trials about
+    the line, and _JITTER_STEPS odd steps of the nominal slope.
+    """
+    pts = sorted(((k, v[1]) for k, v in full.items() if v[1] is not None),
+                 key=lambda p: abs(p[0] - hi))[:_FIT_POINTS]
+    m_hi = full[hi][1] if full[hi][1] is not None else 0.0
+    s, scatter = slope0, 0.0
+    n = np.array([p[0] for p in pts], dtype=float)
+    m = np.array([p[1] for p in pts], dtype=float)
+    if len(pts) >= 2 and np.ptp(n) > 0:
+        fit = np.polyfit(n, m, 1)[0] if len(pts) >= 3 else (m[1] - m[0]) / (n[1] - n[0])
+        s = min(max(float(fit), slope0 / _SLOPE_LOW), slope0)
+        if len(pts) >= 3:
+            resid = m - (m_hi + s * (n - hi))
+            scatter = float(np.max(np.abs(resid - np.median(resid))))
+    allowance = max(_NOISE_FLOOR_DB, scatter, _JITTER_STEPS * 2.0 * slope0)
+    return hi - (m_hi + allowance) / s
 
-    n = min(max(3, _odd(n_start)), max_taps)
-    step = max(2, 2 * int(0.01 * n))
-    ok, _ = run(n)
-    k = 1
-    report(0.5 * (1 - 0.5 ** k))
-    if ok:
-        hi, lo = n, None
-        while lo is None:
-            cand = max(3, _odd(hi - step))
-            if cand == hi:           # hi is 3 and meets
-                report(1.0)
-                return hi, cache[hi][1], len(cache)
-            if run(cand)[0]:
-                hi = cand
-            else:
-                lo = cand
-            step *= 2
-            k += 1
-            report(0.5 * (1 - 0.5 ** k))
-    else:
-        lo, hi = n, None
-        while hi is None:
-            if lo >= max_taps:
-                best = max((m for m in cache), default=lo)
-                report(1.0)
-                return None, (best, cache[best][1]), len(cache)
-            cand = min(max_taps, _odd(lo + step))
-            if run(cand)[0]:
-                hi = cand
-            else:
-                lo = cand
-            step *= 2
-            k += 1
-            report(0.5 * (1 - 0.5 ** k))
-    width0 = max(4, hi - lo)
-    while hi - lo > 2:
-        mid = _odd((lo + hi) // 2)
-        if mid <= lo or mid >= hi:
-            mid = lo + 2
-        if run(mid)[0]:
-            hi = mid
+
+def _search_min_odd(trial: Callable[[int, bool], tuple[bool, float | None, object]],
+                    n_start: int, max_taps: int, slope0: float,
+                    progress: Callable[[float], None] | None,
+                    cancel: Callable[[], bool] | None, coarse_is_exact: bool = False):
+    """Smallest odd ``n`` in ``[3, max_taps]`` whose full design meets the spec.
+
+    ``trial(n, coarse)`` designs ``n`` taps (at the lower grid density when
+    ``coarse``) and returns ``(meets, margin_db, value)``: whether it meets
+    the spec, :func:`_margin_db` (None when the design failed) and what to
+    return. ``slope0`` is the nominal margin gained per tap (dB).
+
+    1. Prediction: the margin is close to linear in the length, so each
+       trial predicts where it crosses 0 dB, by the secant through the two
+       trials nearest the crossing (a meeting and a missing full one when
+       both are known; from ``slope0`` while there is only one trial). The
+       first trial is at ``n_start``; a prediction more than _COARSE_STEP
+       away is tried at the lower grid density (a bracketing trial), a
+       nearer one with a full design. It ends when a full design of ``N``
+       taps meets the spec and one of ``N - 2`` does not. Predictions that
+       land beyond a known bound, or two in a row that do not halve the
+       bracket, give way to bisection (or to a doubling step while nothing
+       meets), so the search converges whatever the first guess.
+    2. Downward check: shorter lengths are tried while
+       :func:`_descent_floor` says one could still meet; one that does
+       becomes ``N``.
+
+    Returns ``(n, value, trials)``, or ``(None, (n_best, value), trials)``
+    when even ``max_taps`` fails (``n_best`` the longest full design tried).
+    """
+    steps = [0]
+    full: dict[int, tuple[bool, float | None, object]] = {}
+    coarse: dict[int, float] = {}
+    coarse_tried: set[int] = set()
+
+    def run(n: int, is_coarse: bool):
+        if cancel is not None and cancel():
+            raise DesignCancelled(
+                f"the design was cancelled after {steps[0]} trial designs "
+                f"(next would have been {n} taps)", field="taps")
+        steps[0] += 1
+        res = trial(n, is_coarse)
+        if is_coarse and not coarse_is_exact:
+            coarse_tried.add(n)
+            if res[1] is not None:
+                coarse[n] = res[1]
         else:
-            lo = mid
-        report(0.5 + 0.5 * (1 - math.log(max(2, hi - lo) / 2) / math.log(width0 / 2)))
-    report(1.0)
-    return hi, cache[hi][1], len(cache)
+            full[n] = res
+        # Most searches end within 3-5 trials; the fraction never goes back.
+        if progress is not None:
+            progress(0.9 * (1.0 - 0.6 ** steps[0]))
+
+    def bounds() -> tuple[int, int | None]:
+        """Shortest full design that meets, and the longest one below it that misses.
+
+        A length whose design failed (remez did not converge: it does at long
+        lengths and high attenuations) says nothing about the spec and is no
+        bound; it is only never tried again.
+        """
+        hi = min((k for k, v in full.items() if v[0]), default=None)
+        lo = max((k for k, v in full.items()
+                  if not v[0] and v[1] is not None and (hi is None or k < hi)), default=1)
+        return lo, hi
+
+    def untried(lower: int, upper: int, near: int) -> int | None:
+        """The untried odd length in [lower, upper] nearest to ``near`` (None if none)."""
+        near = min(max(near, lower), upper)
+        for d in range(0, upper - lower + 1, 2):
+            for k in (near - d, near + d):
+                if lower <= k <= upper and k not in full:
+                    return k
+        return None
+
+    def done(lo: int, hi: int | None) -> bool:
+        if hi is not None:               # every length between lo and hi tried
+            return untried(lo + 2, hi - 2, hi - 2) is None
+        return lo >= max_taps or untried(lo + 2, max_taps, max_taps) is None
+
+    def slope_of(p1, p2, mixed: bool) -> float | None:
+        (n1, m1), (n2, m2) = p1, p2
+        if n1 == n2 or (mixed and abs(m2 - m1) < _MIXED_SECANT_DB):
+            return None
+        s = (m2 - m1) / (n2 - n1)
+        if not (s > 0 and math.isfinite(s)):
+            return None
+        # Two noisy margins close together can give any slope: keep it within
+        # a factor of _SLOPE_RANGE of the nominal one.
+        return min(max(s, slope0 / _SLOPE_LOW), slope0 * _SLOPE_RANGE)
+
+    def predict() -> tuple[float, int, bool] | None:
+        """Length where the margin is predicted to cross 0 dB, the trial it is predicted
+        from, and whether that is a full trial and the nominal slope."""
+        pts = [(k, v[1], True) for k, v in full.items() if v[1] is not None]
+        pts += [(k, m, False) for k, m in coarse.items() if k not in full]
+        if not pts:
+            return None
+        # The trial nearest the crossing (a full one on a tie).
+        ref = min(pts, key=lambda p: (abs(p[1]), not p[2]))
+        s = None
+        meet = [p for p in pts if p[2] and full[p[0]][0]]
+        miss = [p for p in pts if p[2] and not full[p[0]][0]]
+        if meet and miss:                       # full trials on both sides
+            s = slope_of(min(meet)[:2], max(miss)[:2], False)
+        if s is None:
+            for other in sorted((p for p in pts if p is not ref), key=lambda p: abs(p[1])):
+                s = slope_of(ref[:2], other[:2], other[2] != ref[2])
+                if s is not None:
+                    break
+        nominal = s is None
+        if nominal:
+            s = slope0
+        return ref[0] - ref[1] / s, ref[0], nominal and ref[2]
+
+    def clamp(n: int) -> int:
+        return min(max(3, n), max_taps)
+
+    n, is_coarse = clamp(_round_odd(n_start)), False
+    widths: list[int] = []
+    growth = 0
+    while steps[0] < _MAX_TRIALS:
+        if is_coarse and n in coarse_tried:
+            is_coarse = False
+        if not (not is_coarse and n in full):
+            run(n, is_coarse)
+        lo, hi = bounds()
+        if done(lo, hi):
+            break
+        if hi is not None and lo in full:
+            widths.append(hi - lo)
+        lower, upper = lo + 2, (max_taps if hi is None else hi - 2)
+        guess = predict()
+        nxt = None
+        if guess is not None and math.isfinite(guess[0]):
+            root, ref, _ = guess
+            # Never jump by more than 4x at once, whatever the prediction says.
+            root = min(max(root, ref / 4.0), 4.0 * ref + 8.0)
+            far = abs(root - ref) > max(_COARSE_STEP * root, 4.0)
+            is_coarse = bool(far) and not coarse_is_exact
+            if not is_coarse and guess[2]:
+                # From one full trial and the nominal slope only: go part of the
+                # way (the slope near the crossing is often steeper).
+                root = ref + _DAMP * (root - ref)
+            nxt = _round_odd(root)
+            if nxt < lo - 2 or (hi is not None and nxt > hi + 2):
+                nxt = None              # beyond a bound by more than a step: not linear here
+        if nxt is None:
+            is_coarse = False
+            failed_above = [k for k, v in full.items() if v[1] is None and k > lo]
+            if hi is not None:
+                nxt = _round_odd((lo + hi) / 2)
+            elif failed_above:          # halfway down to the shortest design that failed
+                nxt = _round_odd((lo + min(failed_above)) / 2)
+            else:                       # grow from the longest miss, doubling the step
+                growth = max(2 * growth, _ceil_odd(0.05 * lo) + 1)
+                nxt = lo + growth
+        if len(widths) >= 3 and widths[-1] * 2 > widths[-3]:
+            nxt, is_coarse = _round_odd((lo + hi) / 2), False   # slow progress: bisect
+        n = untried(lower, upper, nxt)
+        if n is None:
+            break
+        if is_coarse and n != min(max(nxt, lower), upper):
+            is_coarse = False
+    # 2. Downward check (see _descent_floor).
+    lo, hi = bounds()
+    extra = 0
+    while hi is not None and extra < _MAX_DESCENT and steps[0] < _MAX_TRIALS + _MAX_DESCENT:
+        floor = _descent_floor(full, hi, slope0)
+        k = next((j for j in range(hi - 2, 2, -2) if j not in full), None)
+        if k is None or k < floor:
+            break
+        run(k, False)
+        extra += 1
+        lo, hi = bounds()
+    if progress is not None:
+        progress(1.0)
+    lo, hi = bounds()
+    if hi is None:                     # the longest design made, else the longest tried
+        best = max((k for k, v in full.items() if v[1] is not None), default=max(full))
+        return None, (best, full[best][2]), steps[0]
+    return hi, full[hi][2], steps[0]
 
 
-def _min_taps(design: Callable[[int], np.ndarray], method: str, spec: FirSpec, fs_hz: float,
-              max_taps: int, progress, cancel, start: int | None = None) -> FirDesign:
-    _spec_bands(spec, fs_hz)
+def _min_taps(method: str, spec: FirSpec, fs_hz: float, max_taps: int, progress,
+              cancel) -> FirDesign:
+    _, _, _, tw = _spec_bands(spec, fs_hz)
     if isinstance(max_taps, bool) or not isinstance(max_taps, (int, np.integer)) or max_taps < 3:
         raise DesignError(f"must be a whole number of taps >= 3, not {max_taps!r}",
                           field="max_taps")
+    fs = float(fs_hz)
     max_taps = int(max_taps) if max_taps % 2 else int(max_taps) - 1
-    est = estimate_taps(spec, fs_hz)
+    est = estimate_taps(spec, fs)
+    what = "equiripple (remez)" if method == _REMEZ else "least squares (firls)"
 
-    def trial(n):
-        try:
-            h = design(n)
-        except (ValueError, np.linalg.LinAlgError) as exc:   # no convergence / singular
-            return False, (None, math.inf, -math.inf, str(exc))
-        if not np.all(np.isfinite(h)):
-            return False, (None, math.inf, -math.inf, "non-finite taps")
-        r, a = measure_spec(h, spec, fs_hz)
-        return (r <= spec.ripple_db and a >= spec.atten_db), (h, r, a, "")
+    def trial(n: int, coarse: bool):
+        entry = _design(method, spec, fs, n, _COARSE_DENSITY if coarse else _FULL_DENSITY)
+        if entry.taps is None:
+            return False, None, (None, math.inf, -math.inf, entry.error)
+        if entry.measured is None:
+            entry.measured = measure_spec(entry.taps, spec, fs)
+        r, a = entry.measured
+        ok = r <= spec.ripple_db and a >= spec.atten_db
+        return ok, _margin_db(spec, r, a), (entry.taps, r, a, "")
 
-    n, value, trials = _search_min_odd(trial, est if start is None else start, max_taps,
-                                       progress, cancel)
+    # Kaiser 1974 [2]: each tap adds about 14.6 df dB of attenuation (df = transition / fs).
+    slope0 = 14.6 * tw / fs
+    n, value, trials = _search_min_odd(trial, est, max_taps, slope0, progress, cancel,
+                                       coarse_is_exact=method == _FIRLS)
     if n is None:
         n_best, (h, r, a, why) = value
         reached = (f"reached ripple {r:.3g} dB and attenuation {a:.3g} dB at {n_best} taps"
-                   if h is not None else f"{method} failed at {n_best} taps ({why})")
-        need = (f"about {est} taps would be needed (Herrmann et al. 1973 estimate)"
+                   if h is not None else f"{what} failed at {n_best} taps ({why})")
+        need = (f"about {est} taps would be needed (Kaiser 1974 estimate)"
                 if est > max_taps else
-                f"the Herrmann et al. 1973 estimate is {est} taps, but {method} did not "
+                f"the Kaiser 1974 estimate is {est} taps, but {what} did not "
                 f"meet the spec up to max_taps")
         raise SpecNotMetError(
-            f"{spec.describe()} not met by {method} within max_taps {max_taps} at "
-            f"{float(fs_hz):g} Hz: {reached}; {need}", field="taps")
+            f"{spec.describe()} not met by {what} within max_taps {max_taps} at "
+            f"{fs:g} Hz: {reached}; {need}", field="taps")
     h, r, a, _ = value
-    return FirDesign(taps=h, ripple_db=r, atten_db=a, estimate_taps=est, trials=trials)
+    return FirDesign(taps=h.copy(), ripple_db=r, atten_db=a, estimate_taps=est, trials=trials)
 
 
 def min_taps_equiripple(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX_TAPS,
@@ -809,10 +1112,18 @@ def min_taps_equiripple(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX
                         cancel: Callable[[], bool] | None = None) -> FirDesign:
     """Shortest odd-length Parks-McClellan filter that meets ``spec``.
 
-    Starts from the Herrmann et al. 1973 estimate (:func:`estimate_taps`),
-    brackets the answer with a doubling step and bisects over odd lengths.
-    Each trial design is measured on a dense grid (:func:`measure_spec`);
-    only a design that meets both ripple and attenuation is returned.
+    Each trial design is measured on a dense grid (:func:`measure_spec`)
+    and its margin to the spec taken in dB (the smaller of the stop-band
+    and pass-band margins), which is close to linear in the length. From
+    the Kaiser 1974 estimate (:func:`estimate_taps`) the search predicts
+    the length where the margin crosses 0 dB by the secant through its
+    last two trials: first with designs at half of remez's grid density,
+    then with full ones, and ends when a full design of ``N`` taps meets
+    the spec and one of ``N - 2`` does not. A prediction that stops
+    converging falls back to bisection, so the result does not depend on
+    the estimate. Only a design that meets both ripple and attenuation is
+    returned; designs are kept in the design cache
+    (:func:`clear_design_cache`).
 
     Parameters
     ----------
@@ -841,11 +1152,10 @@ def min_taps_equiripple(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX
 
     References
     ----------
+    .. [2] Kaiser, 1974.
     .. [3] Parks and McClellan, 1972.
-    .. [4] Herrmann, Rabiner and Chan, 1973.
     """
-    return _min_taps(lambda n: equiripple_fir(spec, fs_hz, n), "equiripple (remez)", spec,
-                     fs_hz, max_taps, progress, cancel)
+    return _min_taps(_REMEZ, spec, fs_hz, max_taps, progress, cancel)
 
 
 def min_taps_least_squares(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_MAX_TAPS,
@@ -854,10 +1164,11 @@ def min_taps_least_squares(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_
     """Shortest odd-length weighted least-squares (firls) filter that meets ``spec``.
 
     The weights are those of the equiripple design (``delta_p/delta_s`` in
-    the stop band). The search is the one of :func:`min_taps_equiripple`,
-    started from the Herrmann estimate: the equiripple filter is the
-    shortest that meets a minimax spec, so a least-squares one is no
-    shorter and the search usually goes up from there.
+    the stop band). The search is the one of :func:`min_taps_equiripple`
+    (firls has no design grid, so every trial is a full design), started
+    from the Kaiser estimate: the equiripple filter is the shortest that
+    meets a minimax spec, so a least-squares one is no shorter and the
+    search usually goes up from there.
 
     Parameters, returns and raises as :func:`min_taps_equiripple`.
 
@@ -865,8 +1176,7 @@ def min_taps_least_squares(spec: FirSpec, fs_hz: float, max_taps: int = DEFAULT_
     ----------
     .. [6] Parks and Burrus, "Digital Filter Design", 1987, ch. 3.
     """
-    return _min_taps(lambda n: _least_squares_spec(spec, fs_hz, n), "least squares (firls)",
-                     spec, fs_hz, max_taps, progress, cancel)
+    return _min_taps(_FIRLS, spec, fs_hz, max_taps, progress, cancel)
 
 
 # --------------------------------------------------------------------------
@@ -940,7 +1250,7 @@ def complementary_split(crossovers_hz: Sequence[float], fs_hz: float, taps: int,
         else:
             sw = _check_positive(stop_weight, "stop_weight", "(relative weight)")
             lows = [signal.remez(n, [0, f - tw / 2, f + tw / 2, fs / 2], [1, 0],
-                                 weight=[1, sw], fs=fs, maxiter=40) for f in xo]
+                                 weight=[1, sw], fs=fs, maxiter=_MAXITER) for f in xo]
     else:
         raise DesignError(f"must be window, equiripple or least_squares, not {design!r}",
                           field="design")

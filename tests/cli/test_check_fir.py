@@ -2,8 +2,8 @@
 
 Sources: the exit-code convention of the command line (0 pass, 1 fail or
 unmet spec, 2 invalid file) and of POSIX shells for a command ended by
-SIGINT (128 + 2 = 130); Herrmann, Rabiner and Chan 1973 for the tap estimate
-named in refusals (computed by planner.dsp.fir.estimate_taps); Oppenheim and
+SIGINT (128 + 2 = 130); Kaiser 1974 for the tap estimate named in refusals
+(computed by planner.dsp.fir.estimate_taps); Oppenheim and
 Schafer, 3rd ed., sec. 5.7 for the (N-1)/2 latency.
 """
 

@@ -116,3 +116,67 @@ def test_check_warns_of_a_fractional_delay_without_failing(write_project, capsys
     assert ("band high: its delay, 0.48 samples at 48000 Hz, is not a whole number of samples; "
             "rounded to 0, the phase difference low - high at 3 kHz changes by -10.8 deg"
             in out)
+
+
+# Runs planner.cli.main in a fresh interpreter and prints the numerical
+# libraries it loaded (output of the command itself is swallowed).
+_LIGHT = """
+import contextlib, io, json, sys
+from planner.cli import main
+with contextlib.redirect_stdout(io.StringIO()):
+    rc = main(sys.argv[1:])
+heavy = sorted(m for m in sys.modules if m.split('.')[0] in ('numpy', 'scipy'))
+print(json.dumps({'rc': rc, 'heavy': heavy}))
+"""
+
+
+@pytest.mark.parametrize("argv", [
+    ["--help"], ["--version"], ["presets"], ["new", "{tmp}/new.json"],
+    ["new", "{tmp}/fir.json", "--preset", "fir-three-way"],
+    *[[name, "--help"] for name in ("check", "plot", "compare", "export", "render", "measure",
+                                    "edit", "new", "presets")]],
+    ids=lambda a: " ".join(a).replace("{tmp}/", ""))
+def test_parsing_and_presets_do_not_import_numpy_or_scipy(tmp_path, argv):
+    # Start-up: argument parsing, the help texts and the preset commands use
+    # only light modules; the numerical core loads when a command designs.
+    args = [a.replace("{tmp}", str(tmp_path)) for a in argv]
+    out = subprocess.run([sys.executable, "-c", _LIGHT, *args], capture_output=True, text=True,
+                         cwd=str(__import__("pathlib").Path(__file__).parents[2]), timeout=60)
+    d = json.loads(out.stdout.strip().splitlines()[-1])
+    assert d == {"rc": 0, "heavy": []}, out.stderr
+
+
+def test_check_does_import_the_core(tmp_path):
+    # The other side of the test above (so that it cannot pass for a broken
+    # wrapper): a command that designs loads numpy and scipy.
+    p = tmp_path / "p.json"
+    p.write_text(json.dumps(two_way(4)))
+    out = subprocess.run([sys.executable, "-c", _LIGHT, "check", str(p)], capture_output=True,
+                         text=True, cwd=str(__import__("pathlib").Path(__file__).parents[2]),
+                         timeout=60)
+    d = json.loads(out.stdout.strip().splitlines()[-1])
+    assert d["rc"] == 0 and "numpy" in d["heavy"] and "scipy.signal" in d["heavy"]
+
+
+def test_top_level_help_lists_every_command(capsys):
+    from planner.cli import COMMANDS
+
+    assert main(["--help"]) == 0
+    out = capsys.readouterr().out
+    for name, (_, help_) in COMMANDS.items():
+        assert name in out and help_ in out
+
+
+def test_command_help_shows_its_options(capsys):
+    assert main(["compare", "--help"]) == 0
+    out = capsys.readouterr().out
+    assert "--iir-family" in out and "default 8191" in out and "(default 60)" in out
+
+
+def test_new_writes_the_preset_text_unchanged(tmp_path, capsys):
+    from planner import presets_lib
+
+    out = tmp_path / "p.json"
+    assert main(["new", str(out), "--preset", "sub-sat"]) == 0
+    assert out.read_text(encoding="utf-8") == presets_lib.text("sub-sat")
+    assert "Den subwoofer and satellites" in capsys.readouterr().out

@@ -22,6 +22,11 @@ def db(h):
 F = np.geomspace(10, 23000, 400)
 
 
+def _section_ba(s):
+    """(b, a) of one section; a first-order one without its trailing zeros."""
+    return (s[:2], s[3:5]) if s[2] == 0 and s[5] == 0 else (s[:3], s[3:])
+
+
 class TestButterworth:
     @pytest.mark.parametrize("kind", ["lowpass", "highpass"])
     @pytest.mark.parametrize("order", range(1, 9))
@@ -133,14 +138,55 @@ class TestLinkwitzRiley:
 
 
 class TestBessel:
-    @pytest.mark.parametrize("norm", iir.BESSEL_NORMS)
+    @pytest.mark.parametrize("norm", ["phase", "mag"])
     @pytest.mark.parametrize("order", range(1, 9))
     @pytest.mark.parametrize("kind", ["lowpass", "highpass"])
     def test_matches_scipy_bessel(self, norm, order, kind):
-        # Reference: scipy.signal.bessel with the same normalisation.
+        # Reference: scipy.signal.bessel (digital, prewarped) with the same normalisation.
         ref = signal.bessel(order, 1500, btype=kind, fs=FS, norm=norm, output="sos")
         got = iir.bessel_sos(kind, order, 1500, FS, norm=norm)
         np.testing.assert_allclose(resp(got, F), resp(ref, F), rtol=1e-8, atol=1e-12)
+
+    @pytest.mark.parametrize("order", range(1, 9))
+    @pytest.mark.parametrize("kind", ["lowpass", "highpass"])
+    def test_delay_norm_is_the_bilinear_image_of_the_unwarped_analog_filter(self, order, kind):
+        # Reference: scipy.signal.bessel(analog=True, norm="delay") at 2 pi f
+        # rad/s, then scipy.signal.bilinear_zpk at fs (no prewarping).
+        z, p, k = signal.bessel(order, 2 * np.pi * 1500, btype=kind, analog=True,
+                                norm="delay", output="zpk")
+        ref = signal.zpk2sos(*signal.bilinear_zpk(z, p, k, FS))
+        got = iir.bessel_sos(kind, order, 1500, FS, norm="delay")
+        np.testing.assert_allclose(resp(got, F), resp(ref, F), rtol=1e-8, atol=1e-12)
+
+    # scipy.signal.group_delay warns that a section's denominator is small at
+    # 0 Hz when its poles lie close to z = 1 (200 Hz at 192 kHz); the value it
+    # returns there still agrees to 1e-8, which is what this test checks.
+    @pytest.mark.filterwarnings("ignore:The filter's denominator is extremely small")
+    @pytest.mark.parametrize("fs", [44100.0, 48000.0, 96000.0, 192000.0])
+    @pytest.mark.parametrize("order", range(1, 9))
+    def test_delay_norm_group_delay_at_dc_is_fs_over_2_pi_f(self, fs, order):
+        # The delay normalisation: the analog lowpass has a group delay of
+        # 1/(2 pi f) s at DC (scipy.signal.besselap docs, norm='delay';
+        # Thomson 1949), and the bilinear transform keeps it, since
+        # dOmega/domega = fs at omega = 0 (Oppenheim and Schafer 3rd ed.,
+        # sec. 7.2.2): fs/(2 pi f) samples. Reference: scipy.signal.group_delay
+        # of each section at 0 Hz, summed (the group delay of a cascade is the
+        # sum of its sections'). 1e-8 relative: rounding of the sections'
+        # coefficients, whose poles lie within 0.01 of z = 1 at 200 Hz.
+        for f in (200.0, 2000.0, 10000.0, 0.4 * fs):
+            sos = iir.bessel_sos("lowpass", order, f, fs, norm="delay")
+            gd = sum(signal.group_delay(_section_ba(s), w=[0.0], fs=fs)[1][0] for s in sos)
+            assert gd == pytest.approx(fs / (2 * np.pi * f), rel=1e-8)
+
+    def test_prewarped_delay_norm_would_be_off(self):
+        # The size of what the unwarped design avoids: scipy.signal.bessel's
+        # digital (prewarped) delay-normalised lowpass at 10 kHz, 48 kHz has a
+        # DC group delay of fs / (2 fs tan(pi f / fs)) samples, 14.7 % short of
+        # fs / (2 pi f) (reference: scipy.signal.group_delay).
+        b, a = signal.bessel(4, 10000.0, fs=FS, norm="delay")
+        gd = signal.group_delay((b, a), w=[0.0], fs=FS)[1][0]
+        assert gd == pytest.approx(1 / (2 * np.tan(np.pi * 10000.0 / FS)), rel=1e-8)
+        assert gd / (FS / (2 * np.pi * 10000.0)) == pytest.approx(0.853, abs=1e-3)
 
     def test_mag_norm_is_minus_3_db_at_cutoff(self):
         # scipy.signal.besselap docs: norm='mag' puts -3 dB at the cut-off.

@@ -2,7 +2,9 @@
 
 Skipped, saying why, where tmux or the crossplan executable is missing. The
 executable is looked for next to the running Python first (the venv's bin),
-then on PATH. Every wait is bounded.
+then on PATH. Every key waits until the screen shows what it needs (the pane
+is polled every 0.1 s), and every wait is bounded (20 s, then the test fails
+showing the screen).
 """
 
 import json
@@ -43,18 +45,34 @@ def _screen(name: str) -> str:
     return _tmux("capture-pane", "-p", "-t", name).stdout
 
 
-def _wait_for(name: str, text: str, timeout_s: float = 15.0) -> str:
+def _wait_until(name: str, ready, what: str, timeout_s: float = 20.0) -> str:
+    """Poll the pane until ``ready(screen)`` holds; fail after ``timeout_s`` with the screen."""
     end = time.monotonic() + timeout_s
     screen = ""
     while time.monotonic() < end:
         screen = _screen(name)
-        if text in screen:
+        if ready(screen):
             return screen
-        time.sleep(0.2)
-    raise AssertionError(f"{text!r} did not appear within {timeout_s} s; screen:\n{screen}")
+        time.sleep(0.1)
+    raise AssertionError(f"{what} did not appear within {timeout_s} s; screen:\n{screen}")
+
+
+def _wait_for(name: str, text: str, timeout_s: float = 20.0) -> str:
+    return _wait_until(name, lambda screen: text in screen, repr(text), timeout_s)
+
+
+def _line(screen: str, start: str) -> str:
+    """The first line of ``screen`` that starts with ``start`` ("" if none)."""
+    return next((ln for ln in screen.splitlines() if ln.startswith(start)), "")
+
+
+def _send(name: str, *keys: str, literal: bool = False) -> None:
+    _tmux("send-keys", "-t", name, *(["-l"] if literal else []), *keys)
 
 
 def test_crossplan_in_tmux_edit_save_quit(tmp_path):
+    # Each key is sent only once the screen shows that the one before took
+    # effect (no fixed sleeps: a loaded machine only makes the waits longer).
     path = tmp_path / "two-way.json"
     project.save(presets_lib.load("two-way"), path)
     name = f"crossplan-test-{uuid.uuid4().hex[:8]}"
@@ -62,18 +80,23 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
     _tmux("new-session", "-d", "-s", name, "-x", "80", "-y", "24", cmd)
     try:
         _wait_for(name, "sum ")                       # the editor is up and has analysed
-        for key in ("Down", "Enter"):                  # filter 2 of the woofer, its freq field
-            _tmux("send-keys", "-t", name, key)
-            time.sleep(0.3)
-        _tmux("send-keys", "-t", name, "-l", "2.5k")
-        _tmux("send-keys", "-t", name, "Enter")
+        _wait_for(name, "━Chain: woofer")             # ... with the chain focused
+        _send(name, "Down")                           # filter 2 of the woofer
+        _wait_until(name, lambda s: "Filter 2" in s and "2.4 kHz" in _line(s, "freq"),
+                    "the form of filter 2 (LR4 lowpass 2.4 kHz)")
+        _send(name, "Enter")                          # into its form, on the freq field
+        _wait_for(name, "━Filter 2")
+        _send(name, "2.5k", literal=True)
+        _wait_until(name, lambda s: "2.5k" in _line(s, "freq"), "2.5k typed in the freq field")
+        _send(name, "Enter")
         screen = _wait_for(name, "LR4 lowpass 2.5 kHz")
         assert "[modified]" in screen
-        _tmux("send-keys", "-t", name, "C-s")
-        _wait_for(name, "saved two-way.json")
-        _tmux("send-keys", "-t", name, "Escape")
-        time.sleep(0.3)
-        _tmux("send-keys", "-t", name, "q")
+        _send(name, "C-s")
+        _wait_until(name, lambda s: "saved two-way.json" in s and "[modified]" not in s,
+                    "'saved two-way.json' with the title no longer [modified]")
+        _send(name, "Escape")                         # back to the chain
+        _wait_for(name, "━Chain: woofer")
+        _send(name, "q")
         _wait_for(name, "EXITED-0")
         saved = json.loads(path.read_text())
         assert saved["bands"][0]["filters"][1]["freq"] == 2500.0

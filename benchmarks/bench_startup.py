@@ -1,0 +1,68 @@
+"""Start-up time of the command line, against a bare interpreter and the numerical imports.
+
+Wall time of fresh processes (best of several runs, so that a busy machine
+shows less), each against two baselines measured alongside:
+
+* ``python -c pass``: the interpreter alone;
+* ``python -c "import numpy, scipy.signal"``: the numerical core's imports.
+
+Commands: ``python -m planner --help``, ``presets``, ``check --help`` (these
+import neither numpy nor scipy), and ``check FILE`` on the ``two-way`` preset
+(which designs, so it must import them). Also ``check FILE`` with numpy and
+scipy.signal imported before planner's own modules (``-c "import numpy,
+scipy.signal; ..."``), to see whether the import order matters.
+
+Run:  python benchmarks/bench_startup.py [RUNS]
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+import time
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+PRESET = ROOT / "presets" / "two-way.json"
+PY = sys.executable
+
+
+def wall(argv: list[str], runs: int) -> float:
+    """Best wall time (s) of ``runs`` fresh processes running ``argv``."""
+    best = float("inf")
+    for _ in range(runs):
+        t = time.perf_counter()
+        subprocess.run(argv, cwd=ROOT, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL,
+                       check=False)
+        best = min(best, time.perf_counter() - t)
+    return best
+
+
+def main() -> None:
+    runs = int(sys.argv[1]) if len(sys.argv) > 1 else 7
+    main_c = "from planner.cli import main; import sys; sys.exit(main(sys.argv[1:]))"
+    cases = [
+        ("python -c pass", [PY, "-c", "pass"]),
+        ("python -c 'import numpy, scipy.signal'", [PY, "-c", "import numpy, scipy.signal"]),
+        ("crossplan --help", [PY, "-m", "planner", "--help"]),
+        ("crossplan presets", [PY, "-m", "planner", "presets"]),
+        ("crossplan check --help", [PY, "-m", "planner", "check", "--help"]),
+        ("crossplan check two-way.json", [PY, "-m", "planner", "check", str(PRESET)]),
+        ("  the same, numpy + scipy.signal first",
+         [PY, "-c", "import numpy, scipy.signal; " + main_c, "check", str(PRESET)]),
+    ]
+    times = {}
+    # Interleave the cases run by run, so that a change in load hits all alike.
+    for _ in range(runs):
+        for name, argv in cases:
+            times[name] = min(times.get(name, float("inf")), wall(argv, 1))
+    bare, core = times[cases[0][0]], times[cases[1][0]]
+    print(f"best of {runs} runs each; ratios to the interpreter alone and to its numpy + "
+          "scipy.signal import")
+    for name, _ in cases:
+        t = times[name]
+        print(f"{name:<42} {t * 1e3:7.1f} ms   {t / bare:5.2f}x bare   {t / core:5.2f}x numpy+scipy")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,32 @@
+"""Names and default values shared by the numerical core and the command line.
+
+Nothing here imports numpy or scipy: the command line builds its options
+(choices, defaults, help texts) from these values and imports the core only
+when a command runs, so ``crossplan --help``, ``crossplan presets`` and the
+like start at once.
+"""
+
+from __future__ import annotations
+
+__all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
+           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS"]
+
+#: Frequency views of ``crossplan plot`` (:mod:`planner.plots`).
+PLOT_VIEWS = ("magnitude", "phase", "delay")
+#: Views on a time axis (ms): impulse and step responses.
+TIME_VIEWS = ("impulse", "step")
+#: File formats of ``crossplan export`` (:mod:`planner.export`).
+EXPORT_FORMATS = ("json", "csv", "text", "wav")
+#: Default pass-band ripple of the spec ``crossplan compare`` reads off a band
+#: (dB, peak to peak): the band's pass band ends where its response leaves a
+#: 1 dB window (:mod:`planner.compare`).
+COMPARE_RIPPLE_DB = 1.0
+#: Default stop-band attenuation of that spec (dB below the nominal pass gain):
+#: the stop band starts where the response stays 60 dB down.
+COMPARE_ATTEN_DB = 60.0
+#: IIR equivalents of ``crossplan compare``. ``auto``: Butterworth when an
+#: order up to 8 (the largest planner.dsp.iir designs) meets the spec, else
+#: elliptic.
+IIR_FAMILIES = ("auto", "butterworth", "elliptic")
+#: Longest FIR the fewest-tap searches try unless told otherwise (taps).
+MAX_TAPS = 8191
