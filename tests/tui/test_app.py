@@ -612,3 +612,37 @@ def test_a_list_of_frequencies_is_read_as_people_write_it(text):
 
     spec = next(s for s in lookup("split", "fir").fields if s.name == "crossovers")
     assert _parse_field(spec, text) == [300.0, 2800.0]
+
+
+async def test_settings_headroom_fail_enforces_the_headroom_check():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("e")
+        await pilot.pause()
+        field = app.screen.query_one("#settings-enforce_headroom")
+        assert field.value == "warn"          # the default: a warning only
+        field.focus()
+        field.value = ""
+        await pilot.press(*"fail", "enter")
+        await settle(app, pilot)
+        assert app.project.analysis.enforce_headroom is True
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project.analysis.enforce_headroom is False
+
+
+async def test_settings_headroom_refuses_other_words():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await pilot.press("e")
+        await pilot.pause()
+        field = app.screen.query_one("#settings-enforce_headroom")
+        field.focus()
+        field.value = ""
+        await pilot.press(*"maybe", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert "refused: must be 'fail'" in screen_text(app)
