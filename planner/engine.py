@@ -19,11 +19,12 @@ from planner import config
 from planner import filters as fk
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
-from planner.dsp.response import BandResponses, band_responses
+from planner.dsp.response import BandResponses, PointEvaluator, band_responses
 from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
 
 __all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
+           "point_evaluator",
            "CrossingResult", "BandResult", "Warning_", "CheckResult", "STATE_TEXT"]
 
 
@@ -99,6 +100,16 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
 def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:
     """Responses of designed bands on a grid (see :func:`planner.dsp.response.band_responses`)."""
     return band_responses([d.sos for d in designs], freqs_hz, fs_hz,
+                          gains_db=[d.gain_db for d in designs],
+                          delays_samples=[d.delay_samples for d in designs],
+                          invert=[d.invert for d in designs],
+                          firs=[d.fir for d in designs])
+
+
+def point_evaluator(designs: list[BandDesign], fs_hz: float) -> PointEvaluator:
+    """Band ``bands[k]`` of ``designs`` at ``freqs_hz[k]``, for every k at once
+    (see :class:`planner.dsp.response.PointEvaluator`)."""
+    return PointEvaluator([d.sos for d in designs], fs_hz,
                           gains_db=[d.gain_db for d in designs],
                           delays_samples=[d.delay_samples for d in designs],
                           invert=[d.invert for d in designs],
@@ -359,12 +370,9 @@ def analyse(project: Project, points: int | None = None) -> Report:
     crossings: list[CrossingResult] = []
     if len(act_idx) >= 2:
         sub = resp.h[act_idx]
-        sub_designs = [designs[i] for i in act_idx]
-
-        def _eval(f):
-            return evaluate(sub_designs, f, fs).h
-
-        for c in an.find_crossings(freqs, sub, evaluate=_eval):
+        # Each crossing is refined on its own two bands, at its own trial frequencies.
+        point = point_evaluator([designs[i] for i in act_idx], fs)
+        for c in an.find_crossings(freqs, sub, evaluate=point):
             ia, ib = act_idx[c.a], act_idx[c.b]
             checked = c.level_db >= a.crossing_floor_db
             crossings.append(CrossingResult(

@@ -21,7 +21,8 @@ import numpy as np
 
 from planner.dsp.fir import fir_response, fir_response_and_derivative
 
-__all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses"]
+__all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses",
+           "PointEvaluator"]
 
 _IDENTITY = np.array([1.0, 0.0, 0.0, 1.0, 0.0, 0.0])
 
@@ -249,3 +250,62 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         return out
 
     return BandResponses(freqs_hz, h, fs_hz, dlog)
+
+
+class PointEvaluator:
+    """Responses of chosen bands at chosen frequencies: entry ``k`` is band ``bands[k]`` at
+    ``freqs_hz[k]``.
+
+    What a root search needs: each crossing is refined on its own two bands
+    only, at its own trial frequency, so ``m`` queries cost ``m`` chains
+    (not every band at every query). All queries are evaluated together:
+    the sections of each query's band are gathered from the stacked chains
+    and evaluated at that query's frequency in a few array operations; FIR
+    taps (if any) by :func:`planner.dsp.fir.fir_response`, one call per FIR
+    band. Gain, polarity and delay are applied as in :func:`band_responses`,
+    so the values equal its ``h[bands[k], k]``.
+
+    Parameters
+    ----------
+    sos_list : sequence of ndarray, each (n_i, 6)
+    fs_hz : float
+    gains_db, delays_samples, invert, firs : sequences, optional
+        As in :func:`band_responses`.
+    """
+
+    def __init__(self, sos_list: Sequence[np.ndarray], fs_hz: float,
+                 gains_db: Sequence[float] | None = None,
+                 delays_samples: Sequence[float] | None = None,
+                 invert: Sequence[bool] | None = None,
+                 firs: Sequence[np.ndarray | None] | None = None):
+        nb = len(sos_list)
+        self.fs_hz = float(fs_hz)
+        self._stacked = stack_sos(sos_list)
+        g = 10.0 ** (np.asarray(gains_db if gains_db is not None else np.zeros(nb), float) / 20)
+        if invert is not None:
+            g = g * np.where(np.asarray(invert, bool), -1.0, 1.0)
+        self._gain = g
+        self._delay = np.asarray(delays_samples if delays_samples is not None else np.zeros(nb),
+                                 float)
+        self._firs = [] if firs is None else [(i, np.asarray(t, float))
+                                              for i, t in enumerate(firs) if t is not None]
+
+    def __call__(self, bands, freqs_hz) -> np.ndarray:
+        """Complex responses, shape (m,), of ``bands`` (m,) at ``freqs_hz`` (m,) in Hz."""
+        b = np.asarray(bands, dtype=np.intp)
+        f = np.asarray(freqs_hz, dtype=float)
+        w = _omega(f, self.fs_hz)
+        e1 = np.exp(-1j * w)[:, None]
+        e2 = e1 * e1
+        c = self._stacked[b]                                   # (m, n_sections, 6)
+        num = c[..., 0] + c[..., 1] * e1 + c[..., 2] * e2
+        den = c[..., 3] + c[..., 4] * e1 + c[..., 5] * e2
+        h = num.prod(axis=1) / den.prod(axis=1) * self._gain[b]
+        d = self._delay[b]
+        if np.any(d):
+            h = h * np.exp(-1j * d * w)
+        for i, taps in self._firs:       # a loop over FIR bands, never over frequencies
+            sel = b == i
+            if np.any(sel):
+                h[sel] = h[sel] * fir_response(taps, f[sel], self.fs_hz)
+        return h
