@@ -164,3 +164,23 @@ def test_every_reported_crossing_has_both_bands_within_0_01_db(d):
         i, j = c.band_index
         g = refs.level_difference_db(r.designs[i], r.designs[j], c.freq_hz, fs)[0]
         assert abs(g) <= config.CROSSING_LEVEL_TOL_DB, (c, g)
+
+
+def test_bands_with_a_zero_at_one_frequency_cross_only_where_their_levels_meet():
+    # Both bands notched at 150 Hz (cookbook notches, Q 10 and 11) on a first-order
+    # Butterworth pair crossing there: at 150 Hz both are zero and their difference is
+    # rounding noise, a jump and not a crossing. The crossings are those of brentq.
+    d = {"format": "crossplan-project", "version": 1, "name": "twin notches",
+         "sample_rate": 44100, "analysis": {"f_min": 20, "f_max": 20000, "points": 256},
+         "bands": [{"name": "woofer", "filters": [
+             {"type": "lowpass", "family": "butterworth", "freq": 150.0, "order": 1},
+             {"type": "notch", "freq": 150.0, "q": 10.0}]},
+             {"name": "tweeter", "filters": [
+                 {"type": "highpass", "family": "butterworth", "freq": 150.0, "order": 1},
+                 {"type": "notch", "freq": 150.0, "q": 11.0}]}]}
+    r = engine.analyse(project.from_dict(d))
+    ref = _reference(r)
+    assert len(r.crossings) == len(ref)
+    for c, (f, ph, _) in zip(r.crossings, ref):
+        assert c.freq_hz == pytest.approx(f, rel=1e-7)
+        assert c.phase_diff_deg == pytest.approx(ph, abs=0.01)

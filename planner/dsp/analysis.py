@@ -90,7 +90,8 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
                    evaluate: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
                    tol_db: float = config.CROSSING_SOLVE_TOL_DB,
                    xtol: float = config.CROSSING_XTOL,
-                   max_iter: int = config.CROSSING_MAX_ITER) -> list[Crossing]:
+                   max_iter: int = config.CROSSING_MAX_ITER,
+                   level_tol_db: float = config.CROSSING_LEVEL_TOL_DB) -> list[Crossing]:
     """Crossings of every pair of rows of ``h`` (bands) on the grid, refined exactly.
 
     A crossing is a change of sign of the level difference in dB,
@@ -106,7 +107,11 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
     refined together as arrays, each on its own two bands only. It stops
     when ``|g| <= tol_db`` or the bracket is ``xtol`` wide; the crossing
     reported is the trial point with the smallest ``|g|``, and its phase
-    and level are those of the exact responses there.
+    and level are those of the exact responses there. A sign change that
+    closes on a jump rather than a root (``|g|`` still above
+    ``level_tol_db``: both bands have a zero at the same frequency, and the
+    difference there is rounding noise) is not a crossing and is dropped,
+    so every crossing reported has its bands within ``level_tol_db``.
 
     Without ``evaluate`` the crossing is interpolated linearly on the grid.
 
@@ -123,6 +128,8 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
         bracket is at most ``xtol`` wide in natural-log frequency.
     max_iter : int
         Most steps.
+    level_tol_db : float
+        Largest level difference (dB) of a crossing that is reported.
 
     Returns
     -------
@@ -156,9 +163,13 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
         ha = h[a_idx, jk] + t * (h[a_idx, jk + 1] - h[a_idx, jk])
         hb = h[b_idx, jk] + t * (h[b_idx, jk + 1] - h[b_idx, jk])
     else:
-        x, ha, hb = _refine_crossings(evaluate, a_idx, b_idx, lo, hi, d0, d1,
-                                      h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
-                                      h[b_idx, jk + 1], tol_db, xtol, max_iter)
+        x, ha, hb, g = _refine_crossings(evaluate, a_idx, b_idx, lo, hi, d0, d1,
+                                         h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
+                                         h[b_idx, jk + 1], tol_db, xtol, max_iter)
+        # A sign change the search cannot close is a jump, not a crossing: both bands have a
+        # zero at one frequency, where the difference is rounding noise.
+        real = g <= level_tol_db
+        x, ha, hb, a_idx, b_idx = x[real], ha[real], hb[real], a_idx[real], b_idx[real]
     phase = wrap_deg(np.degrees(np.angle(ha) - np.angle(hb)))
     level = 0.5 * (db(ha) + db(hb))
     freq = np.exp(x)
@@ -216,4 +227,4 @@ def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_h
         new_width = np.abs(xb[k] - xa[k])
         bisect[k] = new_width > 0.5 * width
         done[k] = (g_best[k] <= tol_db) | (new_width <= xtol) | (g == 0)
-    return x_best, ha_best, hb_best
+    return x_best, ha_best, hb_best, g_best
