@@ -55,13 +55,16 @@ INFO_SPAN_DB = 20.0
 # -- numerical tolerances -----------------------------------------------------------------
 
 #: A crossing is refined until the two bands' levels differ by at most this many dB (or
-#: its bracket is CROSSING_XTOL wide in natural-log frequency); a reported crossing has the
-#: bands within CROSSING_LEVEL_TOL_DB of each other.
+#: its bracket is CROSSING_XTOL wide in natural-log frequency: 1e-9 of the frequency, where
+#: deep in an FIR's stop band the levels are rounding noise); a reported crossing has the
+#: bands within CROSSING_LEVEL_TOL_DB of each other (a sign change that closes farther
+#: apart is a jump, not a crossing, and is dropped).
 CROSSING_SOLVE_TOL_DB = 1e-7
-CROSSING_XTOL = 1e-11
+CROSSING_XTOL = 1e-9
 CROSSING_LEVEL_TOL_DB = 0.01
 #: Most root-finding steps per crossing (Illinois steps with bisection fallback; bisection
-#: alone halves a grid cell of ~0.007 in log frequency to 1e-11 in 30 steps).
+#: alone takes a grid cell of ~0.007 in log frequency to 1e-9 in 23 steps, and a bisection
+#: follows any step that does not halve the difference).
 CROSSING_MAX_ITER = 80
 
 # -- the analysis grid (planner.dsp.grid) -------------------------------------------------
@@ -77,29 +80,37 @@ GRID_FEATURES_MAX = 128
 GRID_FEATURE_OFFSETS = (0.0625, 0.125, 0.25, 0.5, 1.0, 2.0, 4.0)
 #: At most this many named filter frequencies (freq, freq2, crossovers) are added.
 GRID_NAMED_MAX = 512
-#: Refinement where the sum (or a band above the crossing floor) changes by more than
-#: GRID_REFINE_STEP_DB between neighbouring points: at most GRID_REFINE_PASSES passes of
-#: at most GRID_REFINE_CELLS cells each, GRID_REFINE_SPLIT new points per cell.
+#: Refinement where the sum's level changes by more than GRID_REFINE_STEP_DB between
+#: neighbouring points: at most GRID_REFINE_PASSES passes of at most GRID_REFINE_CELLS
+#: cells each, GRID_REFINE_SPLIT new points per cell.
 GRID_REFINE_STEP_DB = 1.0
 GRID_REFINE_PASSES = 4
 GRID_REFINE_CELLS = 128
 GRID_REFINE_SPLIT = 3
 #: Local extremes refined by exact evaluation: the GRID_EXTREMES largest local maxima
-#: and minima of the sum's deviation and the largest peak of each band, each by a zoom
-#: search of GRID_ZOOM_POINTS trial points per step for at most GRID_ZOOM_STEPS steps.
+#: and minima of the sum's level (those within GRID_EXTREME_MARGIN_DB of the largest) and
+#: the peak of each band, each by a zoom search of GRID_ZOOM_POINTS trial points per step
+#: for at most GRID_ZOOM_STEPS steps (the bracket shrinks (points + 1) / 2 times a step).
 GRID_EXTREMES = 8
-GRID_ZOOM_POINTS = 8
-GRID_ZOOM_STEPS = 14
+GRID_EXTREME_MARGIN_DB = 1.0
+GRID_ZOOM_POINTS = 16
+GRID_ZOOM_STEPS = 10
+#: ... and stops when every bracket is this narrow in natural-log frequency (1e-8 of the
+#: frequency: 3e-5 Hz at 3 kHz, far inside any feature the grid can hold).
+GRID_ZOOM_XTOL = 1e-8
+#: ... or when two steps in a row have gained at most this many dB.
+GRID_ZOOM_VTOL = 1e-6
 
 
-def grid_cap(points: int) -> int:
-    """The most points the analysis grid can hold for ``points`` log-spaced points.
-
-    The base grid, the named filter frequencies, the feature points, the
-    refinement passes and the refined extremes (at most 2 x GRID_EXTREMES
-    for the sum plus one per band): it does not grow with the number of
-    filters beyond GRID_NAMED_MAX and GRID_FEATURES_MAX.
+def grid_cap(points: int, n_bands: int) -> int:
+    """The most points the analysis grid can hold: ``points`` log-spaced points, at most
+    GRID_NAMED_MAX filter frequencies, GRID_FEATURES_MAX features of
+    2 len(GRID_FEATURE_OFFSETS) + 1 points, GRID_REFINE_PASSES passes of
+    GRID_REFINE_CELLS x GRID_REFINE_SPLIT points, and the refined extremes
+    (2 GRID_EXTREMES for the sum, one per band). It does not grow with the number of
+    filters.
     """
     per_feature = 2 * len(GRID_FEATURE_OFFSETS) + 1
     return (int(points) + GRID_NAMED_MAX + GRID_FEATURES_MAX * per_feature
-            + GRID_REFINE_PASSES * GRID_REFINE_CELLS * GRID_REFINE_SPLIT + 2 * GRID_EXTREMES)
+            + GRID_REFINE_PASSES * GRID_REFINE_CELLS * GRID_REFINE_SPLIT
+            + 2 * GRID_EXTREMES + int(n_bands))

@@ -19,7 +19,8 @@ from planner import config
 from planner import filters as fk
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
-from planner.dsp.response import BandResponses, PointEvaluator, band_responses
+from planner.dsp import grid as dgrid
+from planner.dsp.response import BandResponses, PointEvaluator, band_responses, log_derivative
 from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
 
@@ -319,20 +320,103 @@ class Report:
     def _headroom_dict(self) -> dict:
         h = self.check("headroom")
         f = h.figures
-        worst = None if f["worst"] is None else {
-            "band": self.bands[f["worst"]].name, "peak_gain_db": self.bands[f["worst"]].peak_gain_db,
-            "peak_at_hz": self.bands[f["worst"]].peak_at_hz}
+        w = None if f["worst"] is None else self.bands[f["worst"]]
+        worst = None if w is None else {"band": w.name, "peak_gain_db": w.peak_gain_db,
+                                        "peak_at_hz": w.peak_at_hz}
         return {"ok": h.ok, "state": h.state, "enforced": h.enforced, "limit_db": f["limit_db"],
                 "worst": worst, "over": [self.bands[i].name for i in f["over"]]}
 
 
-def _grid(project: Project) -> np.ndarray:
+def _grid(project: Project, designs: list[BandDesign] | None = None) -> np.ndarray:
+    """The starting grid: ``analysis.points`` log-spaced points, the filters' own frequencies
+    (at most :data:`planner.config.GRID_NAMED_MAX`) and, given the designs, points around
+    the narrow features of every section (:func:`planner.dsp.grid.feature_points`)."""
     a = project.analysis
-    extra = [f.params[k] for b in project.bands for f in b.filters if not f.bypass
-             for k in ("freq", "freq2") if k in f.params]
-    extra += [x for b in project.bands for f in b.filters if not f.bypass
-              for x in f.params.get("crossovers", ())]
+    live = [f for b in project.bands for f in b.filters if not f.bypass]
+    extra = [f.params[k] for f in live for k in ("freq", "freq2") if k in f.params]
+    extra += [x for f in live for x in f.params.get("crossovers", ())]
+    extra = list(dict.fromkeys(extra))[:config.GRID_NAMED_MAX]
+    if designs:
+        sos = [d.sos for d in designs if len(d.sos)]
+        if sos:
+            f0, bw = dgrid.narrow_features(np.vstack(sos), project.sample_rate)
+            extra += list(dgrid.feature_points(f0, bw, a.f_min, a.f_max, a.points))
     return an.log_grid(a.f_min, a.f_max, a.points, extra)
+
+
+def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarray):
+    """The grid and responses with new points (and their responses) merged in order."""
+    f = np.concatenate([freqs, new_f])
+    order = np.argsort(f, kind="stable")
+    f = f[order]
+    keep = np.concatenate([[True], np.diff(f) > 0])
+    return f[keep], np.concatenate([h, new_h], axis=1)[:, order][:, keep]
+
+
+def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
+    """The analysis grid and every band's response on it.
+
+    The starting grid (:func:`_grid`) is evaluated; then, for at most
+    :data:`~planner.config.GRID_REFINE_PASSES` passes, the cells where the
+    sum's level changes by more than :data:`~planner.config.GRID_REFINE_STEP_DB`
+    are split (:func:`planner.dsp.grid.fast_cells`); then the largest local
+    maxima and minima of the sum's level and each band's peak are refined by
+    exact evaluation (:func:`planner.dsp.grid.zoom_extremes`) and added. The
+    grid has at most :func:`planner.config.grid_cap` points.
+    """
+    fs = project.sample_rate
+    freqs = _grid(project, designs)
+    h = evaluate(designs, freqs, fs).h
+    act = np.asarray(active, dtype=bool)
+
+    def levels(hh):
+        rows = [an.db(hh[act].sum(axis=0))[None, :]] if act.any() else []
+        return np.concatenate(rows + [an.db(hh)])
+
+    lv = levels(h)
+    for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
+        new = dgrid.fast_cells(freqs, lv[:1], np.array([-np.inf]))
+        if not len(new):
+            break
+        freqs, h = _merge(freqs, h, new, evaluate(designs, new, fs).h)
+        lv = levels(h)
+
+    # Local extremes: candidates are (row, sign, grid index); row 0 is the sum's level (sign
+    # +1: maxima, -1: minima), row k >= 1 band k - 1's level (its peak). A local extreme of
+    # the sum more than GRID_EXTREME_MARGIN_DB short of the largest cannot become it.
+    cands = []
+    # A sum flat to within the zoom's own tolerance (a complementary FIR split) has nothing
+    # to refine: its local extremes are rounding noise.
+    if act.any() and np.ptp(lv[0]) > config.GRID_ZOOM_VTOL:
+        for sg in (1.0, -1.0):
+            idx = dgrid.local_extremes(sg * lv[0], config.GRID_EXTREMES)
+            near = sg * lv[0][idx] >= sg * lv[0][idx[0]] - config.GRID_EXTREME_MARGIN_DB
+            cands += [(0, sg, int(i)) for i in idx[near]]
+    off = 1 if act.any() else 0
+    cands += [(off + k, 1.0, int(np.argmax(lv[off + k]))) for k in range(len(designs))]
+    row = np.array([c[0] for c in cands])
+    sign = np.array([c[1] for c in cands])
+    idx = np.array([c[2] for c in cands])
+    n = len(freqs)
+    lo, hi = freqs[np.maximum(idx - 1, 0)], freqs[np.minimum(idx + 1, n - 1)]
+    is_sum = row < off
+    point = point_evaluator(designs, fs)
+
+    def value(c, f):
+        # Every band at every trial point, by the matrix-product path: the sum candidates
+        # need every active band there anyway.
+        hv = point.all_bands(f)
+        band = np.where(is_sum[c], 0, row[c] - off)
+        out = np.where(is_sum[c], an.db(hv[act].sum(axis=0)) if act.any() else 0.0,
+                       an.db(hv[band, np.arange(len(c))]))
+        return sign[c] * out
+
+    x, _ = dgrid.zoom_extremes(value, lo, hi, freqs[idx], sign * lv[row, idx])
+    x = np.unique(x[(x > freqs[0]) & (x < freqs[-1])])
+    x = x[~np.isin(x, freqs)]
+    if len(x):
+        freqs, h = _merge(freqs, h, x, evaluate(designs, x, fs).h)
+    return freqs, h
 
 
 def analyse(project: Project, points: int | None = None) -> Report:
@@ -356,9 +440,11 @@ def analyse(project: Project, points: int | None = None) -> Report:
             designs.append(design_band(b, fs))
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
-    freqs = _grid(project)
-    resp = evaluate(designs, freqs, fs)
     active = project.active()
+    freqs, h = _sample(project, designs, active)
+    resp = BandResponses(freqs, h, fs, lambda: log_derivative(
+        [d.sos for d in designs], freqs, fs, [d.delay_samples for d in designs],
+        [d.fir for d in designs]))
     act_idx = [i for i, on in enumerate(active) if on]
     sum_h = resp.sum(active)
     if act_idx:

@@ -24,6 +24,19 @@ def band_h(design, freqs_hz, fs_hz):
     return h * g * np.exp(-2j * np.pi * f / fs_hz * design.delay_samples)
 
 
+def band_h_dense(design, n, fs_hz):
+    """One band on ``n`` points from 0 to Nyquist (``scipy.signal.sosfreqz`` and ``freqz`` with
+    an integer ``worN``: their FFT path). Returns (freqs_hz, h)."""
+    h = np.ones(n, complex)
+    f = np.arange(n) * (fs_hz / 2) / n
+    if len(design.sos):
+        f, h = signal.sosfreqz(np.asarray(design.sos), worN=n, fs=fs_hz)
+    if design.fir is not None:
+        h = h * signal.freqz(np.asarray(design.fir), worN=n, fs=fs_hz)[1]
+    g = 10 ** (design.gain_db / 20) * (-1.0 if design.invert else 1.0)
+    return f, h * g * np.exp(-2j * np.pi * f / fs_hz * design.delay_samples)
+
+
 def db(h):
     return 20 * np.log10(np.maximum(np.abs(h), 1e-300))
 
@@ -62,16 +75,35 @@ def sum_h(designs, active, freqs_hz, fs_hz):
     return sum(band_h(d, freqs_hz, fs_hz) for d, on in zip(designs, active) if on)
 
 
+def band_peak(design, fs_hz, f_min, f_max, n=2 ** 20):
+    """One band's peak level in dB in [f_min, f_max]: sosfreqz on ``n`` points, then
+    scipy.optimize.minimize_scalar around the dense peak."""
+    f, h = band_h_dense(design, n, fs_hz)
+    keep = (f >= f_min) & (f <= f_max)
+    f, lv = f[keep], db(h[keep])
+    i = int(np.argmax(lv))
+    lo, hi = f[max(i - 1, 0)], f[min(i + 1, len(f) - 1)]
+    res = optimize.minimize_scalar(lambda x: -float(db(band_h(design, x, fs_hz))[0]),
+                                   bounds=(lo, hi), method="bounded",
+                                   options={"xatol": 1e-9 * hi})
+    return float(max(lv[i], -res.fun))
+
+
 def max_deviation(designs, active, fs_hz, f_min, f_max, n=2 ** 20):
     """The sum's largest deviation from 0 dB in [f_min, f_max] and where.
 
     sosfreqz on ``n`` points from 0 to Nyquist, then scipy.optimize.minimize_scalar (bounded)
     on the neighbours of the dense extreme.
     """
-    f = np.linspace(0, fs_hz / 2, n, endpoint=False)
-    f = f[(f >= f_min) & (f <= f_max)]
-    f = np.concatenate([[f_min], f, [f_max]])
-    dev = db(sum_h(designs, active, f, fs_hz))
+    parts = [band_h_dense(d, n, fs_hz) for d, on in zip(designs, active) if on]
+    f = parts[0][0]
+    keep = (f >= f_min) & (f <= f_max)
+    ends = np.array([f_min, f_max])
+    f = np.concatenate([[f_min], f[keep], [f_max]])
+    h = sum(p[1] for p in parts)[keep]
+    h = np.concatenate([sum_h(designs, active, ends[:1], fs_hz), h,
+                        sum_h(designs, active, ends[1:], fs_hz)])
+    dev = db(h)
     i = int(np.argmax(np.abs(dev)))
     sign = 1.0 if dev[i] >= 0 else -1.0
 

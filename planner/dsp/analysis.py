@@ -100,9 +100,9 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
     ``evaluate`` is given, every crossing is then refined by a bracketed
     root search on ``g`` against natural-log frequency, evaluated exactly at
     each trial frequency: the Illinois variant of regula falsi (Dowell and
-    Jarratt 1971), with a bisection step whenever a step has not halved the
-    bracket, so that the bracket shrinks at least by half every two steps
-    whatever ``g`` looks like (a sharp notch beside the crossing makes ``g``
+    Jarratt 1971), with a bisection step after every interpolation step that
+    has not halved ``|g|``, so that the bracket halves at least every two
+    steps whatever ``g`` looks like (a sharp notch beside the crossing makes ``g``
     steep and far from linear; the root stays bracketed). All crossings are
     refined together as arrays, each on its own two bands only. It stops
     when ``|g| <= tol_db`` or the bracket is ``xtol`` wide; the crossing
@@ -198,12 +198,12 @@ def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_h
     done = (g_best <= tol_db) | (np.abs(xb - xa) <= xtol)
     side = np.zeros(n, dtype=np.int8)          # which end the last step moved: -1 a, +1 b
     bisect = np.zeros(n, dtype=bool)
+    g_last = g_best.copy()                     # |g| at the last trial point
     for _ in range(max_iter):
         k = np.nonzero(~done)[0]
         if not len(k):
             break
         a0, b0, ga, gb = xa[k], xb[k], fa[k], fb[k]
-        width = np.abs(b0 - a0)
         with np.errstate(divide="ignore", invalid="ignore"):
             x = b0 - gb * (b0 - a0) / (gb - ga)          # regula falsi
         inside = np.isfinite(x) & (x > np.minimum(a0, b0)) & (x < np.maximum(a0, b0))
@@ -224,7 +224,9 @@ def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_h
         xa[ka], fa[ka] = x[to_a], g[to_a]
         xb[kb_], fb[kb_] = x[~to_a], g[~to_a]
         side[ka], side[kb_] = -1, 1
-        new_width = np.abs(xb[k] - xa[k])
-        bisect[k] = new_width > 0.5 * width
-        done[k] = (g_best[k] <= tol_db) | (new_width <= xtol) | (g == 0)
+        # An interpolation step that did not halve |g| is followed by a bisection step, so
+        # the bracket halves at least every other step when interpolation is poor.
+        bisect[k] = ~bisect[k] & (np.abs(g) > 0.5 * g_last[k])
+        g_last[k] = np.abs(g)
+        done[k] = (g_best[k] <= tol_db) | (np.abs(xb[k] - xa[k]) <= xtol) | (g == 0)
     return x_best, ha_best, hb_best, g_best

@@ -22,7 +22,7 @@ import numpy as np
 from planner.dsp.fir import fir_response, fir_response_and_derivative
 
 __all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses",
-           "PointEvaluator"]
+           "PointEvaluator", "log_derivative"]
 
 _IDENTITY = np.array([1.0, 0.0, 0.0, 1.0, 0.0, 0.0])
 
@@ -241,15 +241,42 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         h[idx] *= fir_response(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
 
     def dlog():
-        out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
-        for idx in groups.values():
-            hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]),
-                                                 freqs_hz, fs_hz)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                out[idx] += dh / hf
-        return out
+        return _log_derivative(stacked, w, d, groups, firs, freqs_hz, fs_hz)
 
     return BandResponses(freqs_hz, h, fs_hz, dlog)
+
+
+def _fir_groups(firs) -> dict[int, list[int]]:
+    """Bands with FIR taps, grouped by tap count (evaluated together)."""
+    groups: dict[int, list[int]] = {}
+    for i, taps in enumerate(firs or ()):
+        if taps is not None:
+            groups.setdefault(len(taps), []).append(i)
+    return groups
+
+
+def _log_derivative(stacked, w, d, groups, firs, freqs_hz, fs_hz):
+    out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
+    for idx in groups.values():
+        hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out[idx] += dh / hf
+    return out
+
+
+def log_derivative(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: float,
+                   delays_samples: Sequence[float] | None = None,
+                   firs: Sequence[np.ndarray | None] | None = None) -> np.ndarray:
+    """``d(ln h)/dw`` of every band on ``freqs_hz`` (w in rad/sample), shape (n_bands, n).
+
+    What :attr:`BandResponses.dlog` holds, for responses already evaluated
+    (gain and polarity do not change it; a delay of d samples adds ``-j d``).
+    """
+    freqs_hz = np.asarray(freqs_hz, dtype=float)
+    d = np.asarray(delays_samples if delays_samples is not None else np.zeros(len(sos_list)),
+                   float)
+    return _log_derivative(stack_sos(sos_list), _omega(freqs_hz, fs_hz), d, _fir_groups(firs),
+                           firs, freqs_hz, fs_hz)
 
 
 class PointEvaluator:
@@ -308,4 +335,16 @@ class PointEvaluator:
             sel = b == i
             if np.any(sel):
                 h[sel] = h[sel] * fir_response(taps, f[sel], self.fs_hz)
+        return h
+
+    def all_bands(self, freqs_hz) -> np.ndarray:
+        """Every band at every frequency, shape (n_bands, n): ``band_responses(...).h``, by
+        its matrix-product path, without stacking the chains again."""
+        f = np.asarray(freqs_hz, dtype=float)
+        w = _omega(f, self.fs_hz)
+        h = sos_response(self._stacked, w) * self._gain[:, None]
+        if np.any(self._delay):
+            h = h * np.exp(-1j * np.outer(self._delay, w))
+        for i, taps in self._firs:
+            h[i] *= fir_response(taps, f, self.fs_hz)
         return h
