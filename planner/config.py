@@ -62,6 +62,10 @@ INFO_SPAN_DB = 20.0
 CROSSING_SOLVE_TOL_DB = 1e-7
 CROSSING_XTOL = 1e-9
 CROSSING_LEVEL_TOL_DB = 0.01
+#: Relative rounding error of an evaluated response (about 50 float64 epsilons: a sum of
+#: many terms). Deep in a stop band, at level L dB, two levels cannot be matched better than
+#: 20/ln(10) x this x 10^(-L/20) dB (1e-5 dB at -200 dB), so the search asks no more.
+CROSSING_NOISE_REL = 1e-14
 #: Most root-finding steps per crossing (Illinois steps with bisection fallback; bisection
 #: alone takes a grid cell of ~0.007 in log frequency to 1e-9 in 23 steps, and a bisection
 #: follows any step that does not halve the difference).

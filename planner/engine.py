@@ -369,49 +369,49 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
     h = evaluate(designs, freqs, fs).h
     act = np.asarray(active, dtype=bool)
 
-    def levels(hh):
-        rows = [an.db(hh[act].sum(axis=0))[None, :]] if act.any() else []
-        return np.concatenate(rows + [an.db(hh)])
+    def sum_db(hh):
+        return an.db(hh[act].sum(axis=0)) if act.any() else np.zeros(hh.shape[1])
 
-    lv = levels(h)
+    lv = sum_db(h)
     for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
-        new = dgrid.fast_cells(freqs, lv[:1], np.array([-np.inf]))
+        new = dgrid.fast_cells(freqs, lv[None, :], np.array([-np.inf]))
         if not len(new):
             break
         freqs, h = _merge(freqs, h, new, evaluate(designs, new, fs).h)
-        lv = levels(h)
+        lv = sum_db(h)
 
-    # Local extremes: candidates are (row, sign, grid index); row 0 is the sum's level (sign
-    # +1: maxima, -1: minima), row k >= 1 band k - 1's level (its peak). A local extreme of
-    # the sum more than GRID_EXTREME_MARGIN_DB short of the largest cannot become it.
+    # Local extremes: candidates are (row, sign, grid index); row -1 is the sum's level (sign
+    # +1: maxima, -1: minima), row k >= 0 band k's level (its peak). A local extreme of the
+    # sum more than GRID_EXTREME_MARGIN_DB short of the largest cannot become it.
     cands = []
     # A sum flat to within the zoom's own tolerance (a complementary FIR split) has nothing
     # to refine: its local extremes are rounding noise.
-    if act.any() and np.ptp(lv[0]) > config.GRID_ZOOM_VTOL:
+    if act.any() and np.ptp(lv) > config.GRID_ZOOM_VTOL:
         for sg in (1.0, -1.0):
-            idx = dgrid.local_extremes(sg * lv[0], config.GRID_EXTREMES)
-            near = sg * lv[0][idx] >= sg * lv[0][idx[0]] - config.GRID_EXTREME_MARGIN_DB
-            cands += [(0, sg, int(i)) for i in idx[near]]
-    off = 1 if act.any() else 0
-    cands += [(off + k, 1.0, int(np.argmax(lv[off + k]))) for k in range(len(designs))]
+            idx = dgrid.local_extremes(sg * lv, config.GRID_EXTREMES)
+            near = sg * lv[idx] >= sg * lv[idx[0]] - config.GRID_EXTREME_MARGIN_DB
+            cands += [(-1, sg, int(i)) for i in idx[near]]
+    peaks = np.argmax(np.abs(h), axis=1)
+    cands += [(k, 1.0, int(peaks[k])) for k in range(len(designs))]
     row = np.array([c[0] for c in cands])
     sign = np.array([c[1] for c in cands])
     idx = np.array([c[2] for c in cands])
     n = len(freqs)
     lo, hi = freqs[np.maximum(idx - 1, 0)], freqs[np.minimum(idx + 1, n - 1)]
-    is_sum = row < off
+    is_sum = row < 0
+    start = np.where(is_sum, lv[idx], an.db(h[np.maximum(row, 0), idx]))
     point = point_evaluator(designs, fs)
 
     def value(c, f):
         # Every band at every trial point, by the matrix-product path: the sum candidates
         # need every active band there anyway.
         hv = point.all_bands(f)
-        band = np.where(is_sum[c], 0, row[c] - off)
+        band = np.maximum(row[c], 0)
         out = np.where(is_sum[c], an.db(hv[act].sum(axis=0)) if act.any() else 0.0,
                        an.db(hv[band, np.arange(len(c))]))
         return sign[c] * out
 
-    x, _ = dgrid.zoom_extremes(value, lo, hi, freqs[idx], sign * lv[row, idx])
+    x, _ = dgrid.zoom_extremes(value, lo, hi, freqs[idx], sign * start)
     x = np.unique(x[(x > freqs[0]) & (x < freqs[-1])])
     x = x[~np.isin(x, freqs)]
     if len(x):

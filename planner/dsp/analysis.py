@@ -91,7 +91,8 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
                    tol_db: float = config.CROSSING_SOLVE_TOL_DB,
                    xtol: float = config.CROSSING_XTOL,
                    max_iter: int = config.CROSSING_MAX_ITER,
-                   level_tol_db: float = config.CROSSING_LEVEL_TOL_DB) -> list[Crossing]:
+                   level_tol_db: float = config.CROSSING_LEVEL_TOL_DB,
+                   noise_rel: float = config.CROSSING_NOISE_REL) -> list[Crossing]:
     """Crossings of every pair of rows of ``h`` (bands) on the grid, refined exactly.
 
     A crossing is a change of sign of the level difference in dB,
@@ -126,6 +127,11 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
     tol_db, xtol : float
         Stop when the levels differ by at most ``tol_db`` dB, or when the
         bracket is at most ``xtol`` wide in natural-log frequency.
+    noise_rel : float
+        Relative rounding error of a response: where the bands are deep
+        (level ``L`` dB), the tolerance is raised to
+        ``20/ln(10) noise_rel 10^(-L/20)`` dB (at most ``level_tol_db / 10``),
+        since the levels cannot be known better there.
     max_iter : int
         Most steps.
     level_tol_db : float
@@ -163,9 +169,15 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
         ha = h[a_idx, jk] + t * (h[a_idx, jk + 1] - h[a_idx, jk])
         hb = h[b_idx, jk] + t * (h[b_idx, jk + 1] - h[b_idx, jk])
     else:
+        # Deep down, float64 rounding sets how level two bands can be found: never ask for
+        # more than noise_rel of the level (in dB: 20/ln 10 of it), nor less than a tenth of
+        # level_tol_db.
+        depth = 0.25 * (m[a_idx, jk] + m[b_idx, jk] + m[a_idx, jk + 1] + m[b_idx, jk + 1])
+        tol = np.clip(20.0 / np.log(10.0) * noise_rel * 10.0 ** (-depth / 20.0), tol_db,
+                      max(tol_db, 0.1 * level_tol_db))
         x, ha, hb, g = _refine_crossings(evaluate, a_idx, b_idx, lo, hi, d0, d1,
                                          h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
-                                         h[b_idx, jk + 1], tol_db, xtol, max_iter)
+                                         h[b_idx, jk + 1], tol, xtol, max_iter)
         # A sign change the search cannot close is a jump, not a crossing: both bands have a
         # zero at one frequency, where the difference is rounding noise.
         real = g <= level_tol_db
@@ -189,6 +201,7 @@ def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_h
     """
     xa, xb, fa, fb = (np.array(v, dtype=float) for v in (xa, xb, fa, fb))
     n = len(xa)
+    tol_db = np.broadcast_to(np.asarray(tol_db, dtype=float), (len(xa),))
     # Best point so far: the grid end nearer a root, with the grid's responses.
     lo_best = np.abs(fa) <= np.abs(fb)
     x_best = np.where(lo_best, xa, xb)
@@ -228,5 +241,5 @@ def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_h
         # the bracket halves at least every other step when interpolation is poor.
         bisect[k] = ~bisect[k] & (np.abs(g) > 0.5 * g_last[k])
         g_last[k] = np.abs(g)
-        done[k] = (g_best[k] <= tol_db) | (np.abs(xb[k] - xa[k]) <= xtol) | (g == 0)
+        done[k] = (g_best[k] <= tol_db[k]) | (np.abs(xb[k] - xa[k]) <= xtol) | (g == 0)
     return x_best, ha_best, hb_best, g_best
