@@ -6,7 +6,16 @@ Reference: each band rebuilt from its sections and evaluated by scipy.signal.sos
 EQ (R. Bristow-Johnson, W3C Working Group Note), written out here.
 """
 
+import json
+
 import numpy as np
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+from scipy import signal
+
+from planner import config, engine, presets_lib, project
+from tests import refs
 
 
 def cookbook_peaking(f0_hz, gain_db, q, fs_hz):
@@ -17,21 +26,25 @@ def cookbook_peaking(f0_hz, gain_db, q, fs_hz):
     b = np.array([1 + alpha * a, -2 * np.cos(w0), 1 - alpha * a])
     den = np.array([1 + alpha / a, -2 * np.cos(w0), 1 - alpha / a])
     return [float(x) for x in np.concatenate([b / den[0], den[1:] / den[0]])]
-import json
 
-import pytest
-from hypothesis import HealthCheck, given, settings
-from hypothesis import strategies as st
-from scipy import signal
-
-from planner import config, engine, presets_lib, project
-from tests import refs
 
 RATES = [44100, 48000, 96000, 192000]
 #: Between two points of the two-way preset's 1024-point grid (45 Hz - 20 kHz): a feature
 #: there falls between grid points of the plain log grid.
 _G = np.geomspace(45, 20000, 1024)
 BETWEEN = [float(np.sqrt(_G[k] * _G[k + 1])) for k in (700, 800, 900)]    # 2.9, 5.3, 9.6 kHz
+
+
+@pytest.mark.parametrize("gain_db", [-6.0, 6.0])
+def test_the_reference_peaking_eq_has_its_gain_at_f0(gain_db):
+    # Audio EQ Cookbook: the peaking EQ's gain at f0 is A^2 = 10^(gain_db / 20), its maximum
+    # (boost) or minimum (cut); checked with scipy.signal.sosfreqz.
+    c = cookbook_peaking(5000.0, gain_db, 300.0, 48000)
+    sos = np.array([c[:3] + [1.0] + c[3:]])
+    f = 5000.0 * np.array([0.999, 1.0, 1.001])
+    lv = 20 * np.log10(np.abs(signal.sosfreqz(sos, worN=f, fs=48000)[1]))
+    assert lv[1] == pytest.approx(gain_db, abs=1e-9)
+    assert np.argmax(np.sign(gain_db) * lv) == 1
 
 
 def notch(f0, q, fs):

@@ -646,3 +646,19 @@ async def test_settings_headroom_refuses_other_words():
         await settle(app, pilot)
         assert app.project is p0
         assert "refused: must be 'fail'" in screen_text(app)
+
+
+@pytest.mark.parametrize("text, on", [("fail", True), (" Yes ", True), ("warn", False),
+                                      ("off", False)])
+def test_headroom_words(text, on):
+    from planner.tui.app import _parse_headroom
+
+    assert _parse_headroom(text) is on
+
+
+def test_headroom_word_refused_names_the_field():
+    from planner.errors import ProjectError
+    from planner.tui.app import _parse_headroom
+
+    with pytest.raises(ProjectError, match=r"enforce_headroom: must be 'fail' .* not 'maybe'"):
+        _parse_headroom("maybe")
