@@ -40,7 +40,7 @@ DEFAULT_FILTER = {"type": "peaking", "freq": 1000.0, "gain_db": 0.0, "q": 1.0}
 BAND_FLAGS = ("invert", "mute", "solo")
 _BAND_SETTINGS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo"}
 _ANALYSIS_SETTINGS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
-                      "arith"}
+                      "arith", "enforce_headroom"}
 _Q_DEFAULT = 0.7071067811865476
 
 
@@ -343,7 +343,8 @@ def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
 def set_analysis(p: Project, /, **settings: Any) -> Project:
     """Change analysis settings: ``f_min``, ``f_max`` (Hz), ``points``, ``flatness_db`` (dB),
     ``phase_deg`` (deg), ``crossing_floor_db`` (dB), ``arith`` (a number-format name, or
-    None for none)."""
+    None for none), ``enforce_headroom`` (true: a band peaking above
+    :data:`planner.config.HEADROOM_LIMIT_DB` fails the check; false: it warns)."""
     def change(d):
         for key, value in settings.items():
             if key not in _ANALYSIS_SETTINGS:

@@ -10,18 +10,23 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from functools import lru_cache
+from types import MappingProxyType
+from typing import Any, Mapping
 
 import numpy as np
 
+from planner import config
 from planner import filters as fk
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
-from planner.dsp.response import BandResponses, band_responses
+from planner.dsp import grid as dgrid
+from planner.dsp.response import BandResponses, PointEvaluator, band_responses, log_derivative
 from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
 
 __all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
-           "CrossingResult", "BandResult", "Warning_"]
+           "point_evaluator",
+           "CrossingResult", "BandResult", "Warning_", "CheckResult", "STATE_TEXT"]
 
 
 @lru_cache(maxsize=4096)
@@ -106,6 +111,16 @@ def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> B
                           firs=[d.fir for d in designs])
 
 
+def point_evaluator(designs: list[BandDesign], fs_hz: float) -> PointEvaluator:
+    """Band ``bands[k]`` of ``designs`` at ``freqs_hz[k]``, for every k at once
+    (see :class:`planner.dsp.response.PointEvaluator`)."""
+    return PointEvaluator([d.sos for d in designs], fs_hz,
+                          gains_db=[d.gain_db for d in designs],
+                          delays_samples=[d.delay_samples for d in designs],
+                          invert=[d.invert for d in designs],
+                          firs=[d.fir for d in designs])
+
+
 @dataclass(frozen=True)
 class CrossingResult:
     """A crossing of two bands, named in project order (``bands[0]`` first)."""
@@ -144,6 +159,54 @@ class BandResult:
                 "latency_ms": self.latency_ms, "fir_linear_phase": self.fir_linear_phase}
 
 
+#: How each check state reads, as text (never by colour alone): only ``fail`` says FAIL.
+STATE_TEXT = {"ok": "ok", "warn": "warn", "fail": "FAIL"}
+
+
+@dataclass(frozen=True)
+class CheckResult:
+    """The verdict of one check of the report, decided once by the engine.
+
+    Attributes
+    ----------
+    name : str
+        ``"sum"`` (flatness), ``"crossings"`` (phase at the crossings above
+        the floor) or ``"headroom"`` (peak gain of each active band).
+    state : str
+        ``"ok"``, ``"warn"`` (outside its limit but not enforced) or
+        ``"fail"`` (outside its limit and enforced: the result fails).
+    enforced : bool
+        Whether a failure of this check fails the result.
+    figures : Mapping
+        The numbers behind the verdict, for presenters (per check: see
+        :func:`analyse`); presenters print these and never re-decide.
+    """
+
+    name: str
+    state: str
+    enforced: bool
+    figures: Mapping[str, Any]
+
+    def __post_init__(self):
+        if self.state not in STATE_TEXT:
+            raise ValueError(f"state must be one of {', '.join(STATE_TEXT)}, not {self.state!r}")
+        object.__setattr__(self, "figures", MappingProxyType(dict(self.figures)))
+
+    @property
+    def ok(self) -> bool:
+        """Within its limit (a ``warn`` is not ok, though it does not fail the result)."""
+        return self.state == "ok"
+
+    @property
+    def text(self) -> str:
+        """``"ok"``, ``"warn"`` or ``"FAIL"``."""
+        return STATE_TEXT[self.state]
+
+
+def _state(within: bool, enforced: bool) -> str:
+    return "ok" if within else ("fail" if enforced else "warn")
+
+
 @dataclass(frozen=True)
 class Warning_:
     """A plain-language warning, pointing at a band (and filter) where it can."""
@@ -160,6 +223,9 @@ class Report:
 
     The arrays (``freqs_hz``, ``responses``, ``sum_h``) are there for plots;
     :meth:`to_dict` gives the JSON form of ``crossplan check --json``.
+    ``checks`` holds the verdict of every check (:class:`CheckResult`), in
+    the order sum, crossings, headroom: the text report, the JSON and the
+    editor all read it, and ``ok`` is true when none of them is ``fail``.
     """
 
     project: Project
@@ -175,6 +241,14 @@ class Report:
     crossings: list[CrossingResult]
     bands: list[BandResult]
     warnings: list[Warning_] = field(default_factory=list)
+    checks: tuple[CheckResult, ...] = ()
+
+    def check(self, name: str) -> CheckResult:
+        """The :class:`CheckResult` called ``name`` (KeyError if there is none)."""
+        for c in self.checks:
+            if c.name == name:
+                return c
+        raise KeyError(name)
 
     @property
     def checked_crossings(self) -> list[CrossingResult]:
@@ -182,16 +256,23 @@ class Report:
 
     @property
     def worst_crossing(self) -> CrossingResult | None:
-        cc = self.checked_crossings
-        return max(cc, key=lambda c: abs(c.phase_diff_deg)) if cc else None
+        """The checked crossing with the largest phase difference (None without one)."""
+        return self.check("crossings").figures["worst"]
 
     @property
     def phase_ok(self) -> bool:
-        return all(c.ok for c in self.checked_crossings)
+        """Every crossing above the floor is within the phase limit."""
+        return self.check("crossings").ok
+
+    @property
+    def headroom_ok(self) -> bool:
+        """No active band peaks above :data:`planner.config.HEADROOM_LIMIT_DB`."""
+        return self.check("headroom").ok
 
     @property
     def ok(self) -> bool:
-        return self.flat_ok and self.phase_ok and any(self.active)
+        """True when no check fails (a warning does not fail the result)."""
+        return bool(self.checks) and all(c.state != "fail" for c in self.checks)
 
     @property
     def latency_samples(self) -> float:
@@ -235,16 +316,111 @@ class Report:
             "crossing_floor_db": a.crossing_floor_db,
             "bands": [b.to_dict() for b in self.bands],
             "warnings": [w.text for w in self.warnings],
+            "headroom": self._headroom_dict(),
+            "checks": [{"name": c.name, "state": c.state, "enforced": c.enforced}
+                       for c in self.checks],
         }
 
+    def _headroom_dict(self) -> dict:
+        h = self.check("headroom")
+        f = h.figures
+        w = None if f["worst"] is None else self.bands[f["worst"]]
+        worst = None if w is None else {"band": w.name, "peak_gain_db": w.peak_gain_db,
+                                        "peak_at_hz": w.peak_at_hz}
+        return {"ok": h.ok, "state": h.state, "enforced": h.enforced, "limit_db": f["limit_db"],
+                "worst": worst, "over": [self.bands[i].name for i in f["over"]]}
 
-def _grid(project: Project) -> np.ndarray:
+
+def _grid(project: Project, designs: list[BandDesign] | None = None) -> np.ndarray:
+    """The starting grid: ``analysis.points`` log-spaced points, the filters' own frequencies
+    (at most :data:`planner.config.GRID_NAMED_MAX`) and, given the designs, points around
+    the narrow features of every section (:func:`planner.dsp.grid.feature_points`)."""
     a = project.analysis
-    extra = [f.params[k] for b in project.bands for f in b.filters if not f.bypass
-             for k in ("freq", "freq2") if k in f.params]
-    extra += [x for b in project.bands for f in b.filters if not f.bypass
-              for x in f.params.get("crossovers", ())]
+    live = [f for b in project.bands for f in b.filters if not f.bypass]
+    extra = [f.params[k] for f in live for k in ("freq", "freq2") if k in f.params]
+    extra += [x for f in live for x in f.params.get("crossovers", ())]
+    extra = list(dict.fromkeys(extra))[:config.GRID_NAMED_MAX]
+    if designs:
+        sos = [d.sos for d in designs if len(d.sos)]
+        if sos:
+            f0, bw = dgrid.narrow_features(np.vstack(sos), project.sample_rate)
+            extra += list(dgrid.feature_points(f0, bw, a.f_min, a.f_max, a.points))
     return an.log_grid(a.f_min, a.f_max, a.points, extra)
+
+
+def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarray):
+    """The grid and responses with new points (and their responses) merged in order."""
+    f = np.concatenate([freqs, new_f])
+    order = np.argsort(f, kind="stable")
+    f = f[order]
+    keep = np.concatenate([[True], np.diff(f) > 0])
+    return f[keep], np.concatenate([h, new_h], axis=1)[:, order][:, keep]
+
+
+def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
+    """The analysis grid and every band's response on it.
+
+    The starting grid (:func:`_grid`) is evaluated; then, for at most
+    :data:`~planner.config.GRID_REFINE_PASSES` passes, the cells where the
+    sum's level changes by more than :data:`~planner.config.GRID_REFINE_STEP_DB`
+    are split (:func:`planner.dsp.grid.fast_cells`); then the largest local
+    maxima and minima of the sum's level and each band's peak are refined by
+    exact evaluation (:func:`planner.dsp.grid.zoom_extremes`) and added. The
+    grid has at most :func:`planner.config.grid_cap` points.
+    """
+    fs = project.sample_rate
+    freqs = _grid(project, designs)
+    h = evaluate(designs, freqs, fs).h
+    act = np.asarray(active, dtype=bool)
+
+    def sum_db(hh):
+        return an.db(hh[act].sum(axis=0)) if act.any() else np.zeros(hh.shape[1])
+
+    lv = sum_db(h)
+    for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
+        new = dgrid.fast_cells(freqs, lv[None, :], np.array([-np.inf]))
+        if not len(new):
+            break
+        freqs, h = _merge(freqs, h, new, evaluate(designs, new, fs).h)
+        lv = sum_db(h)
+
+    # Local extremes: candidates are (row, sign, grid index); row -1 is the sum's level (sign
+    # +1: maxima, -1: minima), row k >= 0 band k's level (its peak). A local extreme of the
+    # sum more than GRID_EXTREME_MARGIN_DB short of the largest cannot become it.
+    cands = []
+    # A sum flat to within the zoom's own tolerance (a complementary FIR split) has nothing
+    # to refine: its local extremes are rounding noise.
+    if act.any() and np.ptp(lv) > config.GRID_ZOOM_VTOL:
+        for sg in (1.0, -1.0):
+            idx = dgrid.local_extremes(sg * lv, config.GRID_EXTREMES)
+            near = sg * lv[idx] >= sg * lv[idx[0]] - config.GRID_EXTREME_MARGIN_DB
+            cands += [(-1, sg, int(i)) for i in idx[near]]
+    peaks = np.argmax(np.abs(h), axis=1)
+    cands += [(k, 1.0, int(peaks[k])) for k in range(len(designs))]
+    row = np.array([c[0] for c in cands])
+    sign = np.array([c[1] for c in cands])
+    idx = np.array([c[2] for c in cands])
+    n = len(freqs)
+    lo, hi = freqs[np.maximum(idx - 1, 0)], freqs[np.minimum(idx + 1, n - 1)]
+    is_sum = row < 0
+    start = np.where(is_sum, lv[idx], an.db(h[np.maximum(row, 0), idx]))
+    point = point_evaluator(designs, fs)
+
+    def value(c, f):
+        # Every band at every trial point, by the matrix-product path: the sum candidates
+        # need every active band there anyway.
+        hv = point.all_bands(f)
+        band = np.maximum(row[c], 0)
+        out = np.where(is_sum[c], an.db(hv[act].sum(axis=0)) if act.any() else 0.0,
+                       an.db(hv[band, np.arange(len(c))]))
+        return sign[c] * out
+
+    x, _ = dgrid.zoom_extremes(value, lo, hi, freqs[idx], sign * start)
+    x = np.unique(x[(x > freqs[0]) & (x < freqs[-1])])
+    x = x[~np.isin(x, freqs)]
+    if len(x):
+        freqs, h = _merge(freqs, h, x, evaluate(designs, x, fs).h)
+    return freqs, h
 
 
 def analyse(project: Project, points: int | None = None) -> Report:
@@ -268,9 +444,11 @@ def analyse(project: Project, points: int | None = None) -> Report:
             designs.append(design_band(b, fs))
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
-    freqs = _grid(project)
-    resp = evaluate(designs, freqs, fs)
     active = project.active()
+    freqs, h = _sample(project, designs, active)
+    resp = BandResponses(freqs, h, fs, lambda: log_derivative(
+        [d.sos for d in designs], freqs, fs, [d.delay_samples for d in designs],
+        [d.fir for d in designs]))
     act_idx = [i for i, on in enumerate(active) if on]
     sum_h = resp.sum(active)
     if act_idx:
@@ -282,12 +460,9 @@ def analyse(project: Project, points: int | None = None) -> Report:
     crossings: list[CrossingResult] = []
     if len(act_idx) >= 2:
         sub = resp.h[act_idx]
-        sub_designs = [designs[i] for i in act_idx]
-
-        def _eval(f):
-            return evaluate(sub_designs, f, fs).h
-
-        for c in an.find_crossings(freqs, sub, evaluate=_eval):
+        # Each crossing is refined on its own two bands, at its own trial frequencies.
+        point = point_evaluator([designs[i] for i in act_idx], fs)
+        for c in an.find_crossings(freqs, sub, evaluate=point):
             ia, ib = act_idx[c.a], act_idx[c.b]
             checked = c.level_db >= a.crossing_floor_db
             crossings.append(CrossingResult(
@@ -303,18 +478,51 @@ def analyse(project: Project, points: int | None = None) -> Report:
                         designs[i].fir_linear_phase)
              for i, b in enumerate(project.bands)]
     report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
-                    crossings, bands)
+                    crossings, bands, checks=_checks(project, active, max_dev, at, ripple,
+                                                     flat_ok, crossings, bands))
     report.warnings.extend(_warnings(report))
     return report
+
+
+def _checks(project: Project, active: list[bool], max_dev: float, at: float, ripple: float,
+            flat_ok: bool, crossings: list[CrossingResult],
+            bands: list[BandResult]) -> tuple[CheckResult, ...]:
+    """The verdicts of the sum, crossings and headroom checks (the one place they are made).
+
+    Figures: ``sum``: max_dev_db, at_hz, ripple_db, limit_db, muted (every
+    band muted); ``crossings``: limit_deg, floor_db, checked (how many
+    crossings are above the floor), worst (the checked
+    :class:`CrossingResult` with the largest phase difference, or None),
+    failing (those beyond the limit); ``headroom``: limit_db, worst (index
+    of the active band with the highest peak, or None), over (indices of the
+    active bands above the limit).
+    """
+    a = project.analysis
+    muted = not any(active)
+    checks = [CheckResult("sum", _state(flat_ok and not muted, True), True,
+                          {"max_dev_db": max_dev, "at_hz": at, "ripple_db": ripple,
+                           "limit_db": a.flatness_db, "muted": muted})]
+    checked = [c for c in crossings if c.checked]
+    failing = tuple(c for c in checked if not c.ok)
+    worst = max(checked, key=lambda c: abs(c.phase_diff_deg)) if checked else None
+    checks.append(CheckResult("crossings", _state(not failing, True), True,
+                              {"limit_deg": a.phase_deg, "floor_db": a.crossing_floor_db,
+                               "checked": len(checked), "worst": worst, "failing": failing}))
+    live = [i for i, b in enumerate(bands) if active[i]]
+    over = tuple(i for i in live if bands[i].peak_gain_db > config.HEADROOM_LIMIT_DB)
+    top = max(live, key=lambda i: bands[i].peak_gain_db) if live else None
+    checks.append(CheckResult("headroom", _state(not over, a.enforce_headroom),
+                              a.enforce_headroom,
+                              {"limit_db": config.HEADROOM_LIMIT_DB, "worst": top, "over": over}))
+    return tuple(checks)
 
 
 def _fmt_hz(f: float) -> str:
     return fk.format_hz(f)
 
 
-#: Latencies closer than this (samples) count as equal: a thousandth of a
-#: sample is a phase error of at most 0.18 deg, reached at fs/2 (180 deg x 0.001).
-LATENCY_TOL_SAMPLES = 1e-3
+#: Latencies closer than this (samples) count as equal (see :mod:`planner.config`).
+LATENCY_TOL_SAMPLES = config.LATENCY_TOL_SAMPLES
 
 
 def _fmt_samples(x: float) -> str:
@@ -421,22 +629,22 @@ def _warnings(r: Report) -> list[Warning_]:
             continue
         deg = abs(c.phase_diff_deg)
         where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {_fmt_hz(c.freq_hz)}"
-        if deg >= 150:
+        if deg >= config.INVERT_HINT_DEG:
             hint = "try inverting one"
         else:
             hint = "try matching the slopes of the two filters, or adjust delay_ms"
         out.append(Warning_(f"{where}: {hint}", band=c.band_index[1], code="phase"))
-    for i, b in enumerate(r.bands):
-        if b.active and b.peak_gain_db > 0.05:
-            out.append(Warning_(
-                f"band {b.name} peaks at {b.peak_gain_db:+.1f} dB near {_fmt_hz(b.peak_at_hz)}: "
-                f"lower its gain by {b.peak_gain_db:.1f} dB (or attenuate its input) "
-                "so that it cannot clip", band=i, code="headroom"))
+    for i in r.check("headroom").figures["over"]:
+        b = r.bands[i]
+        out.append(Warning_(
+            f"band {b.name} peaks at {b.peak_gain_db:+.1f} dB near {_fmt_hz(b.peak_at_hz)}: "
+            f"lower its gain by {b.peak_gain_db:.1f} dB (or attenuate its input) "
+            "so that it cannot clip", band=i, code="headroom"))
     for i, band in enumerate(p.bands):
         live = [(j, f) for j, f in enumerate(band.filters) if not f.bypass]
         for j, f in live:
             g = f.params.get("gain_db", 0.0)
-            if f.type in ("peaking", "low_shelf", "high_shelf") and g > 6.0:
+            if f.type in ("peaking", "low_shelf", "high_shelf") and g > config.BOOST_WARN_DB:
                 out.append(Warning_(
                     f"band {band.name}, filter {j + 1}: a {g:+.1f} dB boost drives the driver "
                     "harder and eats headroom; check the manufacturer's limits",
@@ -445,7 +653,8 @@ def _warnings(r: Report) -> list[Warning_]:
         if hps:
             j, top = max(hps, key=lambda jf: jf[1].params["freq"])
             order = top.params.get("order", 2)
-            if top.params["freq"] >= 1000.0 and order < 2 and top.family != "fir":
+            if (top.params["freq"] >= config.TWEETER_HIGHPASS_HZ
+                    and order < config.TWEETER_MIN_ORDER and top.family != "fir"):
                 # Common practice, no published source: a tweeter wants a
                 # highpass of at least 12 dB/octave.
                 out.append(Warning_(

@@ -18,6 +18,8 @@ from functools import cached_property
 from types import MappingProxyType
 from typing import Any, Mapping
 
+from planner import config
+
 __all__ = ["Filter", "Band", "Analysis", "Project", "FORMAT", "VERSION"]
 
 FORMAT = "crossplan-project"
@@ -162,15 +164,22 @@ class Analysis:
         The number format the target DSP computes in (``float64``,
         ``float32`` or ``qM.N``). When set, the check and the editor also
         report each band rounded to it; ``None`` means not chosen.
+    enforce_headroom : bool
+        When true, a band peaking above
+        :data:`planner.config.HEADROOM_LIMIT_DB` fails the check; when false
+        (the default) it is a warning only.
+
+    The defaults are those of :mod:`planner.config`.
     """
 
-    f_min: float = 20.0
-    f_max: float = 20000.0
-    points: int = 1024
-    flatness_db: float = 1.0
-    phase_deg: float = 20.0
-    crossing_floor_db: float = -20.0
+    f_min: float = config.DEFAULT_F_MIN_HZ
+    f_max: float = config.DEFAULT_F_MAX_HZ
+    points: int = config.DEFAULT_POINTS
+    flatness_db: float = config.DEFAULT_FLATNESS_DB
+    phase_deg: float = config.DEFAULT_PHASE_DEG
+    crossing_floor_db: float = config.DEFAULT_CROSSING_FLOOR_DB
     arith: str | None = None
+    enforce_headroom: bool = config.DEFAULT_ENFORCE_HEADROOM
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
 
     def __post_init__(self):

@@ -27,7 +27,7 @@ __all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filt
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "bands"}
 _ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
-                  "arith"}
+                  "arith", "enforce_headroom"}
 _BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver"}
 _FILTER_BASE = {"type", "family", "bypass"}
 
@@ -52,8 +52,8 @@ def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit=""
     return v
 
 
-def _bool(d: Mapping, key: str) -> bool:
-    v = d.get(key, False)
+def _bool(d: Mapping, key: str, default: bool = False) -> bool:
+    v = d.get(key, default)
     if not isinstance(v, bool):
         raise ProjectError(f"must be true or false, not {v!r}", field=key)
     return v
@@ -158,6 +158,7 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
         crossing_floor_db=float(_num(raw, "crossing_floor_db", d.crossing_floor_db, lo=-200,
                                      hi=0, unit="dB")),
         arith=_arith(raw.get("arith")),
+        enforce_headroom=_bool(raw, "enforce_headroom", d.enforce_headroom),
         extra={k: v for k, v in raw.items() if k not in _ANALYSIS_KEYS},
     )
 
@@ -234,6 +235,7 @@ def to_dict(project: Project) -> dict:
         "analysis": {"f_min": a.f_min, "f_max": a.f_max, "points": a.points,
                      "flatness_db": a.flatness_db, "phase_deg": a.phase_deg,
                      "crossing_floor_db": a.crossing_floor_db,
+                     "enforce_headroom": a.enforce_headroom,
                      **({"arith": a.arith} if a.arith is not None else {}), **a.extra},
         "bands": [],
     }

@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 
+from planner import config
 from planner.dsp.analysis import db, wrap_deg
 from planner.engine import Report
 from planner.filters import format_hz
@@ -22,49 +23,57 @@ SAFETY_NOTE = (
 )
 
 
-#: Crossings this many dB or less below the crossing floor are listed as information.
-INFO_SPAN_DB = 20.0
+def _state(c) -> str:
+    """A check's state as text, 4 columns wide (``ok  ``, ``warn``, ``FAIL``)."""
+    return f"{c.text:<4}"
 
 
-def _state(ok: bool) -> str:
-    return "ok  " if ok else "FAIL"
+def _headroom_note(h) -> str:
+    limit = f"limit {h.figures['limit_db']:+g} dB"
+    return f"{limit}, enforced" if h.enforced else f"{limit}, a warning only"
 
 
 def text_report(r: Report) -> str:
-    """The report of ``crossplan check`` as readable lines (no colour needed)."""
+    """The report of ``crossplan check`` as readable lines (no colour needed).
+
+    Every state is the engine's (:attr:`planner.engine.Report.checks`):
+    ``ok``, ``warn`` (outside its limit, not enforced) or ``FAIL``.
+    """
     p, a = r.project, r.project.analysis
+    s, x, h = r.check("sum"), r.check("crossings"), r.check("headroom")
     lines = [f"{p.name}  ({p.sample_rate / 1000:g} kHz, {len(p.bands)} bands, "
              f"{format_hz(a.f_min)} - {format_hz(a.f_max)})"]
-    if any(r.active):
-        lines.append(f"sum        {_state(r.flat_ok)} {r.max_dev_db:+.2f} dB at {format_hz(r.at_hz)}"
-                     f"  (limit +/-{a.flatness_db:g} dB, ripple {r.ripple_db:.2f} dB)")
+    if not s.figures["muted"]:
+        f = s.figures
+        lines.append(f"sum        {_state(s)} {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}"
+                     f"  (limit +/-{f['limit_db']:g} dB, ripple {f['ripple_db']:.2f} dB)")
     else:
-        lines.append("sum        FAIL every band is muted")
+        lines.append(f"sum        {_state(s)} every band is muted")
     checked = r.checked_crossings
     if not checked:
         lines.append("crossings  --   none above the floor "
-                     f"({a.crossing_floor_db:g} dB)")
+                     f"({x.figures['floor_db']:g} dB)")
     for k, c in enumerate(checked):
         head = "crossings " if k == 0 else "          "
-        lines.append(f"{head} {_state(c.ok)} {c.bands[0]}/{c.bands[1]} at {format_hz(c.freq_hz)}: "
-                     f"{c.phase_diff_deg:+.1f} deg apart, level {c.level_db:.1f} dB "
-                     f"(limit {a.phase_deg:g} deg)")
+        lines.append(f"{head} {'ok  ' if c.ok else 'FAIL'} {c.bands[0]}/{c.bands[1]} at "
+                     f"{format_hz(c.freq_hz)}: {c.phase_diff_deg:+.1f} deg apart, level "
+                     f"{c.level_db:.1f} dB (limit {x.figures['limit_deg']:g} deg)")
     # Crossings far below the floor (an FIR's stop-band lobes crossing each
     # other) are counted, not listed; check --json lists every one.
+    span = config.INFO_SPAN_DB
     deep = [c for c in r.crossings if not c.checked
-            and c.level_db < a.crossing_floor_db - INFO_SPAN_DB]
+            and c.level_db < x.figures["floor_db"] - span]
     for c in r.crossings:
         if not c.checked and c not in deep:
             lines.append(f"           info {c.bands[0]}/{c.bands[1]} at {format_hz(c.freq_hz)}: "
                          f"{c.phase_diff_deg:+.1f} deg, level {c.level_db:.1f} dB "
                          "(below the floor, not checked)")
     if deep:
-        lines.append(f"           info {len(deep)} more crossing(s) more than {INFO_SPAN_DB:g} dB "
+        lines.append(f"           info {len(deep)} more crossing(s) more than {span:g} dB "
                      f"below the floor, not listed (see check --json)")
     heads = ", ".join(f"{b.name} {b.peak_gain_db:+.1f} dB" + ("" if b.active else " (muted)")
                       for b in r.bands)
-    lines.append(f"headroom   {_state(all(b.peak_gain_db <= 0.05 for b in r.bands if b.active))}"
-                 f" peak gain: {heads}")
+    lines.append(f"headroom   {_state(h)} peak gain: {heads} ({_headroom_note(h)})")
     gd = r.sum_group_delay_ms()
     gd = gd[np.isfinite(gd)]
     if gd.size:
@@ -77,10 +86,22 @@ def text_report(r: Report) -> str:
     if r.warnings:
         lines.append("warnings")
         lines.extend(f"  - {w.text}" for w in r.warnings)
-    lines.append(f"result     {'ok: all checks pass' if r.ok else 'FAIL'}")
+    lines.append(f"result     {_result(r)}")
     if any(w.code in ("headroom", "boost", "shallow-highpass") for w in r.warnings):
         lines.append(SAFETY_NOTE)
     return "\n".join(lines)
+
+
+def _result(r: Report) -> str:
+    """``ok: all checks pass`` (naming the checks that only warn), or ``FAIL: ...`` naming
+    the failing checks."""
+    failed = [c.name for c in r.checks if c.state == "fail"]
+    if failed:
+        return "FAIL: " + ", ".join(failed)
+    warned = [c.name for c in r.checks if c.state == "warn"]
+    if warned:
+        return f"ok: all checks pass ({', '.join(warned)}: warning only, not enforced)"
+    return "ok: all checks pass"
 
 
 def view_series(r: Report, view: str) -> tuple[list[Series], str, tuple | None]:

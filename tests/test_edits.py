@@ -214,6 +214,17 @@ def test_set_analysis(p):
     assert (q.analysis.points, q.analysis.flatness_db) == (2048, 0.5)
 
 
+def test_set_analysis_enforce_headroom(p):
+    q = E.set_analysis(p, enforce_headroom=True)
+    assert q.analysis.enforce_headroom is True and p.analysis.enforce_headroom is False
+
+
+def test_set_analysis_enforce_headroom_refuses_a_non_boolean(p):
+    with pytest.raises(ProjectError, match=r"analysis\.enforce_headroom: must be true or false, "
+                                           r"not 1"):
+        E.set_analysis(p, enforce_headroom=1)
+
+
 def test_set_analysis_refuses_f_max_below_f_min(p):
     with pytest.raises(ProjectError, match=r"analysis\.f_max: 30 Hz must be above f_min \(45 Hz\)"):
         E.set_analysis(p, f_max=30.0)

@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from planner import engine, project
-from planner.presets_lib import load as load_preset, names as preset_names
+from planner.presets_lib import load as load_preset, names as preset_names, text as preset_text
 from tests.conftest import two_way
 
 
@@ -148,3 +148,96 @@ def test_design_cache_returns_read_only_arrays(example):
 def test_every_preset_loads_and_passes(name):
     r = engine.analyse(load_preset(name))
     assert r.ok, [w.text for w in r.warnings]
+
+
+# -- headroom: a warning by default, a check when analysis.enforce_headroom is set ----------
+
+def _both_bands_up(db, enforce=None):
+    """The two-way preset with both bands raised by ``db`` dB.
+
+    Its bands are Linkwitz-Riley and Butterworth filters (never above 0 dB: Butterworth 1930,
+    Linkwitz 1976) and a -0.8 dB dip, so each band's peak gain is its band gain.
+    """
+    import json
+
+    d = json.loads(preset_text("two-way"))
+    for b in d["bands"]:
+        b["gain_db"] = db
+    if enforce is not None:
+        d["analysis"]["enforce_headroom"] = enforce
+    return d
+
+
+def test_headroom_above_limit_warns_and_the_result_stays_ok():
+    r = analyse(_both_bands_up(0.2))
+    h = r.check("headroom")
+    assert (h.state, h.enforced, h.text) == ("warn", False, "warn")
+    assert [r.bands[i].name for i in h.figures["over"]] == ["woofer", "tweeter"]
+    assert r.ok and not r.headroom_ok
+    assert r.bands[0].peak_gain_db == pytest.approx(0.2, abs=0.01)   # the band gain (see above)
+    assert any(w.code == "headroom" for w in r.warnings)
+
+
+def test_headroom_enforced_fails_the_result():
+    r = analyse(_both_bands_up(0.2, enforce=True))
+    h = r.check("headroom")
+    assert (h.state, h.enforced, h.text) == ("fail", True, "FAIL")
+    assert not r.ok
+    assert r.flat_ok and r.phase_ok        # only headroom fails
+
+
+def test_headroom_at_or_below_limit_is_ok_even_when_enforced():
+    # 0.04 dB is under the 0.05 dB limit of planner.config (common practice, no published source).
+    r = analyse(_both_bands_up(0.04, enforce=True))
+    assert r.check("headroom").state == "ok" and r.ok
+    assert not any(w.code == "headroom" for w in r.warnings)
+
+
+def test_checks_are_one_list_in_order_and_ok_reads_it():
+    r = analyse(two_way(2))       # LR2 not inverted: sum and crossing fail (Linkwitz 1976)
+    assert [c.name for c in r.checks] == ["sum", "crossings", "headroom"]
+    assert [c.state for c in r.checks] == ["fail", "fail", "ok"]
+    assert all(c.enforced for c in r.checks[:2])
+    assert not r.ok
+
+
+def test_check_state_must_be_known():
+    with pytest.raises(ValueError, match=r"state must be one of ok, warn, fail, not 'bad'"):
+        engine.CheckResult("sum", "bad", True, {})
+
+
+def test_json_headroom_object_and_checks():
+    d = analyse(_both_bands_up(0.2)).to_dict()
+    assert d["ok"] is True
+    h = d["headroom"]
+    assert h["ok"] is False and h["enforced"] is False and h["state"] == "warn"
+    assert h["limit_db"] == 0.05
+    assert h["worst"]["band"] in ("woofer", "tweeter")
+    assert h["worst"]["peak_gain_db"] == pytest.approx(0.2, abs=0.01)
+    assert h["over"] == ["woofer", "tweeter"]
+    assert d["checks"] == [{"name": "sum", "state": "ok", "enforced": True},
+                           {"name": "crossings", "state": "ok", "enforced": True},
+                           {"name": "headroom", "state": "warn", "enforced": False}]
+    e = analyse(_both_bands_up(0.2, enforce=True)).to_dict()
+    assert e["ok"] is False and e["headroom"]["enforced"] is True
+
+
+def test_json_keeps_every_existing_key(example):
+    # The JSON of check --json is a contract: keys are added, never removed or renamed.
+    d = engine.analyse(project.from_dict(example)).to_dict()
+    assert set(d) >= {"ok", "name", "sample_rate", "sum", "crossovers", "crossings_below_floor",
+                      "phase_limit_deg", "crossing_floor_db", "bands", "warnings"}
+    assert set(d["sum"]) >= {"max_dev_db", "at_hz", "ripple_db", "limit_db", "ok",
+                             "group_delay_ms", "latency_samples", "latency_ms",
+                             "latencies_agree"}
+
+
+def test_headroom_limit_lives_in_config_only(monkeypatch):
+    # One rule, read by the engine alone: moving it moves the verdict, the JSON and the warning.
+    from planner import config
+
+    monkeypatch.setattr(config, "HEADROOM_LIMIT_DB", 0.5)
+    r = analyse(_both_bands_up(0.2, enforce=True))
+    assert r.check("headroom").state == "ok" and r.ok
+    assert r.to_dict()["headroom"]["limit_db"] == 0.5
+    assert not any(w.code == "headroom" for w in r.warnings)

@@ -181,3 +181,23 @@ def test_design_false_checks_fields_but_leaves_the_design_to_the_analysis(exampl
     raw["bands"][0]["filters"][1]["taps"] = 100   # a field error is still refused
     with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps"):
         project.from_dict(raw, design=False)
+
+
+def test_analysis_enforce_headroom_defaults_to_false(example):
+    assert project.from_dict(example).analysis.enforce_headroom is False   # documented default
+
+
+def test_analysis_enforce_headroom_loaded_saved_and_kept(example):
+    example["analysis"]["enforce_headroom"] = True
+    p = project.from_dict(example)
+    assert p.analysis.enforce_headroom is True
+    assert project.to_dict(p)["analysis"]["enforce_headroom"] is True
+    assert project.loads(project.dumps(p)) == p
+    assert "enforce_headroom" not in p.analysis.extra   # a known field, not an unknown key
+
+
+def test_analysis_enforce_headroom_must_be_true_or_false(example):
+    example["analysis"]["enforce_headroom"] = "yes"
+    with pytest.raises(ProjectError,
+                       match=r"^analysis\.enforce_headroom: must be true or false, not 'yes'"):
+        project.from_dict(example)

@@ -11,8 +11,10 @@ from typing import Callable
 
 import numpy as np
 
+from planner import config
+
 __all__ = ["log_grid", "db", "flatness", "find_crossings", "Crossing", "wrap_deg",
-           "peak_gain"]
+           "peak_gain", "per_point"]
 
 _TINY = 1e-300
 
@@ -74,28 +76,75 @@ class Crossing:
     level_db: float
 
 
-def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
-                   evaluate: Callable[[np.ndarray], np.ndarray] | None = None,
-                   refine_steps: int = 3) -> list[Crossing]:
-    """Crossings of every pair of rows of ``h`` (bands) on the grid.
+def per_point(evaluate_all: Callable[[np.ndarray], np.ndarray]
+              ) -> Callable[[np.ndarray, np.ndarray], np.ndarray]:
+    """A (band indices, frequencies) evaluator from one that gives every band at every
+    frequency (``f -> h`` of shape (n_bands, n)): simple, but it evaluates every band."""
+    def evaluate(bands, freqs_hz):
+        bands = np.asarray(bands, dtype=np.intp)
+        return evaluate_all(np.asarray(freqs_hz, float))[bands, np.arange(len(bands))]
+    return evaluate
 
-    A crossing is a change of sign of the level difference in dB between two
-    neighbouring grid points. Its frequency is found by linear interpolation
-    of the difference against log frequency, then refined by secant steps on
-    the exact response when ``evaluate`` (frequencies -> responses of all
-    bands, shape (n_bands, n)) is given. All pairs and all crossings are
-    found in a few array operations.
+
+def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
+                   evaluate: Callable[[np.ndarray, np.ndarray], np.ndarray] | None = None,
+                   tol_db: float = config.CROSSING_SOLVE_TOL_DB,
+                   xtol: float = config.CROSSING_XTOL,
+                   max_iter: int = config.CROSSING_MAX_ITER,
+                   level_tol_db: float = config.CROSSING_LEVEL_TOL_DB,
+                   noise_rel: float = config.CROSSING_NOISE_REL) -> list[Crossing]:
+    """Crossings of every pair of rows of ``h`` (bands) on the grid, refined exactly.
+
+    A crossing is a change of sign of the level difference in dB,
+    ``g = 20 log10|h_a| - 20 log10|h_b|``, between two neighbouring grid
+    points (a touch, ``g`` exactly 0 at a grid point, counts once). When
+    ``evaluate`` is given, every crossing is then refined by a bracketed
+    root search on ``g`` against natural-log frequency, evaluated exactly at
+    each trial frequency: the Illinois variant of regula falsi (Dowell and
+    Jarratt 1971), with a bisection step after every interpolation step that
+    has not halved ``|g|``, so that the bracket halves at least every two
+    steps whatever ``g`` looks like (a sharp notch beside the crossing makes ``g``
+    steep and far from linear; the root stays bracketed). All crossings are
+    refined together as arrays, each on its own two bands only. It stops
+    when ``|g| <= tol_db`` or the bracket is ``xtol`` wide; the crossing
+    reported is the trial point with the smallest ``|g|``, and its phase
+    and level are those of the exact responses there. A sign change that
+    closes on a jump rather than a root (``|g|`` still above
+    ``level_tol_db``: both bands have a zero at the same frequency, and the
+    difference there is rounding noise) is not a crossing and is dropped,
+    so every crossing reported has its bands within ``level_tol_db``.
+
+    Without ``evaluate`` the crossing is interpolated linearly on the grid.
 
     Parameters
     ----------
     freqs_hz : ndarray, shape (n,)
     h : ndarray, shape (n_bands, n), complex
     evaluate : callable, optional
-    refine_steps : int
+        ``evaluate(bands, freqs_hz)`` -> complex responses, shape (m,), of band
+        ``bands[k]`` at ``freqs_hz[k]`` (see
+        :class:`planner.dsp.response.PointEvaluator`, :func:`per_point`).
+    tol_db, xtol : float
+        Stop when the levels differ by at most ``tol_db`` dB, or when the
+        bracket is at most ``xtol`` wide in natural-log frequency.
+    noise_rel : float
+        Relative rounding error of a response: where the bands are deep
+        (level ``L`` dB), the tolerance is raised to
+        ``20/ln(10) noise_rel 10^(-L/20)`` dB (at most ``level_tol_db / 10``),
+        since the levels cannot be known better there.
+    max_iter : int
+        Most steps.
+    level_tol_db : float
+        Largest level difference (dB) of a crossing that is reported.
 
     Returns
     -------
     list of Crossing, ordered by pair then frequency.
+
+    References
+    ----------
+    .. [1] M. Dowell and P. Jarratt, "A modified regula falsi method for
+       computing the root of an equation", BIT 11, 1971, pp. 168-174.
     """
     nb = len(h)
     if nb < 2:
@@ -112,26 +161,27 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
         return []
     lf = np.log(freqs_hz)
     d0, d1 = diff[pk, jk], diff[pk, jk + 1]
-    t = np.where(d1 == d0, 0.0, d0 / (d0 - d1))
-    lo, hi = lf[jk], lf[jk + 1]
-    x = lo + t * (hi - lo)
     a_idx, b_idx = ia[pk], ib[pk]
-    if evaluate is not None:
-        # Secant refinement on the exact difference, bracketed by the grid cell.
-        x_prev, d_prev = lo.copy(), d0.copy()
-        for _ in range(refine_steps):
-            hv = evaluate(np.exp(x))
-            dv = db(hv[a_idx, np.arange(len(x))]) - db(hv[b_idx, np.arange(len(x))])
-            denom = dv - d_prev
-            step = np.where(np.abs(denom) > 1e-15, dv * (x - x_prev) / np.where(
-                np.abs(denom) > 1e-15, denom, 1.0), 0.0)
-            x_prev, d_prev = x, dv
-            x = np.clip(x - step, lo, hi)
-        hv = evaluate(np.exp(x))
-        ha, hb = hv[a_idx, np.arange(len(x))], hv[b_idx, np.arange(len(x))]
-    else:
+    lo, hi = lf[jk], lf[jk + 1]
+    if evaluate is None:
+        t = np.where(d1 == d0, 0.0, d0 / (d0 - d1))
+        x = lo + t * (hi - lo)
         ha = h[a_idx, jk] + t * (h[a_idx, jk + 1] - h[a_idx, jk])
         hb = h[b_idx, jk] + t * (h[b_idx, jk + 1] - h[b_idx, jk])
+    else:
+        # Deep down, float64 rounding sets how level two bands can be found: never ask for
+        # more than noise_rel of the level (in dB: 20/ln 10 of it), nor less than a tenth of
+        # level_tol_db.
+        depth = 0.25 * (m[a_idx, jk] + m[b_idx, jk] + m[a_idx, jk + 1] + m[b_idx, jk + 1])
+        tol = np.clip(20.0 / np.log(10.0) * noise_rel * 10.0 ** (-depth / 20.0), tol_db,
+                      max(tol_db, 0.1 * level_tol_db))
+        x, ha, hb, g = _refine_crossings(evaluate, a_idx, b_idx, lo, hi, d0, d1,
+                                         h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
+                                         h[b_idx, jk + 1], tol, xtol, max_iter)
+        # A sign change the search cannot close is a jump, not a crossing: both bands have a
+        # zero at one frequency, where the difference is rounding noise.
+        real = g <= level_tol_db
+        x, ha, hb, a_idx, b_idx = x[real], ha[real], hb[real], a_idx[real], b_idx[real]
     phase = wrap_deg(np.degrees(np.angle(ha) - np.angle(hb)))
     level = 0.5 * (db(ha) + db(hb))
     freq = np.exp(x)
@@ -139,3 +189,57 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
            for a, b, f, p, lv in zip(a_idx, b_idx, freq, phase, level)]
     out.sort(key=lambda c: (c.a, c.b, c.freq_hz))
     return out
+
+
+def _refine_crossings(evaluate, a_idx, b_idx, xa, xb, fa, fb, ha_lo, hb_lo, ha_hi, hb_hi,
+                      tol_db, xtol, max_iter):
+    """The bracketed search of :func:`find_crossings`, on all crossings at once.
+
+    ``[xa, xb]`` brackets each root, ``fa`` and ``fb`` the (opposite-signed
+    or zero) level differences there. Returns the best point of each
+    crossing and both bands' responses there.
+    """
+    xa, xb, fa, fb = (np.array(v, dtype=float) for v in (xa, xb, fa, fb))
+    n = len(xa)
+    tol_db = np.broadcast_to(np.asarray(tol_db, dtype=float), (len(xa),))
+    # Best point so far: the grid end nearer a root, with the grid's responses.
+    lo_best = np.abs(fa) <= np.abs(fb)
+    x_best = np.where(lo_best, xa, xb)
+    g_best = np.where(lo_best, np.abs(fa), np.abs(fb))
+    ha_best = np.where(lo_best, ha_lo, ha_hi)
+    hb_best = np.where(lo_best, hb_lo, hb_hi)
+    done = (g_best <= tol_db) | (np.abs(xb - xa) <= xtol)
+    side = np.zeros(n, dtype=np.int8)          # which end the last step moved: -1 a, +1 b
+    bisect = np.zeros(n, dtype=bool)
+    g_last = g_best.copy()                     # |g| at the last trial point
+    for _ in range(max_iter):
+        k = np.nonzero(~done)[0]
+        if not len(k):
+            break
+        a0, b0, ga, gb = xa[k], xb[k], fa[k], fb[k]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            x = b0 - gb * (b0 - a0) / (gb - ga)          # regula falsi
+        inside = np.isfinite(x) & (x > np.minimum(a0, b0)) & (x < np.maximum(a0, b0))
+        x = np.where(bisect[k] | ~inside, 0.5 * (a0 + b0), x)
+        hv = evaluate(np.concatenate([a_idx[k], b_idx[k]]), np.exp(np.concatenate([x, x])))
+        hav, hbv = hv[: len(k)], hv[len(k):]
+        g = db(hav) - db(hbv)
+        better = np.abs(g) < g_best[k]
+        kb = k[better]
+        x_best[kb], g_best[kb] = x[better], np.abs(g[better])
+        ha_best[kb], hb_best[kb] = hav[better], hbv[better]
+        # Keep the root bracketed: the new point replaces the end of its sign. When the
+        # same end moves twice running, the other end's value is halved (Illinois).
+        to_a = np.sign(g) == np.sign(ga)
+        ka, kb_ = k[to_a], k[~to_a]
+        fb[ka[side[ka] == -1]] *= 0.5
+        fa[kb_[side[kb_] == 1]] *= 0.5
+        xa[ka], fa[ka] = x[to_a], g[to_a]
+        xb[kb_], fb[kb_] = x[~to_a], g[~to_a]
+        side[ka], side[kb_] = -1, 1
+        # An interpolation step that did not halve |g| is followed by a bisection step, so
+        # the bracket halves at least every other step when interpolation is poor.
+        bisect[k] = ~bisect[k] & (np.abs(g) > 0.5 * g_last[k])
+        g_last[k] = np.abs(g)
+        done[k] = (g_best[k] <= tol_db[k]) | (np.abs(xb[k] - xa[k]) <= xtol) | (g == 0)
+    return x_best, ha_best, hb_best, g_best

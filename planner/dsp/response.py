@@ -21,7 +21,8 @@ import numpy as np
 
 from planner.dsp.fir import fir_response, fir_response_and_derivative
 
-__all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses"]
+__all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses",
+           "PointEvaluator", "log_derivative"]
 
 _IDENTITY = np.array([1.0, 0.0, 0.0, 1.0, 0.0, 0.0])
 
@@ -240,12 +241,110 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         h[idx] *= fir_response(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
 
     def dlog():
-        out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
-        for idx in groups.values():
-            hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]),
-                                                 freqs_hz, fs_hz)
-            with np.errstate(divide="ignore", invalid="ignore"):
-                out[idx] += dh / hf
-        return out
+        return _log_derivative(stacked, w, d, groups, firs, freqs_hz, fs_hz)
 
     return BandResponses(freqs_hz, h, fs_hz, dlog)
+
+
+def _fir_groups(firs) -> dict[int, list[int]]:
+    """Bands with FIR taps, grouped by tap count (evaluated together)."""
+    groups: dict[int, list[int]] = {}
+    for i, taps in enumerate(firs or ()):
+        if taps is not None:
+            groups.setdefault(len(taps), []).append(i)
+    return groups
+
+
+def _log_derivative(stacked, w, d, groups, firs, freqs_hz, fs_hz):
+    out = sos_response(stacked, w, derivative=True)[1] - 1j * d[:, None]
+    for idx in groups.values():
+        hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            out[idx] += dh / hf
+    return out
+
+
+def log_derivative(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: float,
+                   delays_samples: Sequence[float] | None = None,
+                   firs: Sequence[np.ndarray | None] | None = None) -> np.ndarray:
+    """``d(ln h)/dw`` of every band on ``freqs_hz`` (w in rad/sample), shape (n_bands, n).
+
+    What :attr:`BandResponses.dlog` holds, for responses already evaluated
+    (gain and polarity do not change it; a delay of d samples adds ``-j d``).
+    """
+    freqs_hz = np.asarray(freqs_hz, dtype=float)
+    d = np.asarray(delays_samples if delays_samples is not None else np.zeros(len(sos_list)),
+                   float)
+    return _log_derivative(stack_sos(sos_list), _omega(freqs_hz, fs_hz), d, _fir_groups(firs),
+                           firs, freqs_hz, fs_hz)
+
+
+class PointEvaluator:
+    """Responses of chosen bands at chosen frequencies: entry ``k`` is band ``bands[k]`` at
+    ``freqs_hz[k]``.
+
+    What a root search needs: each crossing is refined on its own two bands
+    only, at its own trial frequency, so ``m`` queries cost ``m`` chains
+    (not every band at every query). All queries are evaluated together:
+    the sections of each query's band are gathered from the stacked chains
+    and evaluated at that query's frequency in a few array operations; FIR
+    taps (if any) by :func:`planner.dsp.fir.fir_response`, one call per FIR
+    band. Gain, polarity and delay are applied as in :func:`band_responses`,
+    so the values equal its ``h[bands[k], k]``.
+
+    Parameters
+    ----------
+    sos_list : sequence of ndarray, each (n_i, 6)
+    fs_hz : float
+    gains_db, delays_samples, invert, firs : sequences, optional
+        As in :func:`band_responses`.
+    """
+
+    def __init__(self, sos_list: Sequence[np.ndarray], fs_hz: float,
+                 gains_db: Sequence[float] | None = None,
+                 delays_samples: Sequence[float] | None = None,
+                 invert: Sequence[bool] | None = None,
+                 firs: Sequence[np.ndarray | None] | None = None):
+        nb = len(sos_list)
+        self.fs_hz = float(fs_hz)
+        self._stacked = stack_sos(sos_list)
+        g = 10.0 ** (np.asarray(gains_db if gains_db is not None else np.zeros(nb), float) / 20)
+        if invert is not None:
+            g = g * np.where(np.asarray(invert, bool), -1.0, 1.0)
+        self._gain = g
+        self._delay = np.asarray(delays_samples if delays_samples is not None else np.zeros(nb),
+                                 float)
+        self._firs = [] if firs is None else [(i, np.asarray(t, float))
+                                              for i, t in enumerate(firs) if t is not None]
+
+    def __call__(self, bands, freqs_hz) -> np.ndarray:
+        """Complex responses, shape (m,), of ``bands`` (m,) at ``freqs_hz`` (m,) in Hz."""
+        b = np.asarray(bands, dtype=np.intp)
+        f = np.asarray(freqs_hz, dtype=float)
+        w = _omega(f, self.fs_hz)
+        e1 = np.exp(-1j * w)[:, None]
+        e2 = e1 * e1
+        c = self._stacked[b]                                   # (m, n_sections, 6)
+        num = c[..., 0] + c[..., 1] * e1 + c[..., 2] * e2
+        den = c[..., 3] + c[..., 4] * e1 + c[..., 5] * e2
+        h = num.prod(axis=1) / den.prod(axis=1) * self._gain[b]
+        d = self._delay[b]
+        if np.any(d):
+            h = h * np.exp(-1j * d * w)
+        for i, taps in self._firs:       # a loop over FIR bands, never over frequencies
+            sel = b == i
+            if np.any(sel):
+                h[sel] = h[sel] * fir_response(taps, f[sel], self.fs_hz)
+        return h
+
+    def all_bands(self, freqs_hz) -> np.ndarray:
+        """Every band at every frequency, shape (n_bands, n): ``band_responses(...).h``, by
+        its matrix-product path, without stacking the chains again."""
+        f = np.asarray(freqs_hz, dtype=float)
+        w = _omega(f, self.fs_hz)
+        h = sos_response(self._stacked, w) * self._gain[:, None]
+        if np.any(self._delay):
+            h = h * np.exp(-1j * np.outer(self._delay, w))
+        for i, taps in self._firs:
+            h[i] *= fir_response(taps, f, self.fs_hz)
+        return h

@@ -444,6 +444,10 @@ class CrossplanApp(App):
             if name == "arith":
                 value = text.strip() or None
                 return edits.set_analysis(p, arith=value), f"target arith {value or 'none'}"
+            if name == "enforce_headroom":
+                on = _parse_headroom(text)
+                return edits.set_analysis(p, enforce_headroom=on), \
+                    f"headroom {'fails' if on else 'warns'}"
             unit = {"f_min": "Hz", "f_max": "Hz", "flatness_db": "dB",
                     "crossing_floor_db": "dB"}.get(name, "")
             value = units.parse(text, unit, name)
@@ -729,6 +733,20 @@ class CrossplanApp(App):
         if self.history.dirty and not await self._settle_unsaved("quit"):
             return
         self.exit(0)
+
+
+#: What the settings screen's headroom field accepts: fail (enforced) or warn.
+_HEADROOM_WORDS = {"fail": True, "yes": True, "true": True, "on": True,
+                   "warn": False, "no": False, "false": False, "off": False}
+
+
+def _parse_headroom(text: str) -> bool:
+    word = text.strip().lower()
+    if word not in _HEADROOM_WORDS:
+        raise ProjectError(f"must be 'fail' (a band above the headroom limit fails the check) or "
+                           f"'warn' (it only warns), not {text.strip()!r}",
+                           field="enforce_headroom")
+    return _HEADROOM_WORDS[word]
 
 
 def _parse_field(spec, text: str):

@@ -10,7 +10,7 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, Input, Label, Static
 
-from planner import units
+from planner import config, units
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
@@ -104,6 +104,7 @@ SETTINGS = (
     ("phase_deg", "phase deg", ""),
     ("crossing_floor_db", "floor", "dB"),
     ("arith", "target arith", ""),
+    ("enforce_headroom", "headroom", ""),
 )
 
 
@@ -133,13 +134,17 @@ class SettingsScreen(ModalScreen[None]):
                          "naming them, while a filter would be at or above the new Nyquist "
                          "frequency; 'to' is lowered to Nyquist if needed. Target arith "
                          "(float32, q1.31, q2.30, q1.23, ...; empty for none) re-checks every "
-                         "band rounded to what the DSP computes in.", classes="hint")
+                         "band rounded to what the DSP computes in. Headroom: 'warn' (default) "
+                         "or 'fail' when a band peaks above "
+                         f"{config.HEADROOM_LIMIT_DB:+g} dB.", classes="hint")
 
     def _text(self, name: str, unit: str) -> str:
         p = self._project
         value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
         if name == "arith":
             return value or ""
+        if name == "enforce_headroom":
+            return "fail" if value else "warn"
         if name == "points":
             return str(value)
         if name == "sample_rate":

@@ -2,7 +2,7 @@
 
 Plain functions of a :class:`~planner.engine.Report` (no Textual here), so
 that the widgets only draw. Every state reads as text ("ok", "FAIL"), never
-by colour alone.
+by colour alone; every state is the engine's verdict (no threshold is restated here).
 """
 
 from __future__ import annotations
@@ -11,6 +11,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from planner import config
 from planner.dsp.analysis import db
 from planner.engine import Report
 from planner.filters import format_hz
@@ -156,28 +157,29 @@ def readout(d: PlotData) -> str:
     return f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
 
 
-def _state(ok: bool) -> str:
-    return "ok" if ok else "FAIL"
-
-
 def check_lines(r: Report) -> tuple[str, str, str]:
-    """The check bar: sum flatness; worst crossing; headroom per band (each one line at 80 columns)."""
-    a = r.project.analysis
-    if any(r.active):
-        s = (f"sum       {_state(r.flat_ok):<4} {r.max_dev_db:+.2f} dB at {format_hz(r.at_hz)} "
-             f"(limit +/-{a.flatness_db:g} dB, ripple {r.ripple_db:.2f} dB)")
+    """The check bar: sum flatness; worst crossing; headroom per band (each one line at 80 columns).
+
+    The states are the engine's (:attr:`planner.engine.Report.checks`): ``ok``, ``warn``
+    (outside its limit but not enforced: headroom by default) or ``FAIL``.
+    """
+    sc, xc, hc = r.check("sum"), r.check("crossings"), r.check("headroom")
+    f = sc.figures
+    if not f["muted"]:
+        s = (f"sum       {sc.text:<4} {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])} "
+             f"(limit +/-{f['limit_db']:g} dB, ripple {f['ripple_db']:.2f} dB)")
     else:
-        s = "sum       FAIL every band is muted"
-    w = r.worst_crossing
+        s = f"sum       {sc.text:<4} every band is muted"
+    w = xc.figures["worst"]
     if w is None:
-        x = f"crossing  --   none above the floor ({a.crossing_floor_db:g} dB)"
+        x = f"crossing  --   none above the floor ({xc.figures['floor_db']:g} dB)"
     else:
-        x = (f"crossing  {_state(r.phase_ok):<4} {w.phase_diff_deg:+.1f} deg at "
-             f"{format_hz(w.freq_hz)} {w.bands[0]}/{w.bands[1]} (limit {a.phase_deg:g} deg)")
-    head_ok = all(b.peak_gain_db <= 0.05 for b in r.bands if b.active)
+        x = (f"crossing  {xc.text:<4} {w.phase_diff_deg:+.1f} deg at "
+             f"{format_hz(w.freq_hz)} {w.bands[0]}/{w.bands[1]} "
+             f"(limit {xc.figures['limit_deg']:g} deg)")
     heads = ", ".join(f"{b.name} {_r1(b.peak_gain_db):+.1f}" + ("" if b.active else " off")
                       for b in r.bands)
-    return s, x, f"headroom  {_state(head_ok):<4} peak dB: {heads}"
+    return s, x, f"headroom  {hc.text:<4} peak dB: {heads}"
 
 
 def arith_line(rx) -> str:
@@ -226,7 +228,8 @@ def arith_warning_items(rx) -> list[WarningItem]:
             hint = f"; try {a.suggestions[0]}" if a.suggestions else ""
             out.append(WarningItem(f"band {b.name}, {where}: {rx.arith.name} cannot hold the "
                                    f"design at {rx.fs_hz:g} Hz: {a.reason}{hint}", i, None))
-        elif rx.arith.kind == "fixed" and b.active and b.peak_internal_gain_db > 0.05:
+        elif (rx.arith.kind == "fixed" and b.active
+              and b.peak_internal_gain_db > config.HEADROOM_LIMIT_DB):
             out.append(WarningItem(
                 f"band {b.name}: its sections peak at {b.peak_internal_gain_db:+.1f} dB inside "
                 f"the chain, above full scale in {rx.arith.name}; attenuate its input by "

@@ -315,7 +315,7 @@ def progress_text(fraction: float, text: str,
 
 
 class CheckBar(Static):
-    """Sum flatness, worst crossing and headroom, always on screen ("ok"/"FAIL" as text)."""
+    """Sum flatness, worst crossing and headroom, always on screen ("ok", "warn", "FAIL" as text)."""
 
     def __init__(self, **kw) -> None:
         super().__init__("analysing ...", markup=False, **kw)

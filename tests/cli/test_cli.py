@@ -180,3 +180,35 @@ def test_new_writes_the_preset_text_unchanged(tmp_path, capsys):
     assert main(["new", str(out), "--preset", "sub-sat"]) == 0
     assert out.read_text(encoding="utf-8") == presets_lib.text("sub-sat")
     assert "Den subwoofer and satellites" in capsys.readouterr().out
+
+
+def _raised_two_way(enforce=None):
+    from planner import presets_lib
+
+    d = json.loads(presets_lib.text("two-way"))
+    for b in d["bands"]:
+        b["gain_db"] = 0.2      # LR and Butterworth bands peak at their gain (Linkwitz 1976)
+    if enforce is not None:
+        d["analysis"]["enforce_headroom"] = enforce
+    return d
+
+
+def test_check_headroom_warning_exits_0(write_project, capsys):
+    assert main(["check", str(write_project(_raised_two_way()))]) == 0
+    out = capsys.readouterr().out
+    assert "headroom   warn" in out and "FAIL" not in out
+
+
+def test_check_headroom_enforced_exits_1(write_project, capsys):
+    assert main(["check", str(write_project(_raised_two_way(True)))]) == 1
+    assert "result     FAIL: headroom" in capsys.readouterr().out
+
+
+def test_check_json_headroom(write_project, capsys):
+    assert main(["check", str(write_project(_raised_two_way())), "--json"]) == 0
+    d = json.loads(capsys.readouterr().out)
+    assert d["ok"] is True and d["headroom"]["ok"] is False
+    assert d["headroom"]["enforced"] is False and d["headroom"]["limit_db"] == 0.05
+    assert main(["check", str(write_project(_raised_two_way(True))), "--json"]) == 1
+    d = json.loads(capsys.readouterr().out)
+    assert d["ok"] is False and d["headroom"]["enforced"] is True

@@ -20,7 +20,7 @@ def test_lr4_crossing_found_exactly():
     hp = np.vstack([signal.butter(2, 2200, "highpass", fs=FS, output="sos")] * 2)
     f = an.log_grid(20, 20000, 200)  # coarse grid: the refinement must do the work
     r = _pair(lp, hp, f)
-    cs = an.find_crossings(f, r.h, evaluate=lambda x: _pair(lp, hp, x).h)
+    cs = an.find_crossings(f, r.h, evaluate=an.per_point(lambda x: _pair(lp, hp, x).h))
     assert len(cs) == 1
     c = cs[0]
     assert c.freq_hz == pytest.approx(2200, rel=1e-6)
@@ -33,7 +33,7 @@ def test_butterworth_third_order_crossing_is_90_degrees():
     lp = signal.butter(3, 1000, fs=FS, output="sos")
     hp = signal.butter(3, 1000, "highpass", fs=FS, output="sos")
     f = an.log_grid(20, 20000, 300)
-    cs = an.find_crossings(f, _pair(lp, hp, f).h, evaluate=lambda x: _pair(lp, hp, x).h)
+    cs = an.find_crossings(f, _pair(lp, hp, f).h, evaluate=an.per_point(lambda x: _pair(lp, hp, x).h))
     assert abs(cs[0].phase_diff_deg) == pytest.approx(90.0, abs=1e-3)
     assert cs[0].level_db == pytest.approx(-3.0103, abs=1e-3)
 
@@ -62,3 +62,33 @@ def test_flatness_reports_signed_worst_and_where():
     dev, at, ripple = an.flatness(f, h)
     assert (dev, at) == (pytest.approx(-2.0), 100.0)
     assert ripple == pytest.approx(3.0)
+
+
+def test_crossings_beside_a_q100_notch_match_brentq():
+    # scipy.signal.iirnotch (Q 100 at 3.2 kHz) on the highpass of an LR4 pair (Linkwitz 1976):
+    # every crossing equals scipy.optimize.brentq on the level difference (sosfreqz),
+    # bracketed by a dense scan.
+    from scipy import optimize
+
+    from planner.dsp.response import PointEvaluator
+
+    lp = np.vstack([signal.butter(2, 2200, fs=FS, output="sos")] * 2)
+    b, a = signal.iirnotch(3200, 100, fs=FS)
+    hp = np.vstack([signal.butter(2, 2200, "highpass", fs=FS, output="sos")] * 2
+                   + [np.concatenate([b, a])])
+    f = an.log_grid(20, 20000, 300, extra_hz=[3200])
+    cs = an.find_crossings(f, _pair(lp, hp, f).h, evaluate=PointEvaluator([lp, hp], FS))
+
+    def g(x):
+        fx = np.exp(np.atleast_1d(x))
+        return (an.db(signal.sosfreqz(lp, worN=fx, fs=FS)[1])
+                - an.db(signal.sosfreqz(hp, worN=fx, fs=FS)[1]))
+
+    xs = np.log(np.geomspace(20, 20000, 200_000))
+    gs = g(xs)
+    k = np.nonzero(np.sign(gs[:-1]) * np.sign(gs[1:]) < 0)[0]
+    ref = [np.exp(optimize.brentq(lambda x: g(x)[0], xs[j], xs[j + 1], xtol=1e-14)) for j in k]
+    assert len(cs) == len(ref) == 3
+    for c, fr in zip(cs, ref):
+        assert c.freq_hz == pytest.approx(fr, rel=1e-7)   # two root searches of one function
+        assert abs(g(np.log(c.freq_hz))[0]) < 1e-4        # dB: the bands are level there

@@ -632,3 +632,53 @@ async def test_fractional_delay_warning_shows_in_the_editor(tmp_path):
         assert any(t.startswith("band tweeter: its delay, 0.48 samples at 48000 Hz, is not a "
                                 "whole number of samples; rounded to 0, the phase difference")
                    for t in items), items
+
+
+async def test_settings_headroom_fail_enforces_the_headroom_check():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("e")
+        await pilot.pause()
+        field = app.screen.query_one("#settings-enforce_headroom")
+        assert field.value == "warn"          # the default: a warning only
+        field.focus()
+        field.value = ""
+        await pilot.press(*"fail", "enter")
+        await settle(app, pilot)
+        assert app.project.analysis.enforce_headroom is True
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project.analysis.enforce_headroom is False
+
+
+async def test_settings_headroom_refuses_other_words():
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await pilot.press("e")
+        await pilot.pause()
+        field = app.screen.query_one("#settings-enforce_headroom")
+        field.focus()
+        field.value = ""
+        await pilot.press(*"maybe", "enter")
+        await settle(app, pilot)
+        assert app.project is p0
+        assert "refused: must be 'fail'" in screen_text(app)
+
+
+@pytest.mark.parametrize("text, on", [("fail", True), (" Yes ", True), ("warn", False),
+                                      ("off", False)])
+def test_headroom_words(text, on):
+    from planner.tui.app import _parse_headroom
+
+    assert _parse_headroom(text) is on
+
+
+def test_headroom_word_refused_names_the_field():
+    from planner.errors import ProjectError
+    from planner.tui.app import _parse_headroom
+
+    with pytest.raises(ProjectError, match=r"enforce_headroom: must be 'fail' .* not 'maybe'"):
+        _parse_headroom("maybe")

@@ -126,3 +126,31 @@ def test_time_view_without_impulse_raises():
     r = engine.analyse(lr4_pair())
     with pytest.raises(ValueError, match="needs the impulse responses"):
         views.plot_data(r, "step", 0, 2000.0)
+
+
+def _raised_two_way(db, enforce=False):
+    # Linkwitz-Riley and Butterworth bands never exceed 0 dB (Linkwitz and Riley 1976), so each
+    # band peaks at its gain.
+    p = presets_lib.load("two-way")
+    for i in range(len(p.bands)):
+        p = edits.set_band(p, i, gain_db=db)
+    return edits.set_analysis(p, enforce_headroom=enforce)
+
+
+def test_check_bar_headroom_over_limit_reads_warn():
+    s, x, h = views.check_lines(engine.analyse(_raised_two_way(0.2)))
+    assert h == "headroom  warn peak dB: woofer +0.2, tweeter +0.2"
+    assert "FAIL" not in s + x + h
+
+
+def test_check_bar_headroom_enforced_reads_fail():
+    _, _, h = views.check_lines(engine.analyse(_raised_two_way(0.2, enforce=True)))
+    assert h.startswith("headroom  FAIL peak dB: woofer +0.2")
+
+
+def test_check_bar_follows_the_configured_limit(monkeypatch):
+    from planner import config
+
+    monkeypatch.setattr(config, "HEADROOM_LIMIT_DB", 0.5)
+    _, _, h = views.check_lines(engine.analyse(_raised_two_way(0.2, enforce=True)))
+    assert h.startswith("headroom  ok   peak dB:")
