@@ -6,7 +6,8 @@ JSON text and evaluated here in extended precision (numpy longdouble), then comp
 references made by scipy.signal alone:
 
 * Butterworth: scipy.signal.butter(N, f, btype, fs=fs, output="sos");
-* Bessel (norms phase and mag): scipy.signal.bessel(..., norm=...);
+* Bessel: scipy.signal.bessel(..., norm=...) for the phase and mag norms; the delay norm
+  from scipy.signal's steps with the prototype unwarped (its definition: DC group delay);
 * Linkwitz-Riley: a Butterworth of half the order, squared (Linkwitz and Riley, JAES 1976);
 * cookbook second order with Q 0.7071: scipy.signal.butter(2, ...) (Audio EQ Cookbook, W3C
   note: Q = 1/sqrt(2) is the Butterworth response).
@@ -46,6 +47,14 @@ def _reference(flt, fs):
     t, fam, f = flt["type"], flt["family"], flt["freq"]
     if fam == "butterworth":
         return signal.butter(flt["order"], f, t, fs=fs, output="sos")
+    if fam == "bessel" and flt["norm"] == "delay":
+        # The delay norm is defined by its group delay at DC, 1 / (2 pi f): the prototype is
+        # scaled to 2 pi f unwarped (scipy.signal's own steps: besselap, lp2lp/lp2hp_zpk,
+        # bilinear_zpk, zpk2sos), since the bilinear transform keeps the DC delay in seconds.
+        z, p, k = signal.besselap(flt["order"], norm="delay")
+        move = signal.lp2lp_zpk if t == "lowpass" else signal.lp2hp_zpk
+        z, p, k = signal.bilinear_zpk(*move(z, p, k, wo=2 * np.pi * f), fs=fs)
+        return signal.zpk2sos(z, p, k)
     if fam == "bessel":
         return signal.bessel(flt["order"], f, t, norm=flt["norm"], fs=fs, output="sos")
     if fam == "linkwitz-riley":
@@ -67,7 +76,7 @@ def _filters(family, kind, fs):
                 flt["order"] = order
             out.append(flt)
     if family == "bessel":
-        out = [dict(x, norm=n) for x in out for n in ("phase", "mag")]
+        out = [dict(x, norm=n) for x in out for n in ("phase", "mag", "delay")]
     return out
 
 
