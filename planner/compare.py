@@ -804,7 +804,7 @@ def fir_equivalent(spec: DerivedSpec, fs_hz: float, max_taps: int = dfir.DEFAULT
     Returns the taps, times the nominal pass gain, and a label such as
     ``"equiripple 1177 taps"``. Raises as ``min_taps_equiripple``
     (:class:`~planner.errors.SpecNotMetError` beyond ``max_taps``,
-    :class:`~planner.dsp.fir.DesignCancelled`).
+    :class:`~planner.errors.DesignCancelled`).
     """
     fspec = spec.fir_spec()
     if spec.kind == "bandpass":
@@ -928,7 +928,7 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
         any, is used.
     cancel : callable ``() -> bool``, optional
         Asked before each trial FIR; True stops with
-        :class:`planner.dsp.fir.DesignCancelled`.
+        :class:`planner.errors.DesignCancelled`.
 
     Returns
     -------

@@ -13,7 +13,7 @@ __all__ = [
     "DesignError",
     "SpecNotMetError",
     "ExportError",
-    "DesignWarning",
+    "DesignCancelled",
 ]
 
 
@@ -68,5 +68,9 @@ class ExportError(CrossplanError):
     """An export cannot be made as asked (rate, format, arithmetic)."""
 
 
-class DesignWarning(UserWarning):
-    """A valid but risky design: a boost that clips, a shallow tweeter slope."""
+class DesignCancelled(DesignError):
+    """A long design was stopped because the caller's ``cancel`` returned True.
+
+    Raised through :mod:`planner.progress` when the command line gets Ctrl-C
+    or the editor's user presses Escape; no filter was made.
+    """

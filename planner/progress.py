@@ -11,7 +11,7 @@ scope*, which whoever runs the work sets up around it::
 
 ``report(fraction, text)`` receives a fraction in [0, 1] and a short text
 naming the design; ``cancel()`` returns True to stop it, and the design then
-raises :class:`planner.dsp.fir.DesignCancelled` (a
+raises :class:`planner.errors.DesignCancelled` (a
 :class:`~planner.errors.DesignError`).
 
 The scope lives in a :class:`contextvars.ContextVar`, so it belongs to the
@@ -62,7 +62,7 @@ def scope(report: Callable[[float, str], None] | None = None,
         ``"FIR lowpass 2.2 kHz (remez): searching the tap count"``.
     cancel : callable ``() -> bool``, optional
         Asked before each trial design; True stops the design with
-        :class:`planner.dsp.fir.DesignCancelled`.
+        :class:`planner.errors.DesignCancelled`.
 
     Yields
     ------

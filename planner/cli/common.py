@@ -91,14 +91,14 @@ def designing(work, stream=None) -> int:
     ``sys.stderr``) when it is a terminal, and nothing is drawn otherwise.
     A design spec that cannot be met (:class:`~planner.errors.SpecNotMetError`)
     prints its message and returns 1; Ctrl-C (:class:`KeyboardInterrupt`) or
-    a cancelled design (:class:`planner.dsp.fir.DesignCancelled`) prints
+    a cancelled design (:class:`planner.errors.DesignCancelled`) prints
     ``cancelled`` and returns 130. Nothing is written to the project: the
     commands only read it, and saves are atomic.
     """
     import sys
 
     from planner import progress
-    from planner.dsp.fir import DesignCancelled
+    from planner.errors import DesignCancelled
     from planner.errors import SpecNotMetError
 
     out = sys.stderr if stream is None else stream

@@ -49,7 +49,7 @@ import numpy as np
 from scipy import signal, special
 
 from planner.defaults import MAX_TAPS
-from planner.errors import DesignError, SpecNotMetError
+from planner.errors import DesignCancelled, DesignError, SpecNotMetError
 
 __all__ = [
     "WINDOWS",
@@ -93,10 +93,6 @@ DEFAULT_MAX_TAPS = MAX_TAPS
 
 #: Most exchanges of the equiripple designs (scipy.signal.remez's maxiter).
 _MAXITER = 100
-
-
-class DesignCancelled(DesignError):
-    """A long design was stopped because the caller's ``cancel`` returned True."""
 
 
 # --------------------------------------------------------------------------

@@ -22,7 +22,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
 from planner import edits, engine, progress, project as pj, units
-from planner.dsp.fir import DesignCancelled
+from planner.errors import DesignCancelled
 from planner.errors import CrossplanError, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project

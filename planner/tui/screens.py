@@ -208,7 +208,7 @@ class CompareScreen(Screen[None]):
     @work(thread=True, exclusive=True, group="compare")
     def _compare(self, project: Project, width: int) -> None:
         from planner import compare, progress
-        from planner.dsp.fir import DesignCancelled
+        from planner.errors import DesignCancelled
         from planner.errors import CrossplanError
         from planner.report import compare_text
 
