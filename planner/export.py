@@ -59,7 +59,7 @@ from typing import Sequence
 import numpy as np
 
 from planner import __version__, engine, filters as fk, project as pj
-from planner.cli.check import _finite
+from planner.jsonio import atomic_write, atomic_write_text, dumps
 from planner.defaults import EXPORT_FORMATS
 from planner.dsp import quantize as qz
 from planner.dsp import sections as dsec
@@ -211,16 +211,16 @@ def write_file(path: Path, write) -> None:
         file system, no space, no permission), with the system's reason.
     """
     try:
-        _write_bytes_atomic(Path(path), write)
+        atomic_write(Path(path), write)
     except OSError as e:
         raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
 
 
 def write_text_file(path: Path, text: str) -> None:
-    """:func:`planner.project.atomic_write_text`, with an OSError as an ExportError (as
+    """:func:`planner.jsonio.atomic_write_text`, with an OSError as an ExportError (as
     :func:`write_file`)."""
     try:
-        pj.atomic_write_text(path, text)
+        atomic_write_text(path, text)
     except OSError as e:
         raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
 
@@ -880,21 +880,6 @@ def arith_dict(rx: RateExport) -> dict:
                        **b.arith.to_dict()} for b in rx.bands]}
 
 
-def _write_bytes_atomic(path: Path, write) -> None:
-    import os
-    import tempfile
-
-    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=path.parent)
-    os.close(fd)
-    try:
-        write(tmp)
-        os.chmod(tmp, 0o644)
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
-
-
 @dataclass
 class ExportResult:
     """What :func:`write_export` did.
@@ -1029,7 +1014,7 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
         "files": [p.name for p in files],
         "checks": rate_entries,
     }
-    text = json.dumps(_finite(manifest), indent=1, allow_nan=False) + "\n"
+    text = dumps(manifest, indent=1)
     write_text_file(mpath, text)
     return ExportResult(exports, files, mpath, arith_ok, checks_ok, band_files, plans, notes)
 

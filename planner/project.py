@@ -19,7 +19,7 @@ from typing import Any, Mapping
 
 from planner import filters as fk
 from planner.errors import CrossplanError, ProjectError
-from planner.files import atomic_write_text
+from planner.jsonio import atomic_write_text
 from planner.model import FORMAT, VERSION, Analysis, Band, Filter, Project
 
 __all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",

@@ -6,9 +6,6 @@ be met, 2 for an invalid file, 130 when cancelled (Ctrl-C during a design).
 
 from __future__ import annotations
 
-import json
-import math
-
 
 def add_arguments(p, name):
     p.add_argument("file", metavar="FILE", help="project file (JSON)")
@@ -32,6 +29,7 @@ def run(args) -> int:
 def _run(args) -> int:
     from planner import engine, report
     from planner.cli.common import load_project
+    from planner.jsonio import dumps
 
     proj = load_project(args.file)
     r = engine.analyse(proj, points=args.points)
@@ -45,20 +43,9 @@ def _run(args) -> int:
         d = r.to_dict()
         if rx is not None:
             d["arith"] = export.arith_dict(rx)
-        print(json.dumps(_finite(d), indent=2, allow_nan=False))
+        print(dumps(d), end="")
     else:
         print(report.text_report(r))
         if rx is not None:
             print("\n".join(export.arith_text(rx)))
     return 0 if r.ok and (rx is None or rx.arith_ok) else 1
-
-
-def _finite(x):
-    """JSON has no NaN or infinity: such values are written as null."""
-    if isinstance(x, float):
-        return x if math.isfinite(x) else None
-    if isinstance(x, dict):
-        return {k: _finite(v) for k, v in x.items()}
-    if isinstance(x, (list, tuple)):
-        return [_finite(v) for v in x]
-    return x

@@ -52,7 +52,7 @@ def run(args) -> int:
 
 def _run(args) -> int:
     from planner import compare
-    from planner.cli.check import _finite
+    from planner.jsonio import dumps
     from planner.cli.common import load_project
     from planner.dsp.fir import DEFAULT_MAX_TAPS
     from planner.errors import ProjectError
@@ -65,7 +65,7 @@ def _run(args) -> int:
     c = compare.compare_project(proj, args.ripple_db, args.atten_db, args.iir_family,
                                 args.max_taps or DEFAULT_MAX_TAPS)
     if args.json:
-        print(json.dumps(_finite(c.to_dict()), indent=2, allow_nan=False))
+        print(dumps(c.to_dict()), end="")
     else:
         print(compare_text(c))
     return 0 if c.ok else 1

@@ -67,7 +67,7 @@ def run(args) -> int:
 
     from planner.dsp import measure
     from planner.errors import CrossplanError
-    from planner.project import atomic_write_text
+    from planner.jsonio import atomic_write_text
     from planner.render import read_wav
 
     f1, f2 = _band(args)

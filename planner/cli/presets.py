@@ -17,7 +17,7 @@ def run(args) -> int:
     # Neither command designs anything: the presets are written as shipped
     # (the tests load and check every one), so numpy and scipy stay unloaded.
     from planner import presets_lib
-    from planner.files import atomic_write_text
+    from planner.jsonio import atomic_write_text
 
     if args.command == "presets":
         for n in presets_lib.names():
