@@ -41,7 +41,7 @@ from planner.dsp import analysis as an
 from planner.dsp.fracdelay import FracDelayDesign, kaiser_design, nearest_whole
 from planner.engine import Report, Warning_, evaluate
 from planner.errors import ExportError
-from planner.filters import format_hz
+from planner.units import format_hz
 
 __all__ = ["MODES", "FRACTION_TOL_SAMPLES", "LEVEL_FLOOR_DB", "BandDelay", "DelayPlan",
            "plan_delays", "check_mode", "fraction_of", "is_fractional", "CrossingShift",

@@ -23,6 +23,7 @@ from planner.dsp import grid as dgrid
 from planner.dsp.response import BandResponses, PointEvaluator, band_responses, log_derivative
 from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
+from planner.units import format_hz
 
 __all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
            "point_evaluator",
@@ -517,10 +518,6 @@ def _checks(project: Project, active: list[bool], max_dev: float, at: float, rip
     return tuple(checks)
 
 
-def _fmt_hz(f: float) -> str:
-    return fk.format_hz(f)
-
-
 #: Latencies closer than this (samples) count as equal (see :mod:`planner.config`).
 LATENCY_TOL_SAMPLES = config.LATENCY_TOL_SAMPLES
 
@@ -622,13 +619,13 @@ def _warnings(r: Report) -> list[Warning_]:
     out.extend(_latency_warnings(r))
     if not r.flat_ok:
         out.append(Warning_(
-            f"the sum deviates by {r.max_dev_db:+.2f} dB at {_fmt_hz(r.at_hz)} "
+            f"the sum deviates by {r.max_dev_db:+.2f} dB at {format_hz(r.at_hz)} "
             f"(limit +/-{a.flatness_db:g} dB)", code="flatness"))
     for c in r.checked_crossings:
         if c.ok:
             continue
         deg = abs(c.phase_diff_deg)
-        where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {_fmt_hz(c.freq_hz)}"
+        where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {format_hz(c.freq_hz)}"
         if deg >= config.INVERT_HINT_DEG:
             hint = "try inverting one"
         else:
@@ -637,7 +634,7 @@ def _warnings(r: Report) -> list[Warning_]:
     for i in r.check("headroom").figures["over"]:
         b = r.bands[i]
         out.append(Warning_(
-            f"band {b.name} peaks at {b.peak_gain_db:+.1f} dB near {_fmt_hz(b.peak_at_hz)}: "
+            f"band {b.name} peaks at {b.peak_gain_db:+.1f} dB near {format_hz(b.peak_at_hz)}: "
             f"lower its gain by {b.peak_gain_db:.1f} dB (or attenuate its input) "
             "so that it cannot clip", band=i, code="headroom"))
     for i, band in enumerate(p.bands):
@@ -659,7 +656,7 @@ def _warnings(r: Report) -> list[Warning_]:
                 # highpass of at least 12 dB/octave.
                 out.append(Warning_(
                     f"band {band.name} is protected only by a first-order (6 dB/octave) "
-                    f"highpass at {_fmt_hz(top.params['freq'])}: a tweeter usually needs "
+                    f"highpass at {format_hz(top.params['freq'])}: a tweeter usually needs "
                     "12 dB/octave or more", band=i, filter=j, code="shallow-highpass"))
     from planner.delays import fraction_warnings  # (imports this module)
     out.extend(fraction_warnings(r))

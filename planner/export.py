@@ -67,6 +67,7 @@ from planner.dsp.response import band_responses
 from planner.dsp.signals import fft_convolve, truncate_iir_impulse
 from planner.errors import CrossplanError, ExportError, ProjectError
 from planner.model import Project
+from planner.units import format_hz
 
 __all__ = [
     "FORMAT", "VERSION", "MANIFEST_FORMAT", "FORMATS", "SECTION_MODES", "MAX_DEVIATION_DB",
@@ -522,11 +523,11 @@ def _arith(d: engine.BandDesign, laid: np.ndarray, scale: float, a: qz.Arith,
         res.failed_section = _worst_section(laid, eff, freqs, fs)
         if dev.in_range_db > MAX_DEVIATION_DB:
             res.reason = (f"the response deviates by {_against(dev.in_range_db, MAX_DEVIATION_DB)}"
-                          f" dB at {fk.format_hz(dev.in_range_at_hz)} (limit {MAX_DEVIATION_DB:g}"
+                          f" dB at {format_hz(dev.in_range_at_hz)} (limit {MAX_DEVIATION_DB:g}"
                           f" dB within {RANGE_DB:g} dB of the band's peak)")
         else:
             res.reason = (f"the error reaches {_against(dev.floor_error_db, ERROR_FLOOR_DB)} dB "
-                          f"re the band's peak at {fk.format_hz(dev.floor_at_hz)} (limit "
+                          f"re the band's peak at {format_hz(dev.floor_at_hz)} (limit "
                           f"{ERROR_FLOOR_DB:g} dB more than {RANGE_DB:g} dB below the peak)")
     if n:
         res.suggestions = qz.suggest_fixes(laid, a, fs, freqs, MAX_DEVIATION_DB, RANGE_DB,
@@ -827,13 +828,13 @@ def _stage_text(b: BandExport) -> str:
     if not k:
         return ""
     what = f"section {k}" if k <= n else "the FIR" if k == n + 1 else "scale"
-    return f" after {what} near {fk.format_hz(b.peak_internal_at_hz)}"
+    return f" after {what} near {format_hz(b.peak_internal_at_hz)}"
 
 
 def _deviation_text(r: ArithResult) -> str:
     if r.deviation_db is None:
         return "deviation not evaluated"
-    at = f" at {fk.format_hz(r.deviation_at_hz)}" if math.isfinite(r.deviation_at_hz) else ""
+    at = f" at {format_hz(r.deviation_at_hz)}" if math.isfinite(r.deviation_at_hz) else ""
     text = (f"deviation {_against(r.deviation_db, MAX_DEVIATION_DB)} dB{at} within "
             f"{r.range_db:g} dB of the peak")
     if r.floor_error_db is not None and math.isfinite(r.floor_error_db):

@@ -18,6 +18,7 @@ import numpy as np
 
 from planner.dsp import biquad, iir
 from planner.errors import DesignError, ProjectError
+from planner.units import format_hz
 
 __all__ = [
     "FieldSpec",
@@ -27,7 +28,6 @@ __all__ = [
     "lookup",
     "kinds",
     "check_params",
-    "format_hz",
 ]
 
 
@@ -133,13 +133,6 @@ def lookup(type_: str, family: str | None) -> FilterKind:
             f"unknown {type_} family {family!r}; known: {', '.join(f for f in fams if f)}",
             field="family")
     return _REGISTRY[(type_, family)]
-
-
-def format_hz(freq_hz: float) -> str:
-    """``2200 -> '2.2 kHz'``, ``35 -> '35 Hz'``, ``12500 -> '12.5 kHz'``."""
-    if freq_hz >= 1000:
-        return f"{freq_hz / 1000:.3g} kHz"
-    return f"{freq_hz:.3g} Hz"
 
 
 def _number(value: Any, name: str) -> float:

@@ -45,7 +45,8 @@ import numpy as np
 from planner import progress
 from planner.dsp import fir
 from planner.errors import CrossplanError, ProjectError, SpecNotMetError
-from planner.filters import FieldSpec, FilterDesign, FilterKind, format_hz, register
+from planner.filters import FieldSpec, FilterDesign, FilterKind, register
+from planner.units import format_hz
 
 __all__ = ["METHODS", "WINDOWS", "FirSpecNotMetError", "FirDesignCancelled", "spec_of",
            "split_signature", "KINDS"]

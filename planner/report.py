@@ -9,8 +9,8 @@ import numpy as np
 from planner import config
 from planner.dsp.analysis import db, wrap_deg
 from planner.engine import Report
-from planner.filters import format_hz
 from planner.plots import Series, freq_plot, time_plot
+from planner.units import format_hz
 
 __all__ = ["text_report", "view_series", "plot_report", "time_series", "plot_time",
            "compare_text",
@@ -178,18 +178,14 @@ def plot_time(tr, title: str, width: int = 80, height: int = 22, color: bool | N
 _LABEL, _COL = 20, 29   # label and IIR column widths
 
 
-def _hz(f: float) -> str:
-    return format_hz(f)
-
-
 def _spec_line(s) -> str:
     if s.kind == "lowpass":
-        where = f"pass to {_hz(s.pass_hz)}, stop from {_hz(s.stop_hz)}"
+        where = f"pass to {format_hz(s.pass_hz)}, stop from {format_hz(s.stop_hz)}"
     elif s.kind == "highpass":
-        where = f"pass from {_hz(s.pass_hz)}, stop below {_hz(s.stop_hz)}"
+        where = f"pass from {format_hz(s.pass_hz)}, stop below {format_hz(s.stop_hz)}"
     else:
-        where = (f"pass {_hz(s.pass_hz[0])}-{_hz(s.pass_hz[1])}, "
-                 f"stop below {_hz(s.stop_hz[0])} and from {_hz(s.stop_hz[1])}")
+        where = (f"pass {format_hz(s.pass_hz[0])}-{format_hz(s.pass_hz[1])}, "
+                 f"stop below {format_hz(s.stop_hz[0])} and from {format_hz(s.stop_hz[1])}")
     return f"{s.kind}: {where}, level {s.pass_gain_db:+.2f} dB"
 
 
@@ -265,7 +261,7 @@ def _build_lines(s) -> list[str]:
     lat = f"{'':<{_LABEL}}latency {s.latency_samples:g} smp = {s.latency_ms:.3f} ms"
     if s.max_dev_db is None:
         return [f"{head:<{_LABEL}}every band is muted", lat]
-    return [f"{head:<{_LABEL}}{s.max_dev_db:+.2f} dB at {_hz(s.at_hz)}, ripple "
+    return [f"{head:<{_LABEL}}{s.max_dev_db:+.2f} dB at {format_hz(s.at_hz)}, ripple "
             f"{s.ripple_db:.2f} dB", lat]
 
 

@@ -19,7 +19,7 @@ import re
 from planner.errors import ProjectError
 
 __all__ = ["parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
-           "format_freq_hz", "UNITS"]
+           "format_hz", "UNITS"]
 
 #: Units a field may have, and the unit words accepted for each (lower case).
 UNITS = {
@@ -119,8 +119,12 @@ def _num(v: float, digits: int) -> str:
     return f"{v:.{digits}g}"  # very small or large values use e-notation, which parse reads
 
 
-def format_freq_hz(freq_hz: float, digits: int = 10) -> str:
-    """``2200 -> '2.2 kHz'``, ``350 -> '350 Hz'`` (up to ``digits`` significant digits)."""
+def format_hz(freq_hz: float, digits: int = 3) -> str:
+    """``2200 -> '2.2 kHz'``, ``35 -> '35 Hz'``, ``12500 -> '12.5 kHz'`` (``digits`` significant).
+
+    The one way crossplan writes a frequency: reports, warnings, labels and
+    the editor. With ``digits=10`` it reads back exactly through :func:`parse`.
+    """
     if abs(freq_hz) >= 1000:
         return f"{_num(freq_hz / 1000, digits)} kHz"
     return f"{_num(freq_hz, digits)} Hz"
@@ -133,6 +137,6 @@ def format(value: float, unit: str = "", digits: int = 10) -> str:  # noqa: A001
     ``format(1.5, "ms") -> '1.5 ms'``, ``format(0.7) -> '0.7'``.
     """
     if unit == "Hz":
-        return format_freq_hz(value, digits)
+        return format_hz(value, digits)
     text = _num(value, digits)
     return f"{text} {unit}" if unit else text

@@ -16,7 +16,7 @@ from scipy import signal
 from planner import delays, engine, project
 from planner.dsp import fracdelay as fd
 from planner.errors import ExportError
-from planner.filters import format_hz
+from planner.units import format_hz
 from tests.conftest import two_way
 
 FS = 48000.0
