@@ -52,7 +52,7 @@ from typing import Callable, Sequence
 import numpy as np
 from scipy import optimize, signal, special
 
-from planner import engine
+from planner import engine, filters as fk
 from planner.defaults import COMPARE_ATTEN_DB, COMPARE_RIPPLE_DB, IIR_FAMILIES
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
@@ -876,9 +876,9 @@ def _parts(band, fs: float, kept: set[int] = frozenset()):
             continue
         d = engine.design_filter(f, fs)
         if k in kept:
-            kept_labels.append(f.label())
+            kept_labels.append(fk.label(f))
         if is_crossover(f) and k not in kept:
-            labels.append(f.label())
+            labels.append(fk.label(f))
             if len(d.sos):
                 xs.append(d.sos)
             if d.fir is not None:

@@ -201,11 +201,12 @@ def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Proj
 
     A value of None removes the parameter (e.g. ``q=None`` to give a shelf a ``slope``).
     On a band of a complementary FIR split, every parameter but ``band`` changes in all the
-    split's bands at once (see :func:`_split_siblings`).
+    split's bands at once (see :func:`_sharing`).
     """
     def change(d):
         f = _chain(d, band, flt)[flt]
-        siblings = _split_siblings(d, f)
+        kind = fk.lookup(f["type"], f.get("family"))
+        siblings = _sharing(d, f, kind)
         for key, value in params.items():
             if key in ("type", "family"):
                 raise ProjectError("use set_filter_type to change the type or family",
@@ -214,58 +215,38 @@ def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Proj
                 if value is None:
                     g.pop(key, None)
                 else:
-                    if key == "method" and g.get("family") == "fir" and g.get("method") != value:
-                        _drop_for_method(g, value, set(params))
+                    if kind.prepare_edit is not None:
+                        kind.prepare_edit(g, key, value, set(params))
                     g[key] = value
     return _rebuild(p, change)
 
 
-def _split_siblings(d: dict, f: dict) -> list[dict]:
-    """The other bands' filters of the same complementary split as ``f`` (none for others).
+def _sharing(d: dict, f: dict, kind: fk.FilterKind) -> list[dict]:
+    """The other filters (JSON forms) that are parts of one design with ``f`` (none for most).
 
-    A split is one design shared by its bands: changing its crossovers, taps or
-    method in one band changes it in all of them, so they keep summing to a delay.
+    A complementary split is one design shared by its bands: changing its
+    crossovers, taps or method in one band changes it in all of them, so they
+    keep summing to a delay (the kind's ``shares_design``).
     """
-    from planner.filters_fir import split_signature
-
-    if (f.get("type"), f.get("family")) != ("split", "fir"):
+    if kind.shares_design is None:
         return []
-    sig = split_signature(f)
     return [g for b in d["bands"] for g in b["filters"] if g is not f
-            and (g.get("type"), g.get("family")) == ("split", "fir") and split_signature(g) == sig]
-
-
-#: FIR fields that only one kind of method takes (see planner.filters_fir).
-_WINDOW_ONLY = ("window", "beta")
-_SPEC_ONLY = ("ripple_db", "pass_hz", "stop_hz", "max_taps")
-
-
-def _drop_for_method(f: dict, method: str, keep: set) -> None:
-    """An FIR's method changes: drop the fields the new method refuses (unless given now).
-
-    A window design takes ``window``/``beta`` and no ripple or explicit edges;
-    remez and lsq the reverse. ``transition_hz`` and ``atten_db`` serve both
-    (a Kaiser window is sized from them), so they stay.
-    """
-    drop = _SPEC_ONLY if method == "window" else _WINDOW_ONLY
-    for k in drop:
-        if k not in keep:
-            f.pop(k, None)
+            and (g.get("type"), g.get("family")) == kind.key and kind.shares_design(f, g)]
 
 
 def _fallback(spec: fk.FieldSpec, old: dict, family: str | None) -> Any:
     """A value for a required field the old filter did not have."""
-    if spec.kind == "freq":
+    if spec.rule == "freq":
         return old.get("freq", 1000.0)
-    if spec.kind == "db":
+    if spec.rule == "db":
         return 0.0
-    if spec.kind == "q":
+    if spec.rule == "q":
         return _Q_DEFAULT
-    if spec.kind == "int" and spec.choices:
+    if spec.rule == "int" and spec.choices:
         for want in (4 if family == "linkwitz-riley" else 2, spec.choices[0]):
             if want in spec.choices:
                 return want
-    if spec.kind == "choice" and spec.choices:
+    if spec.rule == "choice" and spec.choices:
         return spec.choices[0]
     return None
 
@@ -296,11 +277,11 @@ def set_filter_type(p: Project, band: int, flt: int, type_: str,
         if kind.family is not None:
             new["family"] = kind.family
         for spec in kind.fields:
-            if spec.name in old and not (spec.kind == "int" and spec.choices
+            if spec.name in old and not (spec.rule == "int" and spec.choices
                                          and old[spec.name] not in spec.choices):
                 new[spec.name] = old[spec.name]
             elif spec.required and spec.default is None or (kind.type == "allpass"
-                                                              and spec.kind == "q"):
+                                                              and spec.rule == "q"):
                 value = _fallback(spec, old, kind.family)
                 if value is not None:
                     new[spec.name] = value
@@ -365,10 +346,10 @@ def nyquist_problems(p: Project, sample_rate_hz: float) -> list[str]:
     out = []
     for i, b in enumerate(p.bands):
         for j, f in enumerate(b.filters):
-            for spec in f.kind.fields:
+            for spec in fk.kind_of(f).fields:
                 v = f.params.get(spec.name)
-                if spec.kind == "freq" and v is not None and v >= nyq:
-                    out.append(f"bands[{i}].filters[{j}].{spec.name} ({b.name}, {f.label()}): "
+                if spec.rule == "freq" and v is not None and v >= nyq:
+                    out.append(f"bands[{i}].filters[{j}].{spec.name} ({b.name}, {fk.label(f)}): "
                                f"{v:g} Hz")
     return out
 

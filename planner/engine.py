@@ -32,7 +32,7 @@ __all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "e
 
 @lru_cache(maxsize=4096)
 def _design_cached(flt: Filter, fs_hz: float) -> fk.FilterDesign:
-    d = fk.design(flt.kind, flt.params, fs_hz)
+    d = fk.design(fk.kind_of(flt), flt.params, fs_hz)
     sos = np.array(d.sos, dtype=float).reshape(-1, 6)
     sos.setflags(write=False)
     fir = None
@@ -563,49 +563,24 @@ def _latency_warnings(r: Report) -> list[Warning_]:
     return out
 
 
-def _split_warnings(r: Report) -> list[Warning_]:
-    """Complementary FIR split bands that do not add up to a pure delay.
+def _kind_warnings(r: Report) -> list[Warning_]:
+    """Warnings each filter kind raises about its filters across the active bands.
 
-    All split filters of the active bands must share crossovers, taps and
-    method, and each band index of the split must be there exactly once.
+    A kind with ``project_warnings`` (the bands of a complementary FIR split,
+    which must add up to a pure delay) is given every live filter of it in
+    an active band.
     """
-    from planner.filters_fir import describe_split, split_signature
-
     p = r.project
-    found = [(i, j, f) for i, on in enumerate(r.active) if on
-             for j, f in enumerate(p.bands[i].filters)
-             if not f.bypass and f.type == "split" and f.family == "fir"]
-    if not found:
-        return []
-    out = []
-    i0, j0, f0 = found[0]
-    sig0 = split_signature(f0.params)
-    for i, j, f in found[1:]:
-        if split_signature(f.params) != sig0:
-            out.append(Warning_(
-                f"band {p.bands[i].name}, filter {j + 1}: its FIR split "
-                f"({describe_split(f.params)}) differs from that of band {p.bands[i0].name}, "
-                f"filter {j0 + 1} ({describe_split(f0.params)}): the bands no longer sum to a "
-                "pure delay; give every split filter the same crossovers, taps and method",
-                band=i, filter=j, code="split-mismatch"))
-    if out:
-        return out
-    n_bands = len(f0.params["crossovers"]) + 1
-    where: dict[int, list[int]] = {}
-    for i, j, f in found:
-        where.setdefault(f.params["band"], []).append(i)
-    for k in range(n_bands):
-        names = [p.bands[i].name for i in where.get(k, [])]
-        if not names:
-            out.append(Warning_(
-                f"split band {k} (of 0-{n_bands - 1}) is in no active band: the sum lacks it "
-                "and is not a pure delay", code="split-missing"))
-        elif len(names) > 1:
-            out.append(Warning_(
-                f"split band {k} is in {len(names)} active bands ({', '.join(names)}): it is "
-                "summed twice and the sum is not a pure delay", band=where[k][1],
-                code="split-doubled"))
-    return out
+    found: dict = {}
+    for i, on in enumerate(r.active):
+        if not on:
+            continue
+        for j, f in enumerate(p.bands[i].filters):
+            kind = fk.kind_of(f)
+            if not f.bypass and kind.project_warnings is not None:
+                found.setdefault(kind.key, (kind, []))[1].append((i, p.bands[i].name, j, f.params))
+    return [Warning_(w.text, w.band, w.filter, w.code)
+            for kind, items in found.values() for w in kind.project_warnings(items)]
 
 
 def _warnings(r: Report) -> list[Warning_]:
@@ -615,7 +590,7 @@ def _warnings(r: Report) -> list[Warning_]:
     if not any(r.active):
         out.append(Warning_("every band is muted: nothing is summed", code="all-muted"))
         return out
-    out.extend(_split_warnings(r))
+    out.extend(_kind_warnings(r))
     out.extend(_latency_warnings(r))
     if not r.flat_ok:
         out.append(Warning_(

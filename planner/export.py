@@ -274,11 +274,11 @@ def project_at_rate(project: Project, fs_hz: float) -> Project:
             if f.bypass:
                 continue
             try:
-                fk.check_params(f.kind, dict(f.params), fs)
+                fk.check_params(fk.kind_of(f), dict(f.params), fs)
                 engine.design_filter(f, fs)
             except CrossplanError as e:
                 sub = f".{e.field}" if e.field else ""
-                raise ProjectError(f"band {b.name!r}, filter {j + 1} ({f.label()}) at {fs:g} Hz: "
+                raise ProjectError(f"band {b.name!r}, filter {j + 1} ({fk.label(f)}) at {fs:g} Hz: "
                                    f"{e.message}", field=f"bands[{i}].filters[{j}]{sub}") from None
     a = project.analysis
     f_max = min(a.f_max, fs / 2)
@@ -635,7 +635,7 @@ def export_rate(project: Project, fs_hz: float, arith: str | qz.Arith = "float64
         peak, peak_at, after = _peak_internal(qz.unshift(stored, shifts), stored_fir, scale,
                                               freqs, fs)
         att = max(0.0, peak) if pre_attenuate else 0.0
-        labels = {j: f.label() for j, f in enumerate(b.filters) if not f.bypass}
+        labels = {j: fk.label(f) for j, f in enumerate(b.filters) if not f.bypass}
         bands.append(BandExport(
             name=b.name, active=report.active[i], design_gain_db=b.gain_db,
             gain_db=b.gain_db - att, pre_attenuation_db=att, delay_samples=d.delay_samples,

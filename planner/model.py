@@ -39,8 +39,9 @@ class Filter:
     Attributes
     ----------
     type : str
-        ``lowpass``, ``highpass``, ``peaking``, ``low_shelf``, ... (see
-        :mod:`planner.filters`).
+        ``lowpass``, ``highpass``, ``peaking``, ``low_shelf``, ... (the kinds
+        are in :mod:`planner.filters`, which reads these parameters; this
+        module knows none of them).
     family : str or None
         For ``lowpass``/``highpass``: ``butterworth``, ``linkwitz-riley``,
         ``bessel``, ``cookbook``, ...; None for the other types.
@@ -76,18 +77,6 @@ class Filter:
 
     def __hash__(self):
         return hash((self.key, self.bypass))
-
-    @property
-    def kind(self):
-        """The :class:`planner.filters.FilterKind` of this filter."""
-        from planner.filters import lookup
-
-        return lookup(self.type, self.family)
-
-    def label(self) -> str:
-        """Short text such as ``"LR4 lowpass 2.2 kHz"``."""
-        text = self.kind.label(self.params)
-        return f"({text}) bypassed" if self.bypass else text
 
     def with_params(self, **changes: Any) -> "Filter":
         """A copy with some parameters changed (not checked: see :mod:`planner.project`)."""

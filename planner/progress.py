@@ -1,6 +1,6 @@
 """Progress and cancellation of long designs, without I/O.
 
-A long design (the minimum-tap FIR searches of :mod:`planner.filters_fir`)
+A long design (the minimum-tap FIR searches of :mod:`planner.filters.fir`)
 reports how far it has got and asks whether to stop through the *current
 scope*, which whoever runs the work sets up around it::
 

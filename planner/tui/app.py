@@ -21,9 +21,8 @@ from textual.command import DiscoveryHit, Hit, Hits, Provider
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
-from planner import edits, engine, progress, project as pj, units
-from planner.errors import DesignCancelled
-from planner.errors import CrossplanError, ProjectError, SpecNotMetError
+from planner import edits, engine, filters as fk, progress, project as pj, units
+from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
 from planner.report import SAFETY_NOTE
@@ -470,7 +469,7 @@ class CrossplanApp(App):
             return edits.set_filter_type(p, i, j, text.strip().lower()), label
         if name == "family":
             return edits.set_filter_type(p, i, j, flt.type, text.strip().lower()), label
-        spec = next((s for s in flt.kind.fields if s.name == name), None)
+        spec = next((s for s in fk.kind_of(flt).fields if s.name == name), None)
         if spec is None:
             raise ProjectError("is not a field of this filter", field=name)
         return edits.set_filter_params(p, i, j, **{name: _parse_field(spec, text)}), label
@@ -754,10 +753,10 @@ def _parse_field(spec, text: str):
     t = text.strip()
     if not t and not spec.required:
         return None
-    if spec.kind == "choice":
+    if spec.rule == "choice":
         return t
-    unit = {"freq": "Hz", "db": "dB"}.get(spec.kind, spec.unit if spec.unit in units.UNITS else "")
-    if spec.kind == "floats":
+    unit = {"freq": "Hz", "db": "dB"}.get(spec.rule, spec.unit if spec.unit in units.UNITS else "")
+    if spec.rule == "floats":
         # "300, 2.8k", "300 2.8 kHz": a unit word belongs to the number before it.
         words = t.replace(",", " ").split()
         joined = []
@@ -768,7 +767,7 @@ def _parse_field(spec, text: str):
                 joined.append(w)
         return [units.parse(v, unit, spec.name) for v in joined]
     v = units.parse(t, unit, spec.name)
-    if spec.kind == "int" and v == int(v):
+    if spec.rule == "int" and v == int(v):
         return int(v)
     return v
 

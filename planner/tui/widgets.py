@@ -16,7 +16,7 @@ from textual.widget import Widget
 from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
-from planner import units
+from planner import filters as fk, units
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
 from planner.plots import freq_plot, time_plot
@@ -86,7 +86,7 @@ class ChainList(_PickList):
 
     def show(self, band: Band, selected: int | None) -> None:
         self.border_title = f"Chain: {band.name}"
-        self.set_items([f"{j + 1} {f.label()}" for j, f in enumerate(band.filters)], selected,
+        self.set_items([f"{j + 1} {fk.label(f)}" for j, f in enumerate(band.filters)], selected,
                        "(empty: a adds a filter)")
 
 
@@ -247,13 +247,13 @@ class FilterForm(_Form):
         if fams:
             rows.append(FieldRow("filter", "family", "family", flt.family or "", fams,
                                  "one of: " + ", ".join(fams)))
-        specs: list[FieldSpec] = list(flt.kind.fields)
+        specs: list[FieldSpec] = list(fk.kind_of(flt).fields)
         for s in specs:
             choices = [str(c) for c in s.choices]
-            unit = f" {s.unit}" if s.unit and s.kind not in ("freq", "db") else ""
+            unit = f" {s.unit}" if s.unit and s.rule not in ("freq", "db") else ""
             hint = s.help + (f" ({', '.join(choices)})" if choices else "")
             rows.append(FieldRow("filter", s.name, _short(s.name) + unit,
-                                 field_text(s.kind, s.unit, flt.params.get(s.name)),
+                                 field_text(s.rule, s.unit, flt.params.get(s.name)),
                                  choices, hint))
         await self.set_rows((flt.type, flt.family, tuple(s.name for s in specs)), rows)
 

@@ -13,7 +13,7 @@ from planner.tui.app import CrossplanApp
 from planner.tui.screens import ChoiceScreen, HelpScreen, PathScreen, SettingsScreen
 from planner.tui.widgets import PlotView
 
-from tui_helpers import screen_text, settle
+from tests.tui.tui_helpers import screen_text, settle
 
 SIZE = (80, 24)
 

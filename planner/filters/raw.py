@@ -29,7 +29,8 @@ import numpy as np
 
 from planner.dsp.quantize import pole_radius
 from planner.errors import ProjectError
-from planner.filters import FieldSpec, FilterDesign, FilterKind, register
+from planner.filters.fields import FieldSpec
+from planner.filters.registry import FilterDesign, FilterKind, register
 from planner.units import format_hz
 
 __all__ = ["KIND", "sections_from_coeffs"]

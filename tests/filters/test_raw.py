@@ -11,7 +11,8 @@ from scipy import signal
 
 from planner import engine, export, project
 from planner.errors import ProjectError
-from planner.filters_raw import sections_from_coeffs
+from planner.filters.raw import sections_from_coeffs
+from planner import filters
 
 FS = 48000
 #: Reference sections: scipy's 4th-order Butterworth lowpass at 1 kHz.
@@ -84,4 +85,4 @@ def test_biquad_rate_out_of_range_raises():
 
 def test_biquad_label():
     p = project.from_dict(_project())
-    assert p.bands[0].filters[0].label() == "biquad x2 at 48 kHz"
+    assert filters.label(p.bands[0].filters[0]) == "biquad x2 at 48 kHz"

@@ -45,7 +45,8 @@ import numpy as np
 from planner import progress
 from planner.dsp import fir
 from planner.errors import CrossplanError, ProjectError, SpecNotMetError
-from planner.filters import FieldSpec, FilterDesign, FilterKind, register
+from planner.filters.fields import FieldSpec
+from planner.filters.registry import FilterDesign, FilterKind, KindWarning, register
 from planner.units import format_hz
 
 __all__ = ["METHODS", "WINDOWS", "FirSpecNotMetError", "FirDesignCancelled", "spec_of",
@@ -507,6 +508,73 @@ def _label_split(p: Mapping[str, Any]) -> str:
 
 
 # ---------------------------------------------------------------------------
+# rules across filters: method changes, the bands of one split
+
+
+#: FIR fields that only one kind of method takes.
+WINDOW_ONLY = ("window", "beta")
+SPEC_ONLY = ("ripple_db", "pass_hz", "stop_hz", "max_taps")
+
+
+def prepare_edit(raw: dict, key: str, value: Any, given: set) -> None:
+    """An FIR's method changes: drop the fields the new method refuses (unless given now).
+
+    A window design takes ``window``/``beta`` and no ripple or explicit edges;
+    remez and lsq the reverse. ``transition_hz`` and ``atten_db`` serve both
+    (a Kaiser window is sized from them), so they stay.
+    """
+    if key != "method" or raw.get("method", "window") == value:
+        return
+    for k in (SPEC_ONLY if value == "window" else WINDOW_ONLY):
+        if k not in given:
+            raw.pop(k, None)
+
+
+def same_split(a: Mapping[str, Any], b: Mapping[str, Any]) -> bool:
+    """Whether two split filters are bands of one split (all but ``band`` equal)."""
+    return split_signature(a) == split_signature(b)
+
+
+def split_warnings(found: list) -> list[KindWarning]:
+    """Complementary FIR split bands of the active bands that do not add up to a pure delay.
+
+    All of them must share crossovers, taps and method, and each band index
+    of the split must be there exactly once. ``found``: (band index, band
+    name, filter index, params) of every live split filter of an active band.
+    """
+    if not found:
+        return []
+    out = []
+    i0, name0, j0, p0 = found[0]
+    sig0 = split_signature(p0)
+    for i, name, j, p in found[1:]:
+        if split_signature(p) != sig0:
+            out.append(KindWarning(
+                f"band {name}, filter {j + 1}: its FIR split ({describe_split(p)}) differs "
+                f"from that of band {name0}, filter {j0 + 1} ({describe_split(p0)}): the bands "
+                "no longer sum to a pure delay; give every split filter the same crossovers, "
+                "taps and method", band=i, filter=j, code="split-mismatch"))
+    if out:
+        return out
+    n_bands = len(p0["crossovers"]) + 1
+    where: dict[int, list[tuple[int, str]]] = {}
+    for i, name, j, p in found:
+        where.setdefault(p["band"], []).append((i, name))
+    for k in range(n_bands):
+        names = [name for _, name in where.get(k, [])]
+        if not names:
+            out.append(KindWarning(
+                f"split band {k} (of 0-{n_bands - 1}) is in no active band: the sum lacks it "
+                "and is not a pure delay", code="split-missing"))
+        elif len(names) > 1:
+            out.append(KindWarning(
+                f"split band {k} is in {len(names)} active bands ({', '.join(names)}): it is "
+                "summed twice and the sum is not a pure delay", band=where[k][1][0],
+                code="split-doubled"))
+    return out
+
+
+# ---------------------------------------------------------------------------
 # registration
 
 
@@ -516,12 +584,13 @@ def _band_kind(kind: str) -> FilterKind:
     fields = [_FREQ] + ([_FREQ2] if kind == "bandpass" else []) + [
         _METHOD, _TAPS, _WINDOW, _BETA, _TRANSITION, _PASS, _STOP, _RIPPLE, _ATTEN, _MAX_TAPS]
     return FilterKind(kind, "fir", f"FIR {kind}", tuple(fields), _design_band(kind),
-                      _label_band(kind), check=_check_band(kind), heavy=True)
+                      _label_band(kind), check=_check_band(kind), prepare_edit=prepare_edit)
 
 
 KINDS = tuple(register(_band_kind(k)) for k in ("lowpass", "highpass", "bandpass")) + (
     register(FilterKind(
         "split", "fir", "band of a complementary FIR split",
         (_CROSSOVERS, _BAND, _SPLIT_TAPS, _METHOD, _WINDOW, _BETA, _ATTEN, _TRANSITION),
-        _design_split, _label_split, check=_check_split, heavy=True)),
+        _design_split, _label_split, check=_check_split, shares_design=same_split,
+        prepare_edit=prepare_edit, project_warnings=split_warnings)),
 )

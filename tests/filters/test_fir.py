@@ -1,4 +1,4 @@
-"""FIR filter types of a project (planner.filters_fir) and the progress scope (planner.progress).
+"""FIR filter types of a project (planner.filters.fir) and the progress scope (planner.progress).
 
 Sources: scipy.signal firwin, kaiserord, remez, firls and freqz as reference
 library; J. F. Kaiser, "Nonrecursive digital filter design using the I0-sinh
@@ -17,10 +17,10 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, presets_lib, progress, project
+from planner import engine, filters, presets_lib, progress, project
 from planner.dsp import fir
 from planner.errors import ProjectError, SpecNotMetError
-from planner.filters_fir import FirDesignCancelled, FirSpecNotMetError
+from planner.filters.fir import FirDesignCancelled, FirSpecNotMetError
 
 FS = 48000
 
@@ -386,7 +386,7 @@ def test_fir_parameters_round_trip():
      "FIR split band 1 of 0-2 at 300 Hz, 2.8 kHz, 511 taps (hann window)"),
 ])
 def test_labels(flt, label):
-    assert project.from_dict(_doc(flt)).bands[0].filters[0].label() == label
+    assert filters.label(project.from_dict(_doc(flt)).bands[0].filters[0]) == label
 
 
 # -- progress and cancel -------------------------------------------------------------------
