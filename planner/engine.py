@@ -25,7 +25,7 @@ from planner.errors import CrossplanError
 from planner.model import Band, Filter, Project
 from planner.units import format_hz
 
-__all__ = ["design_filter", "design_band", "BandDesign", "Report", "analyse", "evaluate",
+__all__ = ["design_filter", "design_band", "design_project", "BandDesign", "Report", "analyse", "evaluate",
            "point_evaluator",
            "CrossingResult", "BandResult", "Warning_", "CheckResult", "STATE_TEXT"]
 
@@ -101,6 +101,22 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
     return BandDesign(np.vstack(sos) if sos else np.zeros((0, 6)), fir, band.gain_db,
                       band.delay_ms * fs_hz / 1000.0, band.invert, latency, linear,
                       tuple(owners))
+
+
+def design_project(project: Project) -> None:
+    """Design every live filter of ``project`` at its rate (into the design cache).
+
+    Loading a file checks its fields only; this makes the designs, so that a
+    filter that cannot be made (an FIR spec that cannot be met, refused as a
+    :class:`~planner.errors.SpecNotMetError`) is refused with its path,
+    ``bands[i].filters[j].taps: ...``. The commands call it right after
+    loading, inside their progress scope.
+    """
+    for i, b in enumerate(project.bands):
+        try:
+            design_band(b, project.sample_rate)
+        except CrossplanError as e:
+            raise e.at(f"bands[{i}]") from None
 
 
 def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:

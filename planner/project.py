@@ -65,14 +65,12 @@ def _obj(v: Any, field: str) -> Mapping:
     return v
 
 
-def check_filter(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> Filter:
+def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
     """Check one filter's JSON form at ``fs_hz`` and return the :class:`Filter`.
 
-    With ``design`` (the default) the filter is also designed once, so that a
-    filter that cannot be made (for example an FIR spec that cannot be met)
-    is refused here. ``design=False`` leaves that to the analysis (the
-    editor runs it in a worker, where a long search shows progress and can
-    be cancelled).
+    Every field is checked; nothing is designed (a filter that cannot be
+    made, such as an FIR spec that cannot be met, is refused when it is
+    designed: :func:`planner.engine.design_project`).
     """
     raw = _obj(raw, "")
     if "type" not in raw:
@@ -86,15 +84,10 @@ def check_filter(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> F
     params = fk.check_params(kind, raw, fs_hz)
     known = _FILTER_BASE | {f.name for f in kind.fields}
     extra = {k: v for k, v in raw.items() if k not in known}
-    flt = Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
-    if design:
-        from planner.engine import design_filter  # the design cache lives there
-
-        design_filter(flt, fs_hz)
-    return flt
+    return Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
 
 
-def check_band(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> Band:
+def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
     """Check one band's JSON form and return the :class:`Band`."""
     raw = _obj(raw, "")
     name = raw.get("name")
@@ -106,7 +99,7 @@ def check_band(raw: Mapping[str, Any], fs_hz: float, design: bool = True) -> Ban
     chain = []
     for j, f in enumerate(flist):
         try:
-            chain.append(check_filter(f, fs_hz, design))
+            chain.append(check_filter(f, fs_hz))
         except CrossplanError as e:
             raise e.at(f"filters[{j}]") from None
     driver = raw.get("driver")
@@ -163,11 +156,10 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
     )
 
 
-def from_dict(raw: Any, design: bool = True) -> Project:
+def from_dict(raw: Any) -> Project:
     """Check a project's JSON form (already parsed) and return the :class:`Project`.
 
-    With ``design`` (the default) every filter is designed once, so that one
-    that cannot be made is refused here; see :func:`check_filter`.
+    Every field is checked, nothing is designed (see :func:`check_filter`).
 
     Raises
     ------
@@ -201,7 +193,7 @@ def from_dict(raw: Any, design: bool = True) -> Project:
     bands, seen = [], {}
     for i, b in enumerate(blist):
         try:
-            band = check_band(b, fs, design)
+            band = check_band(b, fs)
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
         if band.name in seen:
@@ -255,8 +247,8 @@ def to_dict(project: Project) -> dict:
     return out
 
 
-def loads(text: str, design: bool = True) -> Project:
-    """Parse and check a project from JSON text (``design``: see :func:`from_dict`)."""
+def loads(text: str) -> Project:
+    """Parse and check a project from JSON text (see :func:`from_dict`)."""
     try:
         raw = json.loads(text)
     except json.JSONDecodeError as e:
@@ -264,7 +256,7 @@ def loads(text: str, design: bool = True) -> Project:
                            field="file") from None
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
-    return from_dict(raw, design)
+    return from_dict(raw)
 
 
 def dumps(project: Project) -> str:
@@ -272,8 +264,8 @@ def dumps(project: Project) -> str:
     return json.dumps(to_dict(project), indent=2, ensure_ascii=False) + "\n"
 
 
-def load(path: str | os.PathLike, design: bool = True) -> Project:
-    """Read and check a project file (``design``: see :func:`from_dict`)."""
+def load(path: str | os.PathLike) -> Project:
+    """Read and check a project file (see :func:`from_dict`)."""
     p = Path(path)
     try:
         text = p.read_text(encoding="utf-8")
@@ -281,7 +273,7 @@ def load(path: str | os.PathLike, design: bool = True) -> Project:
         raise ProjectError(f"no such file: {str(p)!r}", field="file") from None
     except (OSError, UnicodeDecodeError) as e:
         raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
-    return loads(text, design)
+    return loads(text)
 
 
 def save(project: Project, path: str | os.PathLike) -> None:

@@ -239,6 +239,6 @@ def test_a_design_error_in_the_analysis_names_band_and_filter():
     d["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", "method": "remez",
                                    "freq": 2400, "transition_hz": 100, "atten_db": 80,
                                    "max_taps": 101}
-    p = project.from_dict(json.loads(json.dumps(d)), design=False)
+    p = project.from_dict(json.loads(json.dumps(d)))
     with pytest.raises(SpecNotMetError, match=r"^bands\[0\]\.filters\[1\]\.taps: lowpass spec"):
         engine.analyse(p)

@@ -5,7 +5,7 @@ import os
 
 import pytest
 
-from planner import project
+from planner import engine, project
 from planner.errors import ProjectError
 
 
@@ -168,19 +168,20 @@ def _impossible_fir(example):
     return raw
 
 
-def test_loading_designs_and_refuses_an_fir_spec_that_cannot_be_met(example):
+def test_designing_refuses_an_fir_spec_that_cannot_be_met(example):
     # Kaiser 1974: about 1600 taps are needed for 80 dB over 100 Hz at 48 kHz.
+    p = project.from_dict(_impossible_fir(example))
     with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps: .*max_taps 101"):
-        project.from_dict(_impossible_fir(example))
+        engine.design_project(p)
 
 
-def test_design_false_checks_fields_but_leaves_the_design_to_the_analysis(example):
-    p = project.from_dict(_impossible_fir(example), design=False)
+def test_loading_checks_fields_but_leaves_the_design_to_the_analysis(example):
+    p = project.from_dict(_impossible_fir(example))
     assert p.bands[0].filters[1].params["max_taps"] == 101
     raw = _impossible_fir(example)
     raw["bands"][0]["filters"][1]["taps"] = 100   # a field error is still refused
     with pytest.raises(ProjectError, match=r"bands\[0\]\.filters\[1\]\.taps"):
-        project.from_dict(raw, design=False)
+        project.from_dict(raw)
 
 
 def test_analysis_enforce_headroom_defaults_to_false(example):

@@ -31,14 +31,18 @@ def positive_number(unit: str):
 def load_project(path: str | None, design: bool = True) -> Project:
     """Load ``path``, or the built-in demo project when ``path`` is None.
 
-    ``design=False`` checks every field but leaves the designs to the
+    With ``design`` (the default) every filter is designed at once
+    (:func:`planner.engine.design_project`), so that one that cannot be made
+    is refused before the command works; ``design=False`` leaves that to the
     analysis (the editor, which designs in a worker with progress).
     """
-    from planner import presets_lib as presets, project
+    # The core is imported when a command runs, not when the parser is built (start-up).
+    from planner import engine, presets_lib as presets, project
 
-    if path is None:
-        return presets.load(presets.DEMO)
-    return project.load(path, design)
+    proj = presets.load(presets.DEMO) if path is None else project.load(path)
+    if design:
+        engine.design_project(proj)
+    return proj
 
 
 class ProgressBar:

@@ -702,7 +702,7 @@ class CrossplanApp(App):
         if not path:
             return
         try:
-            proj = pj.load(path, design=False)   # designed by the analysis worker
+            proj = pj.load(path)   # designed by the analysis worker
         except CrossplanError as e:
             self.notify(f"not opened: {e}", severity="error", timeout=8)
             return

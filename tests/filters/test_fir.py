@@ -25,6 +25,13 @@ from planner.filters.fir import FirDesignCancelled, FirSpecNotMetError
 FS = 48000
 
 
+def _designed(doc):
+    """A project loaded and designed, as every command does (designs refuse unmet specs)."""
+    p = project.from_dict(doc)
+    engine.design_project(p)
+    return p
+
+
 def _doc(*filters, fs=FS):
     return {"format": "crossplan-project", "version": 1, "name": "fir", "sample_rate": fs,
             "bands": [{"name": f"b{i}", "filters": [f]} for i, f in enumerate(filters)]}
@@ -32,7 +39,7 @@ def _doc(*filters, fs=FS):
 
 def _taps(flt, fs=FS):
     """Load one filter through the project path and return its designed taps."""
-    p = project.from_dict(_doc(flt, fs=fs))
+    p = _designed(_doc(flt, fs=fs))
     return np.asarray(engine.design_filter(p.bands[0].filters[0], fs).fir)
 
 
@@ -99,7 +106,7 @@ class TestWindow:
         h = _taps(_lp(method="window", freq=2200, taps=100))
         np.testing.assert_allclose(h, signal.firwin(100, 2200, window="hann", fs=FS), atol=1e-13)
         assert engine.design_filter(
-            project.from_dict(_doc(_lp(freq=2200, taps=100))).bands[0].filters[0], FS).fir.size == 100
+            _designed(_doc(_lp(freq=2200, taps=100))).bands[0].filters[0], FS).fir.size == 100
 
 
 class TestKaiserSized:
@@ -139,7 +146,7 @@ class TestKaiserSized:
                            match=r"^bands\[0\]\.filters\[0\]\.taps: lowpass Kaiser window for "
                                  r"90 dB over 50 Hz at 48000 Hz needs more than max_taps 301: "
                                  r".*about \d+ taps would be needed \(Kaiser 1974\)"):
-            project.from_dict(_doc(_lp(method="window", freq=2200, transition_hz=50,
+            _designed(_doc(_lp(method="window", freq=2200, transition_hz=50,
                                        atten_db=90, max_taps=301)))
 
 
@@ -187,12 +194,12 @@ class TestFixedLength:
                                  r" not met by equiripple \(remez\) at 255 taps, 48000 Hz: "
                                  r"reached ripple .* dB and attenuation .* dB; about "
                                  + str(need) + r" taps would be needed"):
-            project.from_dict(_doc(_lp(method="remez", freq=2200, transition_hz=100,
+            _designed(_doc(_lp(method="remez", freq=2200, transition_hz=100,
                                        atten_db=80, taps=255)))
 
     def test_refusal_is_both_spec_error_and_project_error(self):
         with pytest.raises(SpecNotMetError) as ei:
-            project.from_dict(_doc(_lp(method="lsq", freq=2200, transition_hz=100,
+            _designed(_doc(_lp(method="lsq", freq=2200, transition_hz=100,
                                        atten_db=80, taps=255)))
         assert isinstance(ei.value, ProjectError)
 
@@ -224,17 +231,17 @@ class TestSearch:
                            match=r"^bands\[0\]\.filters\[0\]\.taps: .* not met by equiripple "
                                  r"\(remez\) within max_taps 301 .*; raise max_taps or loosen "
                                  r"the spec$"):
-            project.from_dict(_doc(_lp(method="remez", freq=2200, transition_hz=100,
+            _designed(_doc(_lp(method="remez", freq=2200, transition_hz=100,
                                        atten_db=80, max_taps=301)))
 
     def test_search_runs_once_then_the_cache_answers(self):
         doc = _doc(_lp(method="remez", freq=2100, transition_hz=700, atten_db=55))
         seen = []
         with progress.scope(report=lambda f, t: seen.append(f)):
-            project.from_dict(doc)
+            _designed(doc)
         first = len(seen)
         with progress.scope(report=lambda f, t: seen.append(f)):
-            project.from_dict(copy.deepcopy(doc))
+            _designed(copy.deepcopy(doc))
         assert first > 2 and len(seen) == first
 
 
@@ -340,7 +347,7 @@ class TestSplit:
 ])
 def test_refusals_name_field_and_value(flt, match):
     with pytest.raises(ProjectError, match=r"^bands\[0\]\.filters\[0\]\." + match):
-        project.from_dict(_doc(flt))
+        _designed(_doc(flt))
 
 
 # -- files, labels --------------------------------------------------------------------------
@@ -353,7 +360,7 @@ def test_iir_presets_still_load(name):
 
 
 def test_biquad_bandpass_without_family_still_loads():
-    p = project.from_dict(_doc({"type": "bandpass", "freq": 1000, "q": 1.0}))
+    p = _designed(_doc({"type": "bandpass", "freq": 1000, "q": 1.0}))
     f = p.bands[0].filters[0]
     assert (f.type, f.family) == ("bandpass", None)
     assert engine.design_filter(f, FS).fir is None
@@ -364,7 +371,7 @@ def test_fir_parameters_round_trip():
                    note="kept"),
                {"type": "split", "family": "fir", "crossovers": [300, 2800], "band": 1,
                 "taps": 101, "window": "kaiser", "beta": 7.5})
-    p = project.from_dict(doc)
+    p = _designed(doc)
     again = project.loads(project.dumps(p))
     assert again == p
     assert again.bands[0].filters[0].extra["note"] == "kept"
@@ -386,7 +393,7 @@ def test_fir_parameters_round_trip():
      "FIR split band 1 of 0-2 at 300 Hz, 2.8 kHz, 511 taps (hann window)"),
 ])
 def test_labels(flt, label):
-    assert filters.label(project.from_dict(_doc(flt)).bands[0].filters[0]) == label
+    assert filters.label(_designed(_doc(flt)).bands[0].filters[0]) == label
 
 
 # -- progress and cancel -------------------------------------------------------------------
@@ -399,7 +406,7 @@ class TestProgress:
     def test_search_reports_rising_fractions_with_its_name(self):
         seen = []
         with progress.scope(report=lambda f, t: seen.append((f, t))):
-            project.from_dict(self.DOC(61.5))
+            _designed(self.DOC(61.5))
         fr = [f for f, _ in seen]
         assert fr[0] == 0.0 and fr[-1] == 1.0 and all(b >= a for a, b in zip(fr, fr[1:]))
         assert {t for _, t in seen} == {"FIR lowpass 2 kHz (remez): fewest taps"}
@@ -409,14 +416,14 @@ class TestProgress:
             with pytest.raises(fir.DesignCancelled,
                                match=r"^bands\[0\]\.filters\[0\]\.taps: the design was "
                                      r"cancelled after 0 trial designs"):
-                project.from_dict(self.DOC(61.7))
+                _designed(self.DOC(61.7))
 
     def test_cancelled_design_is_not_cached(self):
         with progress.scope(cancel=lambda: True):
             with pytest.raises(FirDesignCancelled):
-                project.from_dict(self.DOC(61.9))
+                _designed(self.DOC(61.9))
         # Outside the scope the same filter is designed in full.
-        p = project.from_dict(self.DOC(61.9))
+        p = _designed(self.DOC(61.9))
         assert len(engine.design_filter(p.bands[0].filters[0], FS).fir) > 3
 
     def test_outer_scope_sees_inner_reports_and_cancels(self):

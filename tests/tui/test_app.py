@@ -476,7 +476,7 @@ def _with_fir_lowpass(p, **params):
     """Project ``p`` with the woofer's lowpass replaced by an FIR lowpass of ``params``."""
     d = project.to_dict(p)
     d["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", **params}
-    return project.from_dict(d, design=False)   # as the editor's edits: designed in the worker
+    return project.from_dict(d)   # as the editor's edits: designed in the worker
 
 
 async def test_an_fir_spec_that_cannot_be_met_is_refused_and_the_edit_undone():
@@ -579,7 +579,7 @@ async def test_a_file_with_an_unmet_fir_spec_opens_and_says_why(tmp_path):
                           transition_hz=100, atten_db=80, max_taps=101)
     path = tmp_path / "bad.json"
     path.write_text(project.dumps(p))
-    app = CrossplanApp(project.load(path, design=False), str(path))
+    app = CrossplanApp(project.load(path), str(path))
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         assert app.report is None
