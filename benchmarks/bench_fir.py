@@ -37,7 +37,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_check import best as _best  # noqa: E402
 
-from planner import compare, engine, presets_lib  # noqa: E402
+from planner import compare, engine, presets, project  # noqa: E402
 from planner.dsp import fir  # noqa: E402
 
 FS = 48000.0
@@ -93,7 +93,7 @@ def main() -> None:
     print(f"minimum-tap search (predict, then confirm)   {ts * 1e3:8.1f} ms"
           f"  search/single = {ts / t1:5.2f}")
 
-    proj = presets_lib.load("two-way")
+    proj = project.load_preset("two-way")
     fir.clear_design_cache()
     with RemezCalls() as rc:
         t = time.perf_counter()
@@ -131,7 +131,7 @@ def main() -> None:
 
 def project_bench() -> None:
     """Section 3: a 3-band FIR project, evaluated and analysed, against freqz per band."""
-    proj = presets_lib.load("fir-three-way")
+    proj = project.load_preset("fir-three-way")
     fs = float(proj.sample_rate)
     rep = engine.analyse(proj)                    # designs the bands (cached from here on)
     freqs, designs = rep.freqs_hz, rep.designs

@@ -25,7 +25,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_check import best  # noqa: E402
 
-from planner import export, project, render  # noqa: E402
+from planner import export, project  # noqa: E402
+from planner.audio import render  # noqa: E402
 from planner.dsp.signals import white_noise  # noqa: E402
 
 FS = 48000

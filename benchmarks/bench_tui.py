@@ -24,7 +24,8 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from bench_check import best as best_s, four_band_project  # noqa: E402
 
 from planner import edits, engine, project  # noqa: E402
-from planner.plots import freq_plot  # noqa: E402
+from planner.engine.analyse import start_grid
+from planner.present.plots import freq_plot  # noqa: E402
 from planner.tui import views  # noqa: E402
 
 
@@ -35,7 +36,7 @@ def best(fn, repeat=20):
 
 def main() -> None:
     proj = project.from_dict(four_band_project(points=2048))
-    freqs = engine._grid(proj)
+    freqs = start_grid(proj)
     designs = [engine.design_band(b, proj.sample_rate) for b in proj.bands]
     state = {"p": proj, "k": 0}
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 __all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
            "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS"]
 
-#: Frequency views of ``crossplan plot`` (:mod:`planner.plots`).
+#: Frequency views of ``crossplan plot`` (:mod:`planner.present.plots`).
 PLOT_VIEWS = ("magnitude", "phase", "delay")
 #: Views on a time axis (ms): impulse and step responses.
 TIME_VIEWS = ("impulse", "step")

@@ -18,11 +18,12 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from planner import filters as fk
+from planner import presets
 from planner.errors import CrossplanError, ProjectError
 from planner.jsonio import atomic_write_text
 from planner.model import FORMAT, VERSION, Analysis, Band, Filter, Project
 
-__all__ = ["from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
+__all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
            "check_band", "atomic_write_text"]
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "bands"}
@@ -257,6 +258,11 @@ def loads(text: str) -> Project:
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
     return from_dict(raw)
+
+
+def load_preset(name: str) -> Project:
+    """A built-in preset (:mod:`planner.presets`) as a checked project."""
+    return loads(presets.text(name))
 
 
 def dumps(project: Project) -> str:

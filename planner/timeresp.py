@@ -1,7 +1,7 @@
 """Impulse and step responses of a project's bands and of their sum.
 
 Each band is made into a sampled impulse response exactly as a WAV export
-holds it and ``render`` runs it (:func:`planner.export.band_impulse_response`):
+holds it and ``render`` runs it (:func:`chain_impulse`):
 the sections run by :func:`scipy.signal.sosfilt` until the tail energy is
 150 dB below the peak (:func:`planner.dsp.signals.truncate_iir_impulse`; a
 response that has not decayed within its 10 s is refused with the reason),
@@ -9,7 +9,7 @@ an FIR convolved in exactly, gain and polarity applied, and the band's
 delay.
 
 Fractional delays: the views show what ``render`` and the WAV export make by
-default, ``apply`` (:mod:`planner.delays`): a delay's fraction of a sample is
+default, ``apply`` (:mod:`planner.engine.delays`): a delay's fraction of a sample is
 a fractional-delay FIR (:mod:`planner.dsp.fracdelay`), and when any band has
 one, every band is :attr:`TimeResponse.added_latency_samples` later than its
 ``delay_ms`` (the filter's ``(N - 1) / 2``), so that the bands stay aligned
@@ -35,24 +35,60 @@ from typing import Sequence
 import numpy as np
 
 from planner import engine
+from planner.dsp.signals import fft_convolve, truncate_iir_impulse
 from planner.engine import BandDesign
+from planner.engine.delays import BandDelay, fraction_of, plan_delays
 from planner.model import Project
 
-__all__ = ["TimeResponse", "impulse_responses", "project_impulse", "project_step",
+__all__ = ["TimeResponse", "chain_impulse", "IMPULSE_FLOOR_DB", "impulse_responses", "project_impulse", "project_step",
            "settle_samples", "KINDS"]
 
 #: The two responses.
 KINDS = ("impulse", "step")
+#: Tail floor of an IIR impulse response, dB below its peak.
+IMPULSE_FLOOR_DB = -150.0
 
 
-@dataclass(frozen=True)
-class _Run:
-    """The fields :func:`planner.export.band_impulse_response` reads, for one designed band."""
+def chain_impulse(sos, fir, linear_gain: float, delay_samples: float, fs_hz: float,
+                  delay: BandDelay | None = None,
+                  floor_db: float = IMPULSE_FLOOR_DB) -> tuple[np.ndarray, BandDelay]:
+    """The impulse response of one band's chain, as a WAV export holds it.
 
-    run_sos: np.ndarray
-    run_fir: np.ndarray | None
-    delay_samples: float
-    linear_gain: float
+    The sections run by :func:`planner.dsp.signals.truncate_iir_impulse`
+    until the tail is ``floor_db`` below the peak; FIR taps are convolved in
+    exactly; a fraction of a sample of delay is convolved in as the
+    fractional-delay FIR of ``delay`` (:mod:`planner.dsp.fracdelay`); the
+    gain (polarity included) is applied; the whole samples of the delay line
+    are leading zeros.
+
+    Parameters
+    ----------
+    sos : ndarray, shape (n, 6)
+    fir : ndarray or None
+    linear_gain : float
+        ``10^(gain_db / 20)``, negative for an inverted band.
+    delay_samples : float
+    fs_hz : float
+    delay : planner.engine.delays.BandDelay, optional
+        How the delay runs, from a run's
+        :func:`planner.engine.delays.plan_delays` (which aligns its bands).
+        Default: this band alone, in ``apply`` mode.
+    floor_db : float
+
+    Returns
+    -------
+    h : ndarray
+    delay : planner.engine.delays.BandDelay
+    """
+    if delay is None:
+        delay = plan_delays([delay_samples], "apply").bands[0]
+    sos = np.asarray(sos, dtype=float).reshape(-1, 6)
+    h = truncate_iir_impulse(sos, fs_hz, floor_db) if len(sos) else np.ones(1)
+    if fir is not None:
+        h = fft_convolve(h, fir) if len(h) > 1 else h[0] * np.asarray(fir, dtype=float)
+    if delay.taps is not None:
+        h = fft_convolve(h, delay.taps) if len(h) > 1 else h[0] * delay.taps
+    return np.concatenate([np.zeros(delay.whole_samples), linear_gain * h]), delay
 
 
 @dataclass(frozen=True)
@@ -139,7 +175,7 @@ def impulse_responses(designs: Sequence[BandDesign], fs_hz: float, names: Sequen
     active : sequence of bool, optional
         Bands in the sum (default: all).
     fractional_delay : {"apply", "round"}
-        How a fraction of a sample of delay is made (:func:`planner.delays.plan_delays`,
+        How a fraction of a sample of delay is made (:func:`planner.engine.delays.plan_delays`,
         one plan for all the bands).
 
     Returns
@@ -155,16 +191,13 @@ def impulse_responses(designs: Sequence[BandDesign], fs_hz: float, names: Sequen
         :func:`~planner.dsp.signals.truncate_iir_impulse`'s 10 s); an
         unknown ``fractional_delay``.
     """
-    from planner.delays import fraction_of, plan_delays
-    from planner.export import band_impulse_response
-
     fs = float(fs_hz)
     act = [True] * len(designs) if active is None else [bool(a) for a in active]
     plan = plan_delays([d.delay_samples for d in designs], fractional_delay)
     rows = []
     for d, bd in zip(designs, plan.bands):
         gain = (-1.0 if d.invert else 1.0) * 10.0 ** (d.gain_db / 20.0)
-        h, _ = band_impulse_response(_Run(d.sos, d.fir, d.delay_samples, gain), fs, bd)
+        h, _ = chain_impulse(d.sos, d.fir, gain, d.delay_samples, fs, bd)
         rows.append(h)
     fracs = [fraction_of(d.delay_samples) for d in designs]
     n = max([len(h) for h in rows] + [1])

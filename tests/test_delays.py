@@ -13,7 +13,8 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import delays, engine, project
+from planner import engine, project
+from planner.engine import delays, rounding
 from planner.dsp import fracdelay as fd
 from planner.errors import ExportError
 from planner.units import format_hz
@@ -117,7 +118,7 @@ def test_phase_change_at_the_crossing_is_the_delay_phase():
     # sec. 2.7), -10.8 deg at 3 kHz; to 1e-6 deg.
     p = _proj(0.48)
     r = engine.analyse(p)
-    e = delays.rounding_effect(r, [0.0, 0.0])
+    e = rounding.rounding_effect(r, [0.0, 0.0])
     (c,) = e.crossings
     assert c.change_deg == pytest.approx(-360 * c.freq_hz * 0.48 / FS, abs=1e-6)
     assert c.freq_hz == pytest.approx(3000, rel=1e-3)   # LR4: levels equal at fc
@@ -132,7 +133,7 @@ def test_sum_change_agrees_with_sosfreqz(fs, samples):
     p = _proj(samples, fs)
     r = engine.analyse(p)
     new = [0.0, float(fd.nearest_whole(samples))]
-    e = delays.rounding_effect(r, new)
+    e = rounding.rounding_effect(r, new)
     ref, at = _ref_change(p, r, new)
     assert e.sum_change_db == pytest.approx(ref, abs=1e-6) and e.at_hz == at
 
@@ -142,7 +143,7 @@ def test_near_a_null_rounding_costs_more_than_2_db():
     # crossing, and rounding to 7 samples (157.5 deg) moves it by more than 2 dB.
     p = _proj(7.48)
     r = engine.analyse(p)
-    e = delays.rounding_effect(r, [0.0, 7.0])
+    e = rounding.rounding_effect(r, [0.0, 7.0])
     assert abs(e.sum_change_db) > 2.0
 
 
@@ -150,7 +151,7 @@ def test_no_active_band_no_change():
     d = two_way()
     d["bands"][0]["mute"] = d["bands"][1]["mute"] = True
     r = engine.analyse(project.from_dict(d))
-    e = delays.rounding_effect(r, [0.0, 0.0])
+    e = rounding.rounding_effect(r, [0.0, 0.0])
     assert e.sum_change_db == 0.0 and e.crossings == ()
 
 
@@ -224,7 +225,7 @@ def test_apply_note_names_the_filter_and_the_latency():
     p = _proj(0.48)
     r = engine.analyse(p)
     plan = delays.plan_delays([0.0, 0.48], "apply")
-    (line,) = delays.run_notes(r, plan)
+    (line,) = rounding.run_notes(r, plan)
     m = plan.added_latency_samples
     assert line == (f"at 48000 Hz fractional delays are applied by a {2 * m + 1}-tap "
                     f"Kaiser-windowed sinc (fraction in samples: high 0.48); every band is "
@@ -234,7 +235,7 @@ def test_apply_note_names_the_filter_and_the_latency():
 def test_round_note_gives_the_cost():
     p = _proj(10.3)
     r = engine.analyse(p)
-    (line,) = delays.run_notes(r, delays.plan_delays([0.0, 10.3], "round"))
+    (line,) = rounding.run_notes(r, delays.plan_delays([0.0, 10.3], "round"))
     (c,) = r.checked_crossings
     dl, at = _ref_change(p, r, [0.0, 10.0])
     m = re.fullmatch(r"at 48000 Hz delays are rounded to the nearest sample \(high 10.3 -> "
@@ -250,7 +251,7 @@ def test_round_note_gives_the_cost():
 
 def test_exact_note_for_coefficient_files():
     r = engine.analyse(_proj(0.48))
-    (line,) = delays.exact_notes(r)
+    (line,) = rounding.exact_notes(r)
     assert line.startswith("at 48000 Hz delay_samples is written exactly (high 0.48): the DSP "
                            "must apply the fraction; rounded to the nearest sample, the phase "
                            "difference low - high at ")
@@ -258,5 +259,5 @@ def test_exact_note_for_coefficient_files():
 
 def test_no_notes_without_fractions():
     r = engine.analyse(_proj(12.0))
-    assert delays.run_notes(r, delays.plan_delays([0.0, 12.0], "round")) == []
-    assert delays.exact_notes(r) == []
+    assert rounding.run_notes(r, delays.plan_delays([0.0, 12.0], "round")) == []
+    assert rounding.exact_notes(r) == []

@@ -4,14 +4,14 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import edits as E
-from planner import engine, presets_lib
+from planner import edits as E, project
+from planner import engine, presets
 from planner.errors import ProjectError
 
 
 @pytest.fixture
 def p():
-    return presets_lib.load("two-way")   # woofer [BW2 hp 25, LR4 lp 2400], tweeter [LR4 hp 2400, peak]
+    return project.load_preset("two-way")   # woofer [BW2 hp 25, LR4 lp 2400], tweeter [LR4 hp 2400, peak]
 
 
 # -- bands ---------------------------------------------------------------------------------
@@ -275,7 +275,7 @@ def test_a_filter_made_fir_designs_at_once(type_):
     # 1023-tap split band) must check and design, not ask for fields first.
     from planner import engine
 
-    p = presets_lib.load("two-way")
+    p = project.load_preset("two-way")
     q = E.set_filter_type(p, 0, 1, type_, "fir")
     f = q.bands[0].filters[1]
     assert (f.type, f.family) == (type_, "fir")
@@ -285,7 +285,7 @@ def test_a_filter_made_fir_designs_at_once(type_):
 def test_changing_an_fir_method_drops_the_fields_it_refuses():
     # window -> remez: the Kaiser start (window, transition_hz, atten_db) becomes a remez
     # spec over the same transition; back to window drops the remez-only ripple.
-    p = E.set_filter_type(presets_lib.load("two-way"), 0, 1, "lowpass", "fir")
+    p = E.set_filter_type(project.load_preset("two-way"), 0, 1, "lowpass", "fir")
     q = E.set_filter_params(p, 0, 1, method="remez")
     f = q.bands[0].filters[1]
     assert f.params["method"] == "remez" and "window" not in f.params
@@ -300,7 +300,7 @@ def test_a_split_crossover_changes_in_every_band_of_the_split():
     # (Oppenheim and Schafer 3rd ed. ch. 7): an edit in one band applies to all of them.
     import numpy as np
 
-    p = presets_lib.load("fir-three-way")
+    p = project.load_preset("fir-three-way")
     q = E.set_filter_params(p, 1, 0, crossovers=[250.0, 3000.0])
     assert [b.filters[0].params["crossovers"] for b in q.bands] == [(250.0, 3000.0)] * 3
     assert [b.filters[0].params["band"] for b in q.bands] == [0, 1, 2]
@@ -310,7 +310,7 @@ def test_a_split_crossover_changes_in_every_band_of_the_split():
 
 
 def test_a_split_band_index_changes_in_that_band_only():
-    p = presets_lib.load("fir-three-way")
+    p = project.load_preset("fir-three-way")
     q = E.set_filter_params(p, 2, 0, band=1)
     assert [b.filters[0].params["band"] for b in q.bands] == [0, 1, 1]
     assert any(w.code == "split-doubled" for w in engine.analyse(q).warnings)

@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 
 from planner import engine, project
-from planner.presets_lib import load as load_preset, names as preset_names, text as preset_text
+from planner.presets import names as preset_names, text as preset_text
+from planner.project import load_preset
 from tests.conftest import two_way
 
 

@@ -13,14 +13,14 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from planner import config, engine, presets_lib, project
+from planner import config, engine, presets, project
 from planner.dsp import analysis as an
 from tests import refs
 
 
 def two_way_with(*tweeter_extra, fs=48000, phase_deg=None, woofer_extra=()):
     """The two-way preset (LR4 at 2.4 kHz) with filters added to the tweeter (and woofer)."""
-    d = json.loads(presets_lib.text("two-way"))
+    d = json.loads(presets.text("two-way"))
     d["sample_rate"] = fs
     d["bands"][0]["filters"] += list(woofer_extra)
     d["bands"][1]["filters"] += list(tweeter_extra)
@@ -78,7 +78,7 @@ def test_reported_crossings_have_the_bands_level_beside_a_q100_notch():
 
 def test_each_crossing_is_refined_on_its_own_two_bands_only():
     # A 4-band project: every call of the evaluator asks only for the pairs being refined.
-    p = presets_lib.load("three-way")
+    p = project.load_preset("three-way")
     r0 = engine.analyse(p)
     pairs = {c.band_index for c in r0.crossings}
     seen = []
@@ -194,7 +194,7 @@ def test_deep_stop_band_crossings_of_an_fir_split_are_level_too():
     # The fir-three-way preset (1023-tap Blackman split): its bands' stop-band lobes cross
     # down to about -200 dB, where float64 rounding limits how level they can be found; every
     # crossing still has its bands within 0.01 dB (scipy.signal.freqz of the taps).
-    r = engine.analyse(presets_lib.load("fir-three-way"))
+    r = engine.analyse(project.load_preset("fir-three-way"))
     deep = [c for c in r.crossings if c.level_db < -150]
     assert deep
     for c in r.crossings:

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, presets_lib, project
+from planner import engine, presets, project
 
 FS = 48000
 TAPS = 1023
@@ -92,7 +92,7 @@ class TestLatency:
         assert d["sum"]["latencies_agree"] is True
 
     def test_iir_band_latency_is_its_delay(self):
-        p = presets_lib.load("two-way")
+        p = project.load_preset("two-way")
         doc = project.to_dict(p)
         doc["bands"][1]["delay_ms"] = 0.5
         d = engine.analyse(project.from_dict(doc)).to_dict()
@@ -116,7 +116,7 @@ class TestLatency:
         assert len(r.designs[1].fir) == 301
 
     def test_text_report_has_a_latency_line(self):
-        from planner.report import text_report
+        from planner.present.text import text_report
 
         text = text_report(engine.analyse(project.from_dict(_split_doc())))
         assert ("latency    woofer 511, mid 511, tweeter 511 samples; sum 511 samples "
@@ -167,7 +167,7 @@ class TestWarnings:
         assert not [w for w in r.warnings if w.code == "latency"] and r.latencies_agree
 
     def test_iir_only_delays_are_not_flagged(self):
-        doc = project.to_dict(presets_lib.load("two-way"))
+        doc = project.to_dict(project.load_preset("two-way"))
         doc["bands"][1]["delay_ms"] = 0.3     # driver alignment, a choice
         assert self._texts(doc, "latency") == []
 
@@ -214,7 +214,7 @@ class TestWarnings:
 
 
 def test_preset_fir_three_way_passes():
-    r = engine.analyse(presets_lib.load("fir-three-way"))
+    r = engine.analyse(project.load_preset("fir-three-way"))
     assert r.ok and not r.warnings
     assert r.latency_samples == 511.0 and r.latencies_agree
 
@@ -232,10 +232,10 @@ def test_a_design_error_in_the_analysis_names_band_and_filter():
     # the error still carries the whole field path.
     import json
 
-    from planner import engine, presets_lib, project
+    from planner import engine, presets, project
     from planner.errors import SpecNotMetError
 
-    d = project.to_dict(presets_lib.load("two-way"))
+    d = project.to_dict(project.load_preset("two-way"))
     d["bands"][0]["filters"][1] = {"type": "lowpass", "family": "fir", "method": "remez",
                                    "freq": 2400, "transition_hz": 100, "atten_db": 80,
                                    "max_taps": 101}

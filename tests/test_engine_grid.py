@@ -14,7 +14,8 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from scipy import signal
 
-from planner import config, engine, presets_lib, project
+from planner import config, engine, presets, project
+from planner.engine.analyse import start_grid
 from tests import refs
 
 
@@ -59,7 +60,7 @@ def peak(f0, gain_db, q, fs):
 
 def two_way_with(flt, fs, band=1):
     """The two-way preset (LR4 at 2.4 kHz, 45 Hz - 20 kHz) with a raw biquad in a band."""
-    d = json.loads(presets_lib.text("two-way"))
+    d = json.loads(presets.text("two-way"))
     d["sample_rate"] = fs
     d["bands"][band]["filters"].append(flt)
     return engine.analyse(project.from_dict(d))
@@ -139,12 +140,12 @@ def test_the_grid_is_bounded_whatever_the_number_of_filters():
     assert np.all(np.diff(r.freqs_hz) > 0)
 
 
-@pytest.mark.parametrize("name", presets_lib.names())
+@pytest.mark.parametrize("name", presets.names())
 def test_presets_have_no_narrow_features(name):
     # The presets' filters are wide (Q 2 at most): no feature points; the grid stays bounded.
-    p = presets_lib.load(name)
+    p = project.load_preset(name)
     r = engine.analyse(p)
-    assert np.array_equal(engine._grid(p, r.designs), engine._grid(p))
+    assert np.array_equal(start_grid(p, r.designs), start_grid(p))
     assert len(r.freqs_hz) <= config.grid_cap(p.analysis.points, len(p.bands))
 
 

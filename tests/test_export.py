@@ -338,9 +338,9 @@ def test_a_band_that_fails_says_so_with_a_real_figure():
 def test_text_lines_agree_with_the_json_figures():
     # What the export prints per rate is the figure of its JSON (and manifest), rounded,
     # never rounded onto the limit it fails: 0.1049 is shown as 0.105, not 0.1.
-    assert export._against(0.10004, 0.1) == "0.10004"
-    assert export._against(0.0999, 0.1) == "0.0999"
-    assert export._against(0.5, 0.1) == "0.5"
+    assert export.shown_against(0.10004, 0.1) == "0.10004"
+    assert export.shown_against(0.0999, 0.1) == "0.0999"
+    assert export.shown_against(0.5, 0.1) == "0.5"
     for order, freq in ((6, 10), (8, 20), (4, 10)):
         rx = export.export_rate(_lowpass_192k(order, freq), 192000, "q2.30")
         d = export.arith_dict(rx)["bands"][0]
@@ -407,7 +407,7 @@ def test_unknown_fractional_mode_refused_before_writing(proj, tmp_path):
 
 def test_band_impulse_response_round_mode_is_the_nearest_sample(proj):
     # 0.6 samples: one leading zero in round mode (floor would give none).
-    from planner.delays import plan_delays
+    from planner.engine.delays import plan_delays
 
     rx = export.export_rate(proj, 48000)
     plan = plan_delays([b.delay_samples for b in rx.bands], "round")
@@ -490,7 +490,8 @@ def test_write_file_reports_a_system_error(tmp_path):
 
 def test_write_export_guard_stops_a_colliding_run(monkeypatch, tmp_path):
     # Were two bands ever given one stem, the run refuses before writing anything.
-    monkeypatch.setattr(export, "band_file_stems", lambda names, reserved=(): ["same"] * len(names))
+    monkeypatch.setattr(export.files, "band_file_stems",
+                        lambda names, reserved=(): ["same"] * len(names))
     with pytest.raises(ExportError, match=r"names-48000-same\.wav' would be written twice in one "
                                           r"run, for band 'a' at 48000 Hz and for band 'b' at "
                                           r"48000 Hz"):

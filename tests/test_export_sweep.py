@@ -26,7 +26,7 @@ from scipy import signal
 from scipy.io import wavfile
 
 from planner import export, project
-from planner.render import render
+from planner.audio.render import render
 
 RATES = (44100, 48000, 96000, 192000)
 MODES = export.SECTION_MODES

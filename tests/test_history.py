@@ -2,13 +2,13 @@
 
 import pytest
 
-from planner import edits, presets_lib
+from planner import edits, presets, project
 from planner.history import History
 
 
 @pytest.fixture
 def p0():
-    return presets_lib.load("two-way")
+    return project.load_preset("two-way")
 
 
 def test_undo_returns_to_the_previous_snapshot(p0):
@@ -74,6 +74,6 @@ def test_limit_must_be_positive(p0):
 def test_reset_starts_clean(p0):
     h = History(p0)
     h.push(edits.toggle_band(p0, 0, "invert"), "invert")
-    other = presets_lib.load("three-way")
+    other = project.load_preset("three-way")
     h.reset(other)
     assert h.current is other and not h.dirty and not h.can_undo

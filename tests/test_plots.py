@@ -2,7 +2,7 @@
 
 import numpy as np
 
-from planner import plots
+from planner.present import plots
 
 
 def test_downsample_keeps_a_narrow_notch():

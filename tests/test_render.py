@@ -18,7 +18,8 @@ import pytest
 from scipy import signal
 from scipy.io import wavfile
 
-from planner import engine, export, presets_lib, project, render
+from planner import engine, export, presets, project
+from planner.audio import render, wav
 from planner.dsp.signals import impulse, white_noise
 from planner.errors import ExportError
 from tests.conftest import EXAMPLE, two_way
@@ -113,17 +114,9 @@ def test_progress_reaches_total(rx):
     assert seen[-1] == (total, total) and all(a <= b for (a, _), (b, _) in zip(seen, seen[1:]))
 
 
-def test_text_progress_bar():
-    buf = io.StringIO()
-    cb = render.text_progress(buf, width=10)
-    cb(5, 10)
-    cb(10, 10)
-    assert buf.getvalue() == "\r[#####.....]  50%\r[##########] 100%\n"
-
-
 def test_write_wav_float32_read_back(tmp_path):
     x = white_noise(1000, FS, seed=10)
-    render.write_wav(tmp_path / "a.wav", x, 44100)
+    wav.write_wav(tmp_path / "a.wav", x, 44100)
     rate, data = wavfile.read(tmp_path / "a.wav")
     assert rate == 44100 and data.dtype == np.float32
     np.testing.assert_array_equal(data, x.astype(np.float32))
@@ -131,25 +124,25 @@ def test_write_wav_float32_read_back(tmp_path):
 
 def test_read_wav_scales_int16(tmp_path):
     wavfile.write(tmp_path / "i.wav", FS, np.array([0, 16384, -32768], dtype=np.int16))
-    x, fs = render.read_wav(tmp_path / "i.wav")
+    x, fs = wav.read_wav(tmp_path / "i.wav")
     # int16 full scale is 32768: 16384 -> 0.5, -32768 -> -1.
     assert fs == FS and x.tolist() == [0.0, 0.5, -1.0]
 
 
 def test_read_wav_missing_raises(tmp_path):
     with pytest.raises(ExportError, match=r"wav: no such file"):
-        render.read_wav(tmp_path / "nope.wav")
+        wav.read_wav(tmp_path / "nope.wav")
 
 
 def test_read_wav_not_a_wav_raises(tmp_path):
     (tmp_path / "bad.wav").write_text("hello")
     with pytest.raises(ExportError, match=r"wav: cannot read .* as WAV"):
-        render.read_wav(tmp_path / "bad.wav")
+        wav.read_wav(tmp_path / "bad.wav")
 
 
 def test_write_wav_fractional_rate_raises(tmp_path):
     with pytest.raises(ExportError, match=r"rate: 44100.5 Hz: a WAV file holds whole-Hz"):
-        render.write_wav(tmp_path / "x.wav", np.zeros(4), 44100.5)
+        wav.write_wav(tmp_path / "x.wav", np.zeros(4), 44100.5)
 
 
 def test_rate_not_designed_refused():
@@ -230,7 +223,7 @@ def test_exported_wav_sum_matches_the_check_with_the_exact_delay(tmp_path, fs, s
 def test_fir_bands_with_a_fractional_delay_match_the_check():
     # The fir-three-way split (a delayed unit impulse in sum) with the mid band moved by
     # 0.3 samples: the band's taps and the fractional-delay filter run as one FIR.
-    d = project.to_dict(presets_lib.load("fir-three-way"))
+    d = project.to_dict(project.load_preset("fir-three-way"))
     d["bands"][1]["delay_ms"] = 0.3 * 1000 / 48000
     p = project.from_dict(d)
     out = render.render(impulse(N_IMPULSE, 48000), export.export_rate(p, 48000))

@@ -1,17 +1,18 @@
-"""planner.report.text_report: every state it prints is the engine's verdict."""
+"""planner.present.text.text_report: every state it prints is the engine's verdict."""
 
 import json
 
 import pytest
 
-from planner import config, engine, presets_lib, project, report
+from planner import config, engine, presets, project
+from planner.present import text as report
 from tests.conftest import two_way
 
 
 def _raised(db, enforce=None, name="two-way"):
     """A preset with every band raised by ``db`` dB (Linkwitz-Riley and Butterworth bands never
     exceed 0 dB, Butterworth 1930 and Linkwitz 1976, so each peak is the band gain)."""
-    d = json.loads(presets_lib.text(name))
+    d = json.loads(presets.text(name))
     for b in d["bands"]:
         b["gain_db"] = b.get("gain_db", 0.0) + db
     if enforce is not None:
@@ -45,7 +46,7 @@ def test_failed_result_names_every_failing_check():
     assert _line(text, "result ") == "result     FAIL: sum, crossings"
 
 
-@pytest.mark.parametrize("name", presets_lib.names())
+@pytest.mark.parametrize("name", presets.names())
 @pytest.mark.parametrize("db", [0.0, 0.3])
 @pytest.mark.parametrize("enforce", [False, True])
 def test_the_word_fail_appears_only_when_the_result_fails(name, db, enforce):

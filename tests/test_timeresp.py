@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, project, report, timeresp
+from planner import engine, project, timeresp
+from planner.present import views
 from planner.dsp import fir as dfir
 
 from tests.conftest import two_way
@@ -163,7 +164,7 @@ def test_settle_covers_a_linear_phase_fir():
 
 def test_time_series_span_ms(lr4):
     tr = timeresp.project_impulse(lr4)
-    s = report.time_series(tr, span_ms=2.0)
+    s = views.time_series(tr, span_ms=2.0)
     assert s[-1].label == "sum" and s[-1].bold
     assert s[0].x[-1] == pytest.approx(2.0, abs=1000.0 / FS)
 

@@ -27,7 +27,8 @@ def run(args) -> int:
 
 
 def _run(args) -> int:
-    from planner import engine, report
+    from planner import engine
+    from planner.present.text import text_report
     from planner.cli.common import load_project
     from planner.jsonio import dumps
 
@@ -45,7 +46,7 @@ def _run(args) -> int:
             d["arith"] = export.arith_dict(rx)
         print(dumps(d), end="")
     else:
-        print(report.text_report(r))
+        print(text_report(r))
         if rx is not None:
             print("\n".join(export.arith_text(rx)))
     return 0 if r.ok and (rx is None or rx.arith_ok) else 1

@@ -37,9 +37,9 @@ def load_project(path: str | None, design: bool = True) -> Project:
     analysis (the editor, which designs in a worker with progress).
     """
     # The core is imported when a command runs, not when the parser is built (start-up).
-    from planner import engine, presets_lib as presets, project
+    from planner import engine, presets as presets, project
 
-    proj = presets.load(presets.DEMO) if path is None else project.load(path)
+    proj = project.load_preset(presets.DEMO) if path is None else project.load(path)
     if design:
         engine.design_project(proj)
     return proj

@@ -8,7 +8,6 @@ shown), 2 for an invalid file or option.
 from __future__ import annotations
 
 import argparse
-import json
 
 from planner.cli.common import positive_number
 from planner.defaults import (COMPARE_ATTEN_DB as DEFAULT_ATTEN_DB,
@@ -56,7 +55,7 @@ def _run(args) -> int:
     from planner.cli.common import load_project
     from planner.dsp.fir import DEFAULT_MAX_TAPS
     from planner.errors import ProjectError
-    from planner.report import compare_text
+    from planner.present.text import compare_text
 
     if not args.atten_db > args.ripple_db:
         raise ProjectError(f"{args.atten_db:g} dB must be above --ripple-db "

@@ -37,12 +37,14 @@ def run(args) -> int:
     # The editor designs in its worker, with a progress bar; the report designs here.
     proj = load_project(args.file, design=reason is not None)
     if reason is not None:
-        from planner import engine, report
+        from planner import engine
+        from planner.present.text import text_report
+        from planner.present.views import plot_report
 
         print(f"crossplan: {reason}: printing the check report instead of opening the editor",
               file=sys.stderr)
         r = engine.analyse(proj)
-        print(report.text_report(r))
-        print(report.plot_report(r, "magnitude", 80, 22))
+        print(text_report(r))
+        print(plot_report(r, "magnitude", 80, 22))
         return 0 if r.ok else 1
     return run_editor(proj, args.file)

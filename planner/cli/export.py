@@ -1,7 +1,7 @@
 """``crossplan export FILE --rate R [...] --format F --out DIR [--arith A]``: coefficients for a DSP.
 
 ``--fractional-delay apply|round`` says how the WAV impulse responses make a
-delay with a fraction of a sample (:mod:`planner.delays`); the coefficient
+delay with a fraction of a sample (:mod:`planner.engine.delays`); the coefficient
 formats hold the exact ``delay_samples``.
 
 Exit 0 when written and every check passes, 1 when the files are written

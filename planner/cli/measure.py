@@ -68,7 +68,7 @@ def run(args) -> int:
     from planner.dsp import measure
     from planner.errors import CrossplanError
     from planner.jsonio import atomic_write_text
-    from planner.render import read_wav
+    from planner.audio.wav import read_wav
 
     f1, f2 = _band(args)
     rec, fs = read_wav(args.recording)

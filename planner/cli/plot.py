@@ -31,7 +31,8 @@ def run(args) -> int:
 
 
 def _run(args) -> int:
-    from planner import engine, report
+    from planner import engine
+    from planner.present.views import plot_report, plot_time
     from planner.cli.common import load_project
 
     proj = load_project(args.file)
@@ -45,8 +46,8 @@ def _run(args) -> int:
         tr = timeresp.project_impulse(proj)
         if args.view == "step":
             tr = tr.step()
-        print(report.plot_time(tr, proj.name, width, height, color=color, span_ms=args.span_ms))
+        print(plot_time(tr, proj.name, width, height, color=color, span_ms=args.span_ms))
         return 0
     r = engine.analyse(proj)
-    print(report.plot_report(r, args.view, width, height, color=color))
+    print(plot_report(r, args.view, width, height, color=color))
     return 0

@@ -16,16 +16,16 @@ def add_arguments(p, name):
 def run(args) -> int:
     # Neither command designs anything: the presets are written as shipped
     # (the tests load and check every one), so numpy and scipy stay unloaded.
-    from planner import presets_lib
+    from planner import presets
     from planner.jsonio import atomic_write_text
 
     if args.command == "presets":
-        for n in presets_lib.names():
-            mark = " (demo)" if n == presets_lib.DEMO else ""
-            print(f"{n:<16} {presets_lib.describe(n)}{mark}")
+        for n in presets.names():
+            mark = " (demo)" if n == presets.DEMO else ""
+            print(f"{n:<16} {presets.describe(n)}{mark}")
         return 0
-    name = args.preset or presets_lib.DEMO
-    text = presets_lib.text(name)
+    name = args.preset or presets.DEMO
+    text = presets.text(name)
     out = Path(args.file)
     if out.exists() and not args.force:
         from planner.errors import ProjectError
@@ -38,5 +38,5 @@ def run(args) -> int:
         raise ProjectError(f"folder {str(out.parent)!r} does not exist", field="FILE")
     # Write the preset's own text (it keeps its description and layout).
     atomic_write_text(out, text)
-    print(f"wrote {out} from preset {name!r} ({presets_lib.title(name)})")
+    print(f"wrote {out} from preset {name!r} ({presets.title(name)})")
     return 0

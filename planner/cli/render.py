@@ -5,7 +5,7 @@ band with the exported (float64, or ``--arith``) coefficients and writes one
 32-bit float WAV per band and their sum (``<stem>-<band>.wav``, the band's
 part from :func:`planner.export.band_file_stems`, and ``<stem>-sum.wav``).
 ``--fractional-delay apply|round`` says how a delay with a fraction of a
-sample is made (:mod:`planner.delays`). ``crossplan render FILE --sweep|--impulse|
+sample is made (:mod:`planner.engine.delays`). ``crossplan render FILE --sweep|--impulse|
 --noise [--seconds S --rate R --level-db L] --out DIR`` first writes the test
 signal (with, for the sweep, a JSON sidecar holding f1 and f2 for
 ``crossplan measure``) and then the bands' outputs.
@@ -85,10 +85,13 @@ def run(args) -> int:
 def _run(args) -> int:
     from pathlib import Path
 
-    from planner import delays, export, render
+    from planner import export
+    from planner.audio import render, wav
+    from planner.cli.common import ProgressBar
+    from planner.engine import rounding
     from planner.cli.common import load_project
     from planner.errors import CrossplanError
-    from planner.report import SAFETY_NOTE
+    from planner.present.text import SAFETY_NOTE
 
     proj = load_project(args.file)
     rates = args.rate or [proj.sample_rate]
@@ -108,7 +111,7 @@ def _run(args) -> int:
             signal_files.append((run.claim(p.with_suffix(".json"), f"the {stem} parameters"),
                                  None, meta))
     else:
-        x, fs_in = render.read_wav(args.input)
+        x, fs_in = wav.read_wav(args.input)
         fs = render.same_rate_or_refuse(fs_in, rates)
         stem = Path(args.input).stem
     rx = export.export_rate(proj, fs, args.arith)
@@ -126,20 +129,24 @@ def _run(args) -> int:
     written = []
     for p, sig, meta in signal_files:
         if meta is None:
-            export.write_file(p, lambda t, sig=sig: render.write_wav(t, sig, fs))
+            export.write_file(p, lambda t, sig=sig: wav.write_wav(t, sig, fs))
         else:
             export.write_text_file(p, json.dumps(meta, indent=1) + "\n")
         written.append((p, ""))
     show = (not args.quiet and sys.stderr.isatty() and len(x) > PROGRESS_AFTER_S * fs)
-    res = render.render(x, rx, render.text_progress(sys.stderr) if show else None,
+    bar = ProgressBar(sys.stderr) if show else None
+    res = render.render(x, rx, None if bar is None else
+                        (lambda done, total: bar.update(done / total, "rendering")),
                         args.fractional_delay)
+    if bar is not None:
+        bar.clear()
     for name, p in zip(names, band_paths):
-        export.write_file(p, lambda t, y=res.bands[name]: render.write_wav(t, y, fs))
+        export.write_file(p, lambda t, y=res.bands[name]: wav.write_wav(t, y, fs))
         written.append((p, f" (band {name})"))
-    export.write_file(sum_path, lambda t: render.write_wav(t, res.sum, fs))
+    export.write_file(sum_path, lambda t: wav.write_wav(t, res.sum, fs))
     written.append((sum_path, " (sum of the active bands)"))
     for p, what in written:
         print(f"wrote {p}{what}")
-    for line in delays.run_notes(rx.report, res.delays):
+    for line in rounding.run_notes(rx.report, res.delays):
         print(f"note: {line}")
     return 0

@@ -25,7 +25,7 @@ from planner import edits, engine, filters as fk, progress, project as pj, units
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
-from planner.report import SAFETY_NOTE
+from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
                                  SettingsScreen)

@@ -182,7 +182,7 @@ class CompareScreen(Screen[None]):
     The FIR searches can take seconds (a low crossover needs thousands of
     taps): a progress bar shows meanwhile and Escape stops them; once the
     table is there Escape closes the screen. The table is
-    :func:`planner.report.compare_text` (no DSP here).
+    :func:`planner.present.text.compare_text` (no DSP here).
     """
 
     BINDINGS = [Binding("escape,q", "close", "Close / stop")]
@@ -210,7 +210,7 @@ class CompareScreen(Screen[None]):
         from planner import compare, progress
         from planner.errors import DesignCancelled
         from planner.errors import CrossplanError
-        from planner.report import compare_text
+        from planner.present.text import compare_text
 
         shown = [-1]
 

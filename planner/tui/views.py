@@ -14,8 +14,8 @@ import numpy as np
 from planner import config
 from planner.dsp.analysis import db
 from planner.engine import Report
-from planner.plots import Series
-from planner.report import phase_difference_deg, time_series, view_series
+from planner.present.plots import Series
+from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
 __all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair",

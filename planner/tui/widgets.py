@@ -19,7 +19,7 @@ from textual.widgets.option_list import Option
 from planner import filters as fk, units
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
-from planner.plots import freq_plot, time_plot
+from planner.present.plots import freq_plot, time_plot
 from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 

@@ -174,18 +174,18 @@ def test_command_help_shows_its_options(capsys):
 
 
 def test_new_writes_the_preset_text_unchanged(tmp_path, capsys):
-    from planner import presets_lib
+    from planner import presets
 
     out = tmp_path / "p.json"
     assert main(["new", str(out), "--preset", "sub-sat"]) == 0
-    assert out.read_text(encoding="utf-8") == presets_lib.text("sub-sat")
+    assert out.read_text(encoding="utf-8") == presets.text("sub-sat")
     assert "Den subwoofer and satellites" in capsys.readouterr().out
 
 
 def _raised_two_way(enforce=None):
-    from planner import presets_lib
+    from planner import presets
 
-    d = json.loads(presets_lib.text("two-way"))
+    d = json.loads(presets.text("two-way"))
     for b in d["bands"]:
         b["gain_db"] = 0.2      # LR and Butterworth bands peak at their gain (Linkwitz 1976)
     if enforce is not None:

@@ -152,9 +152,9 @@ def test_check_arith_flag_overrides_the_projects(write_project, capsys):
 
 
 def _fir_preset():
-    from planner import presets_lib
+    from planner import presets
 
-    return project.to_dict(presets_lib.load("fir-three-way"))
+    return project.to_dict(project.load_preset("fir-three-way"))
 
 
 def test_export_fir_bands_write_their_taps_exactly(write_project, tmp_path):

@@ -13,7 +13,7 @@ import pytest
 from scipy.io import wavfile
 
 from planner.cli import main
-from planner.report import SAFETY_NOTE
+from planner.present.text import SAFETY_NOTE
 from tests.conftest import two_way
 
 

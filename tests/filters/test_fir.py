@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, filters, presets_lib, progress, project
+from planner import engine, filters, presets, progress, project
 from planner.dsp import fir
 from planner.errors import ProjectError, SpecNotMetError
 from planner.filters.fir import FirDesignCancelled, FirSpecNotMetError
@@ -355,7 +355,7 @@ def test_refusals_name_field_and_value(flt, match):
 
 @pytest.mark.parametrize("name", ["two-way", "three-way", "sub-sat"])
 def test_iir_presets_still_load(name):
-    p = presets_lib.load(name)
+    p = project.load_preset(name)
     assert all(f.family != "fir" for b in p.bands for f in b.filters)
 
 

@@ -2,12 +2,12 @@
 
 import pytest
 
-from planner import presets_lib, project
+from planner import presets, project
 
 
 @pytest.fixture
 def two_way_file(tmp_path):
     """The two-way preset saved to a file of its own."""
     path = tmp_path / "two-way.json"
-    project.save(presets_lib.load("two-way"), path)
+    project.save(project.load_preset("two-way"), path)
     return path

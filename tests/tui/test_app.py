@@ -6,8 +6,8 @@ tweeter [LR4 highpass 2.4 kHz, peaking -0.8 dB at 7.5 kHz].
 
 import pytest
 
-from planner import engine, presets_lib, project
-from planner.report import SAFETY_NOTE
+from planner import engine, presets, project
+from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.app import CrossplanApp
 from planner.tui.screens import ChoiceScreen, HelpScreen, PathScreen, SettingsScreen
@@ -19,7 +19,7 @@ SIZE = (80, 24)
 
 
 def make_app(path=None, name="two-way"):
-    proj = project.load(path) if path else presets_lib.load(name)
+    proj = project.load(path) if path else project.load_preset(name)
     return CrossplanApp(proj, str(path) if path else None)
 
 
@@ -320,7 +320,7 @@ async def test_settings_refuse_a_rate_that_puts_filters_above_nyquist():
 
 
 async def test_selecting_a_warning_selects_its_filter():
-    proj = presets_lib.load("two-way")
+    proj = project.load_preset("two-way")
     from planner import edits
     proj = edits.set_filter_params(proj, 1, 1, gain_db=8.0)   # a boost above 6 dB warns
     app = CrossplanApp(proj, None)
@@ -575,7 +575,7 @@ async def test_escape_stops_a_running_comparison():
 async def test_a_file_with_an_unmet_fir_spec_opens_and_says_why(tmp_path):
     # Files open without designing (the worker designs them): a spec that cannot be met
     # reads as a failed analysis naming the filter, not a crash or a frozen screen.
-    p = _with_fir_lowpass(presets_lib.load("two-way"), method="remez", freq=2400,
+    p = _with_fir_lowpass(project.load_preset("two-way"), method="remez", freq=2400,
                           transition_hz=100, atten_db=80, max_taps=101)
     path = tmp_path / "bad.json"
     path.write_text(project.dumps(p))
@@ -621,7 +621,7 @@ def test_a_list_of_frequencies_is_read_as_people_write_it(text):
 async def test_fractional_delay_warning_shows_in_the_editor(tmp_path):
     # The editor lists the engine's warnings: a tweeter delayed 0.48 samples at 48 kHz
     # (0.01 ms) gets the fractional-delay warning with the cost of rounding it.
-    d = project.to_dict(presets_lib.load("two-way"))
+    d = project.to_dict(project.load_preset("two-way"))
     d["bands"][1]["delay_ms"] = 0.01
     path = tmp_path / "frac.json"
     project.save(project.from_dict(d), path)

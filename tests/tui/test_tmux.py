@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from planner import presets_lib, project
+from planner import presets, project
 
 
 def _crossplan() -> str | None:
@@ -74,7 +74,7 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
     # Each key is sent only once the screen shows that the one before took
     # effect (no fixed sleeps: a loaded machine only makes the waits longer).
     path = tmp_path / "two-way.json"
-    project.save(presets_lib.load("two-way"), path)
+    project.save(project.load_preset("two-way"), path)
     name = f"crossplan-test-{uuid.uuid4().hex[:8]}"
     cmd = f"cd {tmp_path} && {EXE} two-way.json; echo EXITED-$?; sleep 30"
     _tmux("new-session", "-d", "-s", name, "-x", "80", "-y", "24", cmd)

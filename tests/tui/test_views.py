@@ -2,7 +2,7 @@
 
 import pytest
 
-from planner import edits, engine, presets_lib, project
+from planner import edits, engine, presets, project
 from planner.tui import views
 
 
@@ -59,7 +59,7 @@ def test_check_lines_when_all_muted():
 
 
 def test_crossing_pair_prefers_the_selected_bands_crossing():
-    r = engine.analyse(presets_lib.load("three-way"))
+    r = engine.analyse(project.load_preset("three-way"))
     a, b, fc = views.crossing_pair(r, 2)
     assert (a, b) == (1, 2) and fc == pytest.approx(3000.0, rel=0.01)
 
@@ -71,7 +71,7 @@ def test_unknown_view_is_refused():
 
 
 def test_warning_items_point_at_band_and_filter():
-    p = edits.set_filter_params(presets_lib.load("two-way"), 1, 1, gain_db=8.0)
+    p = edits.set_filter_params(project.load_preset("two-way"), 1, 1, gain_db=8.0)
     items = views.warning_items(engine.analyse(p))
     boost = [w for w in items if "boost" in w.text]
     assert boost and (boost[0].band, boost[0].filter) == (1, 1)
@@ -80,7 +80,7 @@ def test_warning_items_point_at_band_and_filter():
 def test_arith_line_ok_reads_worst_deviation_and_internal_peak():
     from planner import export
 
-    p = presets_lib.load("two-way")
+    p = project.load_preset("two-way")
     rx = export.export_rate(p, p.sample_rate, "float32")
     line = views.arith_line(rx)
     assert line.startswith("arith     ok   float32: max dev ")
@@ -131,7 +131,7 @@ def test_time_view_without_impulse_raises():
 def _raised_two_way(db, enforce=False):
     # Linkwitz-Riley and Butterworth bands never exceed 0 dB (Linkwitz and Riley 1976), so each
     # band peaks at its gain.
-    p = presets_lib.load("two-way")
+    p = project.load_preset("two-way")
     for i in range(len(p.bands)):
         p = edits.set_band(p, i, gain_db=db)
     return edits.set_analysis(p, enforce_headroom=enforce)

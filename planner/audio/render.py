@@ -5,7 +5,7 @@ Each band is run exactly as a DSP would run its export (see
 in float64 (the filter state carried from block to block), an FIR by
 overlap-add fast convolution (:func:`planner.dsp.signals.fft_convolve`, one
 block at a time), then gain, polarity and the delay. A delay with a
-fraction of a sample runs as :mod:`planner.delays` says: by default
+fraction of a sample runs as :mod:`planner.engine.delays` says: by default
 (``apply``) the fraction is a fractional-delay FIR
 (:mod:`planner.dsp.fracdelay`, convolved in like the band's own taps) and
 every band of the run gets that filter's latency ``(N - 1) / 2`` samples, so
@@ -14,8 +14,7 @@ sample instead. The exported WAV impulse responses are made the same way.
 Outputs keep the input's length and channels (what the delays push past
 the end is cut).
 
-WAV files are read and written with :mod:`scipy.io.wavfile`; everything is
-written as 32-bit float.
+WAV files are in :mod:`planner.audio.wav`.
 
 References
 ----------
@@ -35,64 +34,21 @@ from typing import Callable
 
 import numpy as np
 from scipy import signal
-from scipy.io import wavfile
 
-from planner.delays import BandDelay, DelayPlan, plan_delays
 from planner.dsp.signals import fft_convolve
+from planner.engine.delays import BandDelay, DelayPlan, plan_delays
 from planner.errors import ExportError
 from planner.export import BandExport, RateExport
 
-__all__ = ["read_wav", "write_wav", "render_band", "render", "Rendered", "BLOCK_SAMPLES",
-           "text_progress", "same_rate_or_refuse", "out_path"]
+__all__ = ["render_band", "render", "Rendered", "BLOCK_SAMPLES", "same_rate_or_refuse",
+           "out_path"]
+
 
 #: Samples per block between progress reports.
 BLOCK_SAMPLES = 1 << 16
 
+
 Progress = Callable[[int, int], None]
-
-
-def read_wav(path) -> tuple[np.ndarray, float]:
-    """Read a WAV file as float64 samples in [-1, 1] and its rate in Hz.
-
-    Integer PCM is scaled by its full scale (8-bit unsigned offset removed);
-    float data is kept as it is. The result has shape ``(n,)`` for mono and
-    ``(n, channels)`` otherwise.
-
-    Raises
-    ------
-    ExportError
-        ``field='wav'``: a missing or unreadable file, or no samples.
-    """
-    try:
-        fs, data = wavfile.read(str(path))
-    except FileNotFoundError:
-        raise ExportError(f"no such file: {str(path)!r}", field="wav") from None
-    except (OSError, ValueError, EOFError) as e:
-        raise ExportError(f"cannot read {str(path)!r} as WAV: {e}", field="wav") from None
-    if data.dtype == np.uint8:
-        x = (data.astype(np.float64) - 128.0) / 128.0
-    elif np.issubdtype(data.dtype, np.integer):
-        x = data.astype(np.float64) / float(-np.iinfo(data.dtype).min)
-    else:
-        x = data.astype(np.float64)
-    if x.shape[0] == 0:
-        raise ExportError(f"{str(path)!r} holds no samples", field="wav")
-    return x, float(fs)
-
-
-def write_wav(path, samples, fs_hz: float) -> None:
-    """Write samples as a 32-bit float WAV (mono for 1-D, one column per channel for 2-D).
-
-    The rate is stored as a whole number of Hz, as the format requires.
-
-    Raises
-    ------
-    ExportError
-        ``field='rate'`` for a rate that is not a whole number of Hz.
-    """
-    if not float(fs_hz).is_integer():
-        raise ExportError(f"{fs_hz!r} Hz: a WAV file holds whole-Hz rates only", field="rate")
-    wavfile.write(str(path), int(fs_hz), np.asarray(samples, dtype=np.float32))
 
 
 def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = None,
@@ -108,7 +64,7 @@ def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = Non
     line. The output has the input's length. ``progress(done, total)`` is
     called after each block.
 
-    ``delay`` comes from the run's :func:`planner.delays.plan_delays`
+    ``delay`` comes from the run's :func:`planner.engine.delays.plan_delays`
     (default: the band alone, in ``apply`` mode).
     """
     if delay is None:
@@ -172,7 +128,7 @@ def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
     """Run ``x`` through every band of an export; the sum takes the active (mute/solo) bands.
 
     ``fractional_delay`` (``"apply"`` or ``"round"``) says how delays with a
-    fraction of a sample are made (:func:`planner.delays.plan_delays`, one
+    fraction of a sample are made (:func:`planner.engine.delays.plan_delays`, one
     plan for all the bands, so that they stay aligned).
     ``progress(done, total)`` counts samples over all bands together.
     """
@@ -188,24 +144,6 @@ def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
         if b.active:
             s = s + outs[b.name]
     return Rendered(outs, s, plan)
-
-
-def text_progress(stream, width: int = 30) -> Progress:
-    """A progress callback drawing ``[#####.....]  42%`` on ``stream`` (ending with a newline)."""
-    state = {"last": -1}
-
-    def _cb(done: int, total: int) -> None:
-        pct = int(100 * done / total) if total else 100
-        if pct == state["last"]:
-            return
-        state["last"] = pct
-        k = width * pct // 100
-        stream.write(f"\r[{'#' * k}{'.' * (width - k)}] {pct:3d}%")
-        if done >= total:
-            stream.write("\n")
-        stream.flush()
-
-    return _cb
 
 
 def same_rate_or_refuse(fs_hz: float, rates) -> float:
@@ -225,4 +163,3 @@ def out_path(out_dir, name: str) -> Path:
     except OSError as e:
         raise ExportError(f"cannot make the folder {str(p)!r}: {e}", field="out") from None
     return p / name
-

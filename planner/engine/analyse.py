@@ -1,0 +1,217 @@
+"""From a project to its check report: the grid, the responses, the checks and warnings.
+
+The summed response is checked against the project's limits on a grid made
+for it: log-spaced points plus the filters' frequencies and the narrow
+features of every section, refined where the sum changes fast and at its
+extremes (:mod:`planner.dsp.grid`), so that the reported figures are those
+of the response, not of the grid.
+
+Definitions (:mod:`planner.dsp.analysis`): the flatness is the largest
+deviation of the sum's level ``20 log10 |sum|`` from 0 dB on the grid; a
+crossing is where two active bands' levels in dB are equal, with the phase
+difference (first band in project order minus the second, wrapped to
+(-180, 180] deg) and the level there.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+
+from planner import config
+from planner.dsp import analysis as an
+from planner.dsp import grid as dgrid
+from planner.dsp.response import BandResponses, log_derivative
+from planner.engine.design import BandDesign, design_band, evaluate, point_evaluator
+from planner.engine.result import (BandResult, CheckResult, CrossingResult, Report,
+                                   check_state)
+from planner.engine.warnings import warnings_of
+from planner.errors import CrossplanError
+from planner.model import Project
+
+__all__ = ["analyse", "start_grid"]
+
+
+def start_grid(project: Project, designs: list[BandDesign] | None = None) -> np.ndarray:
+    """The starting grid: ``analysis.points`` log-spaced points, the filters' own frequencies
+    (at most :data:`planner.config.GRID_NAMED_MAX`) and, given the designs, points around
+    the narrow features of every section (:func:`planner.dsp.grid.feature_points`)."""
+    a = project.analysis
+    live = [f for b in project.bands for f in b.filters if not f.bypass]
+    extra = [f.params[k] for f in live for k in ("freq", "freq2") if k in f.params]
+    extra += [x for f in live for x in f.params.get("crossovers", ())]
+    extra = list(dict.fromkeys(extra))[:config.GRID_NAMED_MAX]
+    if designs:
+        sos = [d.sos for d in designs if len(d.sos)]
+        if sos:
+            f0, bw = dgrid.narrow_features(np.vstack(sos), project.sample_rate)
+            extra += list(dgrid.feature_points(f0, bw, a.f_min, a.f_max, a.points))
+    return an.log_grid(a.f_min, a.f_max, a.points, extra)
+
+
+def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarray):
+    """The grid and responses with new points (and their responses) merged in order."""
+    f = np.concatenate([freqs, new_f])
+    order = np.argsort(f, kind="stable")
+    f = f[order]
+    keep = np.concatenate([[True], np.diff(f) > 0])
+    return f[keep], np.concatenate([h, new_h], axis=1)[:, order][:, keep]
+
+
+def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
+    """The analysis grid and every band's response on it.
+
+    The starting grid (:func:`start_grid`) is evaluated; then, for at most
+    :data:`~planner.config.GRID_REFINE_PASSES` passes, the cells where the
+    sum's level changes by more than :data:`~planner.config.GRID_REFINE_STEP_DB`
+    are split (:func:`planner.dsp.grid.fast_cells`); then the largest local
+    maxima and minima of the sum's level and each band's peak are refined by
+    exact evaluation (:func:`planner.dsp.grid.zoom_extremes`) and added. The
+    grid has at most :func:`planner.config.grid_cap` points.
+    """
+    fs = project.sample_rate
+    freqs = start_grid(project, designs)
+    h = evaluate(designs, freqs, fs).h
+    act = np.asarray(active, dtype=bool)
+
+    def sum_db(hh):
+        return an.db(hh[act].sum(axis=0)) if act.any() else np.zeros(hh.shape[1])
+
+    lv = sum_db(h)
+    for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
+        new = dgrid.fast_cells(freqs, lv[None, :], np.array([-np.inf]))
+        if not len(new):
+            break
+        freqs, h = _merge(freqs, h, new, evaluate(designs, new, fs).h)
+        lv = sum_db(h)
+
+    # Local extremes: candidates are (row, sign, grid index); row -1 is the sum's level (sign
+    # +1: maxima, -1: minima), row k >= 0 band k's level (its peak). A local extreme of the
+    # sum more than GRID_EXTREME_MARGIN_DB short of the largest cannot become it.
+    cands = []
+    # A sum flat to within the zoom's own tolerance (a complementary FIR split) has nothing
+    # to refine: its local extremes are rounding noise.
+    if act.any() and np.ptp(lv) > config.GRID_ZOOM_VTOL:
+        for sg in (1.0, -1.0):
+            idx = dgrid.local_extremes(sg * lv, config.GRID_EXTREMES)
+            near = sg * lv[idx] >= sg * lv[idx[0]] - config.GRID_EXTREME_MARGIN_DB
+            cands += [(-1, sg, int(i)) for i in idx[near]]
+    peaks = np.argmax(np.abs(h), axis=1)
+    cands += [(k, 1.0, int(peaks[k])) for k in range(len(designs))]
+    row = np.array([c[0] for c in cands])
+    sign = np.array([c[1] for c in cands])
+    idx = np.array([c[2] for c in cands])
+    n = len(freqs)
+    lo, hi = freqs[np.maximum(idx - 1, 0)], freqs[np.minimum(idx + 1, n - 1)]
+    is_sum = row < 0
+    start = np.where(is_sum, lv[idx], an.db(h[np.maximum(row, 0), idx]))
+    point = point_evaluator(designs, fs)
+
+    def value(c, f):
+        # Every band at every trial point, by the matrix-product path: the sum candidates
+        # need every active band there anyway.
+        hv = point.all_bands(f)
+        band = np.maximum(row[c], 0)
+        out = np.where(is_sum[c], an.db(hv[act].sum(axis=0)) if act.any() else 0.0,
+                       an.db(hv[band, np.arange(len(c))]))
+        return sign[c] * out
+
+    x, _ = dgrid.zoom_extremes(value, lo, hi, freqs[idx], sign * start)
+    x = np.unique(x[(x > freqs[0]) & (x < freqs[-1])])
+    x = x[~np.isin(x, freqs)]
+    if len(x):
+        freqs, h = _merge(freqs, h, x, evaluate(designs, x, fs).h)
+    return freqs, h
+
+
+def analyse(project: Project, points: int | None = None) -> Report:
+    """Design, evaluate and check every band of ``project`` at its sample rate.
+
+    Parameters
+    ----------
+    project : Project
+    points : int, optional
+        Grid points instead of ``project.analysis.points``.
+    """
+    if points is not None:
+        project = replace(project, analysis=replace(project.analysis, points=int(points)))
+    fs = project.sample_rate
+    a = project.analysis
+    designs = []
+    for i, b in enumerate(project.bands):
+        try:
+            designs.append(design_band(b, fs))
+        except CrossplanError as e:
+            raise e.at(f"bands[{i}]") from None
+    active = project.active()
+    freqs, h = _sample(project, designs, active)
+    resp = BandResponses(freqs, h, fs, lambda: log_derivative(
+        [d.sos for d in designs], freqs, fs, [d.delay_samples for d in designs],
+        [d.fir for d in designs]))
+    act_idx = [i for i, on in enumerate(active) if on]
+    sum_h = resp.sum(active)
+    if act_idx:
+        max_dev, at, ripple = an.flatness(freqs, sum_h)
+    else:
+        max_dev, at, ripple = float("-inf"), float(freqs[0]), 0.0
+    flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+
+    crossings: list[CrossingResult] = []
+    if len(act_idx) >= 2:
+        sub = resp.h[act_idx]
+        # Each crossing is refined on its own two bands, at its own trial frequencies.
+        point = point_evaluator([designs[i] for i in act_idx], fs)
+        for c in an.find_crossings(freqs, sub, evaluate=point):
+            ia, ib = act_idx[c.a], act_idx[c.b]
+            checked = c.level_db >= a.crossing_floor_db
+            crossings.append(CrossingResult(
+                (project.bands[ia].name, project.bands[ib].name), (ia, ib), c.freq_hz,
+                c.phase_diff_deg, c.level_db, checked,
+                (abs(c.phase_diff_deg) <= a.phase_deg) if checked else True))
+
+    peak, peak_at = an.peak_gain(freqs, resp.h)
+    bands = [BandResult(b.name, active[i], float(peak[i]), float(peak_at[i]),
+                        designs[i].n_sections,
+                        0 if designs[i].fir is None else len(designs[i].fir),
+                        designs[i].latency_samples, 1000.0 * designs[i].latency_samples / fs,
+                        designs[i].fir_linear_phase)
+             for i, b in enumerate(project.bands)]
+    report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
+                    crossings, bands, checks=_checks(project, active, max_dev, at, ripple,
+                                                     flat_ok, crossings, bands))
+    report.warnings.extend(warnings_of(report))
+    return report
+
+
+def _checks(project: Project, active: list[bool], max_dev: float, at: float, ripple: float,
+            flat_ok: bool, crossings: list[CrossingResult],
+            bands: list[BandResult]) -> tuple[CheckResult, ...]:
+    """The verdicts of the sum, crossings and headroom checks (the one place they are made).
+
+    Figures: ``sum``: max_dev_db, at_hz, ripple_db, limit_db, muted (every
+    band muted); ``crossings``: limit_deg, floor_db, checked (how many
+    crossings are above the floor), worst (the checked
+    :class:`CrossingResult` with the largest phase difference, or None),
+    failing (those beyond the limit); ``headroom``: limit_db, worst (index
+    of the active band with the highest peak, or None), over (indices of the
+    active bands above the limit).
+    """
+    a = project.analysis
+    muted = not any(active)
+    checks = [CheckResult("sum", check_state(flat_ok and not muted, True), True,
+                          {"max_dev_db": max_dev, "at_hz": at, "ripple_db": ripple,
+                           "limit_db": a.flatness_db, "muted": muted})]
+    checked = [c for c in crossings if c.checked]
+    failing = tuple(c for c in checked if not c.ok)
+    worst = max(checked, key=lambda c: abs(c.phase_diff_deg)) if checked else None
+    checks.append(CheckResult("crossings", check_state(not failing, True), True,
+                              {"limit_deg": a.phase_deg, "floor_db": a.crossing_floor_db,
+                               "checked": len(checked), "worst": worst, "failing": failing}))
+    live = [i for i, b in enumerate(bands) if active[i]]
+    over = tuple(i for i in live if bands[i].peak_gain_db > config.HEADROOM_LIMIT_DB)
+    top = max(live, key=lambda i: bands[i].peak_gain_db) if live else None
+    checks.append(CheckResult("headroom", check_state(not over, a.enforce_headroom),
+                              a.enforce_headroom,
+                              {"limit_db": config.HEADROOM_LIMIT_DB, "worst": top, "over": over}))
+    return tuple(checks)

@@ -1,0 +1,356 @@
+"""Export runs: the files of every rate in one format, their names, and the manifest.
+
+Files are written per rate (JSON, CSV, text or one WAV impulse response per
+band) and one manifest per export ties them to the project's content hash
+and to the check results at each rate. Every band gets a file name of its
+own (:func:`band_file_stems`) and no run writes one path twice
+(:class:`RunFiles`); every file is written atomically.
+
+References
+----------
+.. [1] FIPS PUB 180-4, "Secure Hash Standard", NIST, 2015 (SHA-256).
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import re
+import unicodedata
+from dataclasses import dataclass, field
+from datetime import datetime, timezone
+from pathlib import Path
+from typing import Sequence
+
+from planner import __version__, project as pj
+from planner.audio.wav import write_wav
+from planner.dsp import quantize as qz
+from planner.engine import delays as dl
+from planner.engine import rounding
+from planner.errors import ExportError
+from planner.export.formats import (FORMATS, band_impulse_response, denominator_text,
+                                    to_csv_text, to_json_dict, to_text)
+from planner.export.rate import RateExport, check_rate, export_rate, rate_value
+from planner.jsonio import atomic_write, atomic_write_text, dumps
+from planner.model import Project
+
+__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "slug", "band_file_stems",
+           "RunFiles", "write_file", "write_text_file", "rate_text", "content_hash",
+           "ExportResult", "coefficient_text", "write_export"]
+
+
+MANIFEST_FORMAT = "crossplan-export-manifest"
+
+
+#: Longest slug in a file name, characters (a project's and a band's alike): with the
+#: rate, the dashes, a band number and the extension a name stays far below the
+#: 255 bytes most file systems allow.
+MAX_SLUG_CHARS = 64
+
+
+#: Band file stems a run keeps for itself: render's summed output and the manifest.
+RESERVED_STEMS = ("sum", "manifest")
+
+
+def slug(text: str, fallback: str = "project", max_chars: int = MAX_SLUG_CHARS) -> str:
+    """Lower-case ASCII letters, digits and dashes, for file names.
+
+    Accents are taken off first (Unicode NFKD decomposition: ``'Médium'``
+    gives ``'medium'``); any other run of characters becomes one dash. The
+    result is cut to ``max_chars`` (no dash at either end); ``fallback``
+    when nothing is left.
+    """
+    plain = "".join(c for c in unicodedata.normalize("NFKD", str(text))
+                    if not unicodedata.combining(c))
+    s = re.sub(r"[^a-z0-9]+", "-", plain.lower()).strip("-")
+    s = s[:max(1, int(max_chars))].strip("-")
+    return s or fallback
+
+
+def band_file_stems(names: Sequence[str], reserved: Sequence[str] = RESERVED_STEMS) -> list[str]:
+    """A distinct, readable file stem per band, the same in every run of the same names.
+
+    Each band takes :func:`slug` of its name (at most :data:`MAX_SLUG_CHARS`
+    characters). A band whose slug is empty (a name of other than Latin
+    letters and digits), is one of ``reserved``, or is shared with another
+    band (``Woofer`` and ``woofer``; ``mid range`` and ``mid-range``; two
+    long names alike in their first characters) gets its band number
+    (1-based) after it: ``band-3``, ``sum-2``, ``woofer-1`` and
+    ``woofer-2``. Should that name be taken as well, ``-2``, ``-3``, ...
+    follow it. Comparisons ignore case, as some file systems do.
+
+    Parameters
+    ----------
+    names : sequence of str
+        Band names, project order.
+    reserved : sequence of str
+        Stems no band may take alone.
+
+    Returns
+    -------
+    list of str
+        One stem per band, no two alike (ignoring case).
+    """
+    bases = [slug(n, fallback="") for n in names]
+    keep = {r.lower() for r in reserved}
+    count: dict[str, int] = {}
+    for b in bases:
+        count[b] = count.get(b, 0) + 1
+    alone = [bool(b) and count[b] == 1 and b not in keep for b in bases]
+    taken = {b for b, ok in zip(bases, alone) if ok}
+    out = []
+    for k, (b, ok) in enumerate(zip(bases, alone), start=1):
+        if ok:
+            out.append(b)
+            continue
+        stem = f"{b or 'band'}-{k}"
+        j = 2
+        while stem in taken:
+            stem = f"{b or 'band'}-{k}-{j}"
+            j += 1
+        taken.add(stem)
+        out.append(stem)
+    return out
+
+
+class RunFiles:
+    """The files of one run (an export, a render): no path is written twice.
+
+    :meth:`claim` records each path with what it is for; claiming a path a
+    second time (case ignored, as some file systems do) raises, naming
+    both, so that no file written earlier in the run is overwritten.
+    """
+
+    def __init__(self) -> None:
+        self._what: dict[str, tuple[Path, str]] = {}
+
+    def claim(self, path, what: str) -> Path:
+        """Record ``path`` for ``what`` (e.g. ``"band 'woofer' at 48000 Hz"``) and return it.
+
+        Raises
+        ------
+        ExportError
+            ``field='out'``: ``path`` is claimed already in this run.
+        """
+        p = Path(path)
+        key = os.path.normcase(os.path.abspath(p)).lower()
+        if key in self._what:
+            raise ExportError(f"{str(p)!r} would be written twice in one run, for "
+                              f"{self._what[key][1]} and for {what}; nothing is written over",
+                              field="out")
+        self._what[key] = (p, what)
+        return p
+
+
+def write_file(path: Path, write) -> None:
+    """``write(tmp)`` then rename over ``path`` (atomic); an OSError as an ExportError.
+
+    Raises
+    ------
+    ExportError
+        ``field='out'``: the file cannot be written (a name too long for the
+        file system, no space, no permission), with the system's reason.
+    """
+    try:
+        atomic_write(Path(path), write)
+    except OSError as e:
+        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
+
+
+def write_text_file(path: Path, text: str) -> None:
+    """:func:`planner.jsonio.atomic_write_text`, with an OSError as an ExportError (as
+    :func:`write_file`)."""
+    try:
+        atomic_write_text(path, text)
+    except OSError as e:
+        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
+
+
+def rate_text(fs_hz: float) -> str:
+    """A rate as written in file names: ``48000``, ``44100``, ``22050.5`` as ``22050p5``."""
+    return str(int(fs_hz)) if float(fs_hz).is_integer() else repr(float(fs_hz)).replace(".", "p")
+
+
+def content_hash(project: Project) -> str:
+    """``'sha256:<hex>'`` of the project's canonical JSON (sorted keys, no blanks, UTF-8).
+
+    The canonical JSON is :func:`planner.project.to_dict` written with
+    ``sort_keys=True`` and separators ``(',', ':')``, so formatting and key
+    order of the file on disk do not change it; any value that changes the
+    design does (SHA-256, FIPS 180-4).
+    """
+    text = json.dumps(pj.to_dict(project), sort_keys=True, separators=(",", ":"),
+                      ensure_ascii=False, default=list)
+    return "sha256:" + hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+@dataclass
+class ExportResult:
+    """What :func:`write_export` did.
+
+    ``band_files`` holds per rate (the order of ``rates``) each band's file,
+    project order; ``delays`` per rate how the WAV impulse responses made
+    the band delays (:class:`planner.delays.DelayPlan`; ``None`` for the
+    coefficient formats, which hold the exact ``delay_samples``); ``notes``
+    the lines on fractional delays for the command's output.
+    """
+
+    rates: list[RateExport]
+    files: list[Path]
+    manifest: Path | None
+    arith_ok: bool
+    checks_ok: bool
+    band_files: list[list[Path]] = field(default_factory=list)
+    delays: list = field(default_factory=list)
+    notes: list[str] = field(default_factory=list)
+
+
+def coefficient_text(rx: RateExport, fmt: str, negate_feedback: bool) -> str:
+    if fmt == "json":
+        return json.dumps(to_json_dict(rx, negate_feedback), indent=1) + "\n"
+    if fmt == "csv":
+        return to_csv_text(rx, negate_feedback)
+    return to_text(rx, negate_feedback)
+
+
+def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
+                 arith: str = "float64", negate_feedback: bool = False,
+                 pre_attenuate: bool = False, source: str | None = None,
+                 sections: str = "per-filter",
+                 fractional_delay: str = "apply") -> ExportResult:
+    """Export ``project`` at every rate in one format, with a manifest.
+
+    Files: ``DIR/<project>-<rate>.json|.csv|.txt``, or for ``wav`` one
+    ``DIR/<project>-<rate>-<band>.wav`` per band (32-bit float, mono), and
+    ``DIR/<project>-manifest.json``; ``<project>`` is :func:`slug` of the
+    project's name and ``<band>`` the band's stem from
+    :func:`band_file_stems` (distinct for every band). Nothing is written
+    when the target arithmetic cannot hold the design at some rate
+    (``arith_ok`` false), and no file is written twice (:class:`RunFiles`).
+
+    ``fractional_delay`` (``"apply"`` or ``"round"``, see
+    :mod:`planner.delays`) says how the WAV impulse responses make a
+    fractional delay; coefficient files always hold the exact
+    ``delay_samples``.
+
+    Raises
+    ------
+    ExportError
+        Unknown format or fractional-delay mode, no rates, a bad rate or
+        format name, an output folder that cannot be made, a file that
+        cannot be written.
+    ProjectError
+        A filter that cannot be made at a rate (named).
+    """
+    if fmt not in FORMATS:
+        raise ExportError(f"must be one of {', '.join(FORMATS)}, not {fmt!r}", field="format")
+    dl.check_mode(fractional_delay)
+    if not rates:
+        raise ExportError("give at least one sample rate", field="rate")
+    a = qz.parse_arith(arith)
+    uniq = list(dict.fromkeys(float(check_rate(r)) for r in rates))
+    exports = [export_rate(project, r, a, pre_attenuate, sections) for r in uniq]
+    arith_ok = all(rx.arith_ok for rx in exports)
+    checks_ok = all(rx.report.ok for rx in exports)
+    if not arith_ok:
+        return ExportResult(exports, [], None, False, checks_ok)
+    out = Path(out_dir)
+    base = slug(project.name)
+    names = [b.name for b in project.bands]
+    stems = band_file_stems(names)
+    run = RunFiles()
+    # Every path is named and claimed before anything is written.
+    band_files: list[list[Path]] = []
+    plans: list = []
+    for rx in exports:
+        stem = f"{base}-{rate_text(rx.fs_hz)}"
+        at = f"at {rx.fs_hz:g} Hz"
+        if fmt == "wav":
+            band_files.append([run.claim(out / f"{stem}-{st}.wav", f"band {n!r} {at}")
+                               for n, st in zip(names, stems)])
+            plans.append(dl.plan_delays([b.delay_samples for b in rx.bands], fractional_delay))
+        else:
+            ext = {"json": "json", "csv": "csv", "text": "txt"}[fmt]
+            p = run.claim(out / f"{stem}.{ext}", f"the {fmt} coefficients {at}")
+            band_files.append([p] * len(names))
+            plans.append(None)
+    mpath = run.claim(out / f"{base}-manifest.json", "the manifest")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as e:
+        raise ExportError(f"cannot make the folder {str(out)!r}: {e}", field="out") from None
+    files: list[Path] = []
+    rate_entries, notes = [], []
+    for rx, paths, plan in zip(exports, band_files, plans):
+        wav_info = []
+        if fmt == "wav":
+            for b, p, bd in zip(rx.bands, paths, plan.bands):
+                h, _ = band_impulse_response(b, rx.fs_hz, bd)
+                write_file(p, lambda t, h=h: write_wav(t, h, rx.fs_hz))
+                files.append(p)
+                wav_info.append({"file": p.name, "samples": len(h),
+                                 "delay_whole_samples": bd.whole_samples,
+                                 "delay_fraction_applied_samples": bd.fraction_samples,
+                                 "delay_rounded_by_samples": bd.rounded_by_samples})
+            notes.extend(rounding.run_notes(rx.report, plan))
+        else:
+            write_text_file(paths[0], coefficient_text(rx, fmt, negate_feedback))
+            files.append(paths[0])
+            notes.extend(rounding.exact_notes(rx.report))
+        rate_entries.append(_manifest_rate(rx, paths, wav_info, plan))
+    manifest = {
+        "format": MANIFEST_FORMAT, "version": 1,
+        "project": project.name, "project_file": source,
+        "content_hash": content_hash(project),
+        "crossplan_version": __version__,
+        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
+        "file_format": fmt, "arith": a.name, "negated_feedback": bool(negate_feedback),
+        "pre_attenuate": bool(pre_attenuate), "sections": sections,
+        "denominator": denominator_text(negate_feedback),
+        "fractional_delay": fractional_delay if fmt == "wav" else "exact",
+        "rates": [rate_value(r) for r in uniq],
+        "files": [p.name for p in files],
+        "checks": rate_entries,
+    }
+    text = dumps(manifest, indent=1)
+    write_text_file(mpath, text)
+    return ExportResult(exports, files, mpath, arith_ok, checks_ok, band_files, plans, notes)
+
+
+def _manifest_rate(rx: RateExport, paths: Sequence[Path], wav_info: Sequence[dict],
+                   plan) -> dict:
+    """One rate's entry of the manifest: the check, and per band its file and figures.
+
+    ``delays`` says how the band delays were made at this rate: for the
+    WAV format the run's :class:`planner.delays.DelayPlan` (``apply`` or
+    ``round``, the fraction per band, the added latency, the filter, and
+    for ``round`` what rounding cost); for the coefficient formats
+    ``"exact"``: the files hold ``delay_samples`` as designed.
+    """
+    names = [b.name for b in rx.bands]
+    bands = []
+    for i, (b, p) in enumerate(zip(rx.bands, paths)):
+        d = {"name": b.name, "file": p.name, "sections": len(b.stored_sos),
+             "post_shifts": list(b.shifts),
+             "fir_taps": 0 if b.stored_fir is None else len(b.stored_fir),
+             "peak_internal_gain_db": b.peak_internal_gain_db,
+             "pre_attenuation_db": b.pre_attenuation_db, "arith": b.arith.to_dict()}
+        if wav_info:
+            d["wav"] = wav_info[i]
+        bands.append(d)
+    if plan is None:
+        exact = dl.plan_delays([b.delay_samples for b in rx.bands], "round")
+        delays = {"fractional_delay": "exact", "added_latency_samples": 0,
+                  "added_latency_ms": 0.0, "filter": None,
+                  "bands": [{"name": n, "delay_samples": bd.delay_samples,
+                             "fraction_samples": dl.fraction_of(bd.delay_samples)}
+                            for n, bd in zip(names, exact.bands)],
+                  "rounding": None}
+    else:
+        delays = plan.to_dict(names, rx.fs_hz)
+        delays["rounding"] = (rounding.rounding_effect(rx.report, plan.rounded_delays).to_dict()
+                              if plan.mode == "round" and plan.fractional else None)
+    return {"sample_rate": rate_value(rx.fs_hz), "check": rx.report.to_dict(),
+            "arith_ok": rx.arith_ok, "delays": delays, "bands": bands,
+            "band_files": {b.name: p.name for b, p in zip(rx.bands, paths)}}
