@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from planner import filters as fk
+from planner.dsp.quantize import parse_arith
 from planner import presets
 from planner.errors import CrossplanError, ProjectError
 from planner.jsonio import atomic_write_text
@@ -123,8 +124,6 @@ def _arith(value: Any) -> str | None:
     """``analysis.arith``: absent/null, or a number-format name (returned in its canonical form)."""
     if value is None:
         return None
-    from planner.dsp.quantize import parse_arith
-
     try:
         return parse_arith(value).name
     except CrossplanError as e:

@@ -6,6 +6,9 @@ be met, 2 for an invalid file, 130 when cancelled (Ctrl-C during a design).
 
 from __future__ import annotations
 
+from planner.cli.common import designing, load_project
+from planner.jsonio import dumps
+
 
 def add_arguments(p, name):
     p.add_argument("file", metavar="FILE", help="project file (JSON)")
@@ -19,24 +22,22 @@ def add_arguments(p, name):
 
 
 def run(args) -> int:
-    from planner.cli.common import designing
-
     # Loading designs every filter (the FIR searches among them): both run
     # under the progress bar, and Ctrl-C or an unmet FIR spec end cleanly.
     return designing(lambda: _run(args))
 
 
 def _run(args) -> int:
+    # The numerical core is imported when the command runs (start-up time).
     from planner import engine
     from planner.present.text import text_report
-    from planner.cli.common import load_project
-    from planner.jsonio import dumps
 
     proj = load_project(args.file)
     r = engine.analyse(proj, points=args.points)
     rx = None
     arith = args.arith if args.arith is not None else proj.analysis.arith
     if arith is not None:
+        # The numerical core is imported when the command runs (start-up time).
         from planner import export
 
         rx = export.export_rate(proj, proj.sample_rate, arith)

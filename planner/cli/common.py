@@ -8,6 +8,10 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING
 
+from planner import presets, progress
+from planner.errors import DesignCancelled, SpecNotMetError
+from planner.progress import bar_text
+
 if TYPE_CHECKING:
     from planner.model import Project
 
@@ -37,7 +41,7 @@ def load_project(path: str | None, design: bool = True) -> Project:
     analysis (the editor, which designs in a worker with progress).
     """
     # The core is imported when a command runs, not when the parser is built (start-up).
-    from planner import engine, presets as presets, project
+    from planner import engine, project
 
     proj = project.load_preset(presets.DEMO) if path is None else project.load(path)
     if design:
@@ -62,7 +66,6 @@ class ProgressBar:
 
     def line(self, fraction: float, text: str) -> str:
         """The bar's text: ``[#####-----]  50% text``, cut to the width (less one column)."""
-        from planner.progress import bar_text
 
         return bar_text(fraction, text)[: max(10, self.width - 1)]
 
@@ -100,10 +103,6 @@ def designing(work, stream=None) -> int:
     commands only read it, and saves are atomic.
     """
     import sys
-
-    from planner import progress
-    from planner.errors import DesignCancelled
-    from planner.errors import SpecNotMetError
 
     out = sys.stderr if stream is None else stream
     isatty = getattr(out, "isatty", None)

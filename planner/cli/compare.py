@@ -9,10 +9,12 @@ from __future__ import annotations
 
 import argparse
 
-from planner.cli.common import positive_number
-from planner.defaults import (COMPARE_ATTEN_DB as DEFAULT_ATTEN_DB,
-                              COMPARE_RIPPLE_DB as DEFAULT_RIPPLE_DB, IIR_FAMILIES, MAX_TAPS)
-
+from planner.cli.common import designing, load_project, positive_number
+from planner.defaults import COMPARE_ATTEN_DB as DEFAULT_ATTEN_DB
+from planner.defaults import COMPARE_RIPPLE_DB as DEFAULT_RIPPLE_DB
+from planner.defaults import IIR_FAMILIES, MAX_TAPS
+from planner.errors import ProjectError
+from planner.jsonio import dumps
 
 _db_value = positive_number("dB")
 
@@ -44,17 +46,13 @@ def add_arguments(p, name):
 
 
 def run(args) -> int:
-    from planner.cli.common import designing
-
     return designing(lambda: _run(args))
 
 
 def _run(args) -> int:
+    # The numerical core is imported when the command runs (start-up time).
     from planner import compare
-    from planner.jsonio import dumps
-    from planner.cli.common import load_project
     from planner.dsp.fir import DEFAULT_MAX_TAPS
-    from planner.errors import ProjectError
     from planner.present.text import compare_text
 
     if not args.atten_db > args.ripple_db:

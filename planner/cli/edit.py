@@ -12,6 +12,8 @@ from __future__ import annotations
 
 import sys
 
+from planner.cli.common import load_project
+
 
 def add_arguments(p, name):
     p.add_argument("file", metavar="FILE", nargs="?", default=None,
@@ -24,19 +26,19 @@ def _is_terminal() -> bool:
 
 
 def run(args) -> int:
-    from planner.cli.common import load_project
-
     reason = None
     if not _is_terminal():
         reason = "not a terminal"
     else:
         try:
+            # The numerical core is imported when the command runs (start-up time).
             from planner.tui.app import run_editor
         except ImportError as e:  # textual missing or broken
             reason = f"the terminal editor cannot start ({e})"
     # The editor designs in its worker, with a progress bar; the report designs here.
     proj = load_project(args.file, design=reason is not None)
     if reason is not None:
+        # The numerical core is imported when the command runs (start-up time).
         from planner import engine
         from planner.present.text import text_report
         from planner.present.views import plot_report

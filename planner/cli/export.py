@@ -14,10 +14,11 @@ from __future__ import annotations
 
 import sys
 
+from planner.cli.common import designing, load_project
+from planner.defaults import EXPORT_FORMATS as FORMATS
+
 
 def add_arguments(p, name):
-    from planner.defaults import EXPORT_FORMATS as FORMATS
-
     p.add_argument("file", metavar="FILE", help="project file (JSON)")
     p.add_argument("--rate", type=float, action="append", metavar="HZ",
                    help="sample rate to export at (repeat for several; default: the project's)")
@@ -44,14 +45,12 @@ def add_arguments(p, name):
 
 
 def run(args) -> int:
-    from planner.cli.common import designing
-
     return designing(lambda: _run(args))
 
 
 def _run(args) -> int:
+    # The numerical core is imported when the command runs (start-up time).
     from planner import export
-    from planner.cli.common import load_project
 
     proj = load_project(args.file)
     rates = args.rate or [proj.sample_rate]

@@ -13,6 +13,9 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+from planner.errors import CrossplanError
+from planner.jsonio import atomic_write_text
+
 
 def add_arguments(p, name):
     p.add_argument("recording", metavar="RECORDING.wav", help="what the microphone recorded")
@@ -33,8 +36,6 @@ def add_arguments(p, name):
 
 
 def _band(args):
-    from planner.errors import CrossplanError
-
     f1, f2 = args.f1, args.f2
     side = Path(args.sweep).with_suffix(".json")
     if (f1 is None or f2 is None) and side.exists():
@@ -52,8 +53,6 @@ def _band(args):
 
 
 def _mono(x, channel, field):
-    from planner.errors import CrossplanError
-
     if x.ndim == 1:
         return x
     if not 0 <= channel < x.shape[1]:
@@ -63,12 +62,11 @@ def _mono(x, channel, field):
 
 
 def run(args) -> int:
+    # The numerical core is imported when the command runs (start-up time).
     import numpy as np
 
-    from planner.dsp import measure
-    from planner.errors import CrossplanError
-    from planner.jsonio import atomic_write_text
     from planner.audio.wav import read_wav
+    from planner.dsp import measure
 
     f1, f2 = _band(args)
     rec, fs = read_wav(args.recording)

@@ -4,8 +4,9 @@ from __future__ import annotations
 
 import shutil
 
-from planner.cli.common import positive_number
-from planner.defaults import PLOT_VIEWS as VIEWS, TIME_VIEWS
+from planner.cli.common import designing, load_project, positive_number
+from planner.defaults import PLOT_VIEWS as VIEWS
+from planner.defaults import TIME_VIEWS
 
 
 def add_arguments(p, name):
@@ -24,16 +25,14 @@ _positive_ms = positive_number("ms")
 
 
 def run(args) -> int:
-    from planner.cli.common import designing
-
     # Loading designs every filter (FIR tap searches too): under the progress bar.
     return designing(lambda: _run(args))
 
 
 def _run(args) -> int:
+    # The numerical core is imported when the command runs (start-up time).
     from planner import engine
     from planner.present.views import plot_report, plot_time
-    from planner.cli.common import load_project
 
     proj = load_project(args.file)
     cols = shutil.get_terminal_size((80, 24)).columns
@@ -41,6 +40,7 @@ def _run(args) -> int:
     height = args.height or 24
     color = False if args.no_color else None
     if args.view in TIME_VIEWS:
+        # The numerical core is imported when the command runs (start-up time).
         from planner import timeresp
 
         tr = timeresp.project_impulse(proj)

@@ -4,6 +4,10 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from planner import presets
+from planner.errors import ProjectError
+from planner.jsonio import atomic_write_text
+
 
 def add_arguments(p, name):
     if name == "new":
@@ -16,8 +20,6 @@ def add_arguments(p, name):
 def run(args) -> int:
     # Neither command designs anything: the presets are written as shipped
     # (the tests load and check every one), so numpy and scipy stay unloaded.
-    from planner import presets
-    from planner.jsonio import atomic_write_text
 
     if args.command == "presets":
         for n in presets.names():
@@ -28,12 +30,10 @@ def run(args) -> int:
     text = presets.text(name)
     out = Path(args.file)
     if out.exists() and not args.force:
-        from planner.errors import ProjectError
 
         raise ProjectError(f"{str(out)!r} exists already; use --force to overwrite it",
                            field="FILE")
     if out.parent and not out.parent.exists():
-        from planner.errors import ProjectError
 
         raise ProjectError(f"folder {str(out.parent)!r} does not exist", field="FILE")
     # Write the preset's own text (it keeps its description and layout).

@@ -16,6 +16,9 @@ from __future__ import annotations
 import json
 import sys
 
+from planner.cli.common import ProgressBar, designing, load_project
+from planner.errors import CrossplanError
+
 #: Default level of the test signals, dBFS (peak for sweep and impulse, RMS for noise).
 DEFAULT_LEVEL_DB = -20.0
 #: Inputs longer than this many seconds get a progress bar (on a terminal).
@@ -54,8 +57,8 @@ def add_arguments(p, name):
 
 
 def _test_signal(args, fs):
+    # The numerical core is imported when the command runs (start-up time).
     from planner.dsp import signals
-    from planner.errors import CrossplanError
 
     amp = 10.0 ** (args.level_db / 20.0)
     if args.level_db > 0:
@@ -77,20 +80,16 @@ def _test_signal(args, fs):
 
 
 def run(args) -> int:
-    from planner.cli.common import designing
-
     return designing(lambda: _run(args))
 
 
 def _run(args) -> int:
     from pathlib import Path
 
+    # The numerical core is imported when the command runs (start-up time).
     from planner import export
     from planner.audio import render, wav
-    from planner.cli.common import ProgressBar
     from planner.engine import rounding
-    from planner.cli.common import load_project
-    from planner.errors import CrossplanError
     from planner.present.text import SAFETY_NOTE
 
     proj = load_project(args.file)

@@ -21,7 +21,7 @@ from textual.command import DiscoveryHit, Hit, Hits, Provider
 from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
-from planner import edits, engine, filters as fk, progress, project as pj, units
+from planner import edits, engine, export, filters as fk, progress, project as pj, units
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
@@ -276,8 +276,6 @@ class CrossplanApp(App):
                 report_ = engine.analyse(project)
                 rx = None
                 if project.analysis.arith is not None:
-                    from planner import export
-
                     rx = export.export_rate(project, project.sample_rate,
                                             project.analysis.arith)
         except DesignCancelled:

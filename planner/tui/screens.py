@@ -10,7 +10,9 @@ from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, Input, Label, Static
 
-from planner import config, units
+from planner import compare, config, progress, units
+from planner.errors import CrossplanError, DesignCancelled
+from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
@@ -207,11 +209,6 @@ class CompareScreen(Screen[None]):
 
     @work(thread=True, exclusive=True, group="compare")
     def _compare(self, project: Project, width: int) -> None:
-        from planner import compare, progress
-        from planner.errors import DesignCancelled
-        from planner.errors import CrossplanError
-        from planner.present.text import compare_text
-
         shown = [-1]
 
         def report(fraction: float, text: str) -> None:
