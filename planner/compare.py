@@ -56,6 +56,8 @@ from planner import engine
 from planner.defaults import COMPARE_ATTEN_DB, COMPARE_RIPPLE_DB, IIR_FAMILIES
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
+from planner.dsp.fir.checks import check_positive
+from planner.dsp.fir.spec import deviations
 from planner.dsp import iir
 from planner.dsp.response import band_responses
 from planner.engine import BandDesign
@@ -333,7 +335,7 @@ class Comparison:
 
 
 def _check_spec_numbers(ripple_db, atten_db) -> tuple[float, float]:
-    r = dfir._check_positive(ripple_db, "ripple_db", "dB")
+    r = check_positive(ripple_db, "ripple_db", "dB")
     try:
         a = float(atten_db)
     except (TypeError, ValueError):
@@ -740,7 +742,7 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
     _check_family(family)
     fs = float(fs_hz)
     r, a = spec.ripple_db, spec.atten_db
-    dp, _ = dfir._deviations(r, a)
+    dp, _ = deviations(r, a)
     # Attenuation below the pass-band maximum, as scipy's designs count it.
     # The designs aim a hair inside the spec (1e-4 of the ripple, 1e-3 dB of
     # attenuation) so that rounding in the measurement cannot miss it.

@@ -19,7 +19,7 @@ from typing import Sequence
 
 import numpy as np
 
-from planner.dsp.fir import fir_response, fir_response_and_derivative
+from planner.dsp.fir.response import fir_response, fir_response_and_derivative
 
 __all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses",
            "PointEvaluator", "log_derivative"]
