@@ -61,8 +61,8 @@ import numpy as np
 from planner import __version__, engine, filters as fk, project as pj
 from planner.cli.check import _finite
 from planner.defaults import EXPORT_FORMATS
-from planner.dsp import quantize as qz
-from planner.dsp import sections as dsec
+from planner.dsp import fixed as dsec
+from planner.dsp import fixed as qz
 from planner.dsp.response import band_responses
 from planner.dsp.signals import fft_convolve, truncate_iir_impulse
 from planner.errors import CrossplanError, ExportError, ProjectError

@@ -129,7 +129,7 @@ def _arith(value: Any) -> str | None:
     """``analysis.arith``: absent/null, or a number-format name (returned in its canonical form)."""
     if value is None:
         return None
-    from planner.dsp.quantize import parse_arith
+    from planner.dsp.fixed import parse_arith
 
     try:
         return parse_arith(value).name

@@ -20,6 +20,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import signal
 
+from planner.dsp.fixed.quantize import check_sos, pole_radius
 from planner.errors import CrossplanError, ExportError
 
 __all__ = [
@@ -341,9 +342,7 @@ def truncate_iir_impulse(sos, fs_hz: float, floor_db: float = -150.0,
     ----------
     .. [1] M. R. Schroeder, J. Acoust. Soc. Am., vol. 37, 1965, pp. 409-412.
     """
-    from planner.dsp.quantize import _check_sos, pole_radius
-
-    s = _check_sos(sos)
+    s = check_sos(sos)
     fs = float(fs_hz)
     if not np.isfinite(fs) or fs <= 0:
         raise ExportError(f"must be a positive number of Hz, not {fs_hz!r}", field="fs_hz")
