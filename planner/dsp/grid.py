@@ -246,23 +246,33 @@ def zoom_extremes(value: Callable[[np.ndarray, np.ndarray], np.ndarray], lo_hz: 
         k = np.nonzero((hi - lo > xtol) & (still < 2))[0]
         if not len(k):
             break
-        m = len(k)
-        rows = np.arange(m)
         xs = lo[k, None] + (hi - lo)[k, None] * t[None, :]
         vs = np.asarray(value(np.repeat(k, points), np.exp(xs.ravel())),
-                        dtype=float).reshape(m, points)
+                        dtype=float).reshape(len(k), points)
         vs = np.where(np.isfinite(vs), vs, -np.inf)
-        j = np.argmax(vs, axis=1)
-        gain = vs[rows, j] - vb[k]
-        moved = gain > 0
-        still[k] = np.where(gain > vtol, 0, still[k] + 1)
-        # The best so far (a trial point, or the old best) and its neighbours among the
-        # trial points (or the bracket's ends) make the new bracket.
-        xk = np.where(moved, xs[rows, j], xb[k])
-        xb[k] = xk
-        vb[k] = np.where(moved, vs[rows, j], vb[k])
-        below = (xs < xk[:, None]).sum(axis=1)           # trial points left of the best
-        above = below + np.where(moved, 1, 0)            # first trial point right of it
-        lo[k] = np.where(below > 0, xs[rows, np.maximum(below - 1, 0)], lo[k])
-        hi[k] = np.where(above < points, xs[rows, np.minimum(above, points - 1)], hi[k])
+        _zoom_in(k, xs, vs, lo, hi, xb, vb, still, vtol)
     return np.exp(xb), vb
+
+
+def _zoom_in(k, xs, vs, lo, hi, xb, vb, still, vtol) -> None:
+    """One step of :func:`zoom_extremes` for candidates ``k``, in place.
+
+    ``xs``, ``vs`` (shape (len(k), points)) are the trial points (log Hz) and
+    their values. The best so far (a trial point, or the old best) and its
+    neighbours among the trial points (or the bracket's ends) make the new
+    bracket ``[lo, hi]``; ``still`` counts the steps in a row that gained at
+    most ``vtol``.
+    """
+    points = xs.shape[1]
+    rows = np.arange(len(k))
+    j = np.argmax(vs, axis=1)
+    gain = vs[rows, j] - vb[k]
+    moved = gain > 0
+    still[k] = np.where(gain > vtol, 0, still[k] + 1)
+    xk = np.where(moved, xs[rows, j], xb[k])
+    xb[k] = xk
+    vb[k] = np.where(moved, vs[rows, j], vb[k])
+    below = (xs < xk[:, None]).sum(axis=1)           # trial points left of the best
+    above = below + np.where(moved, 1, 0)            # first trial point right of it
+    lo[k] = np.where(below > 0, xs[rows, np.maximum(below - 1, 0)], lo[k])
+    hi[k] = np.where(above < points, xs[rows, np.minimum(above, points - 1)], hi[k])

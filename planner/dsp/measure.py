@@ -133,6 +133,14 @@ def deconvolve_sweep(recording, sweep, fs_hz: float, f1_hz: float, f2_hz: float,
        1998, pp. 189-194.
     """
     f1, f2, fs = check_band(f1_hz, f2_hz, fs_hz)
+    rec, x = _check_deconvolution(recording, sweep, method, full)
+    if method == "inverse":
+        return _by_inverse_filter(rec, x, f1, f2, fs, full)
+    return _by_division(rec, x, f1, f2, fs)
+
+
+def _check_deconvolution(recording, sweep, method: str, full: bool):
+    """The recording and the sweep as arrays, the recording no shorter; a known method."""
     rec = _signal_1d(recording, "recording")
     x = _signal_1d(sweep, "sweep")
     if len(rec) < len(x):
@@ -142,9 +150,7 @@ def deconvolve_sweep(recording, sweep, fs_hz: float, f1_hz: float, f2_hz: float,
         raise CrossplanError(f"must be 'inverse' or 'division', not {method!r}", field="method")
     if full and method != "inverse":
         raise CrossplanError("full=True needs method 'inverse'", field="full")
-    if method == "inverse":
-        return _by_inverse_filter(rec, x, f1, f2, fs, full)
-    return _by_division(rec, x, f1, f2, fs)
+    return rec, x
 
 
 def _by_inverse_filter(rec: np.ndarray, x: np.ndarray, f1: float, f2: float, fs: float,
