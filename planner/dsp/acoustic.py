@@ -31,6 +31,9 @@ References
    an ideal gas, c proportional to the square root of absolute temperature).
 .. [5] R. Bristow-Johnson, "Audio EQ Cookbook", W3C Working Group Note, 2021
    (the analog prototype of the peaking filter).
+.. [6] A. V. Oppenheim and A. S. Willsky, "Signals and Systems", 2nd ed.,
+   Prentice Hall, 1997, sec. 6.5 (first- and second-order continuous-time
+   systems).
 """
 
 from __future__ import annotations
@@ -75,7 +78,8 @@ def speed_of_sound_m_s(temp_c: float = 20.0) -> float:
 def offset_delay_s(offset_mm, temp_c: float = 20.0) -> np.ndarray:
     """Delay in seconds of an acoustic centre ``offset_mm`` behind the reference plane.
 
-    Positive offsets (recessed drivers) arrive later: ``offset / c``.
+    Positive offsets (recessed drivers) arrive later: ``offset / c``, with ``c``
+    from :func:`speed_of_sound_m_s`.
     """
     return np.asarray(offset_mm, dtype=float) / 1000.0 / speed_of_sound_m_s(temp_c)
 
@@ -112,8 +116,22 @@ def vented_box(freqs_hz, fc_hz: float, q1: float = B4_Q[0], q2: float = B4_Q[1])
     """Vented-box woofer: a fourth-order highpass at ``fc_hz`` ([2]_).
 
     Modelled as two second-order highpass sections at ``fc_hz`` with Qs
-    ``q1`` and ``q2``; the defaults are the B4 (fourth-order Butterworth)
-    alignment, -3 dB at ``fc_hz`` and 24 dB/octave below.
+    ``q1`` and ``q2``, each ``s^2 / (s^2 + s w0 / Q + w0^2)``; the defaults are
+    the B4 (fourth-order Butterworth) alignment, -3 dB at ``fc_hz`` and
+    24 dB/octave below.
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    fc_hz : float
+        Corner frequency in Hz.
+    q1, q2 : float
+        Qs of the two sections (default :data:`B4_Q`).
+
+    Returns
+    -------
+    ndarray, complex
     """
     fc = _positive(fc_hz, "fc", "Hz")
     s, w0 = _s(freqs_hz), 2 * np.pi * fc
@@ -123,7 +141,22 @@ def vented_box(freqs_hz, fc_hz: float, q1: float = B4_Q[0], q2: float = B4_Q[1])
 def rolloff(freqs_hz, f_hz: float, order: int = 2, q: float = 1 / np.sqrt(2)) -> np.ndarray:
     """A simple high-frequency roll-off: first- or second-order lowpass at ``f_hz``.
 
-    ``wc / (s + wc)`` or ``wc^2 / (s^2 + s wc / Q + wc^2)``.
+    ``wc / (s + wc)`` or ``wc^2 / (s^2 + s wc / Q + wc^2)``, ``wc = 2 pi f_hz``
+    (the first- and second-order analog lowpass, Oppenheim and Willsky [6]_).
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    f_hz : float
+        Corner frequency in Hz.
+    order : {1, 2}
+    q : float
+        Q of the second-order lowpass (default 1/sqrt(2), maximally flat).
+
+    Returns
+    -------
+    ndarray, complex
     """
     fc = _positive(f_hz, "rolloff_hz", "Hz")
     s, w0 = _s(freqs_hz), 2 * np.pi * fc
@@ -140,6 +173,21 @@ def breakup(freqs_hz, f_hz: float, gain_db: float, q: float) -> np.ndarray:
     ``(s^2 + s A w0 / Q + w0^2) / (s^2 + s w0 / (A Q) + w0^2)`` with
     ``A = 10^(gain_db / 40)``: the analog prototype of the Audio EQ Cookbook
     peaking filter ([5]_), ``gain_db`` at ``f_hz`` and 0 dB far from it.
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    f_hz : float
+        Centre frequency in Hz.
+    gain_db : float
+        Level at the centre in dB (negative for a dip).
+    q : float
+        Quality factor (as the cookbook's peaking filter).
+
+    Returns
+    -------
+    ndarray, complex
     """
     f0 = _positive(f_hz, "breakup_hz", "Hz")
     if not np.isfinite(gain_db):
@@ -156,8 +204,22 @@ def breakup(freqs_hz, f_hz: float, gain_db: float, q: float) -> np.ndarray:
 def edge_slopes_db_per_octave(freqs_hz, mag_db, octaves: float = 1 / 3):
     """Slopes (dB/octave) of a magnitude over its lowest and highest ``octaves``.
 
-    Least-squares lines of ``mag_db`` against ``log2 f`` over each end; used to
-    extend a measured magnitude beyond its range.
+    Least-squares lines of ``mag_db`` against ``log2 f`` over each end
+    (:func:`numpy.polyfit` of degree 1); used to extend a measured magnitude
+    beyond its range.
+
+    Parameters
+    ----------
+    freqs_hz, mag_db : array_like, shape (n,)
+        Increasing frequencies in Hz and the magnitude in dB.
+    octaves : float
+        Width of each end's span in octaves (the two outer points when fewer
+        than two lie in it).
+
+    Returns
+    -------
+    low_slope, high_slope : float
+        dB per octave.
     """
     f = np.asarray(freqs_hz, dtype=float)
     m = np.asarray(mag_db, dtype=float)
@@ -349,22 +411,31 @@ def off_axis_paths(positions_mm, offsets_mm, distance_m: float, angles_deg,
     behind the reference plane. The listener is ``distance_m`` from the
     point ``axis_mm`` above the origin (the listening axis), at each
     elevation angle (positive: above the axis). Relative to the path from
-    that point, each driver's path is longer by ``r_i - D``.
+    that point, each driver's path is longer by ``r_i - D``, with ``r_i`` the
+    Euclidean distance ``hypot(D cos a + x_i, D sin a - y_i)`` from the driver
+    to the listener.
 
     Parameters
     ----------
     positions_mm, offsets_mm : array_like, shape (n_bands,)
+        Height of each driver above the origin, and its acoustic centre
+        behind the reference plane, in mm.
     distance_m : float
+        Listening distance from the axis point, in m.
     angles_deg : array_like, shape (n_angles,)
+        Elevation angles in degrees (positive: above the axis).
     axis_mm : float
+        Height of the listening axis above the origin, in mm.
     temp_c : float
+        Air temperature in deg C (for the speed of sound).
 
     Returns
     -------
     delay_s : ndarray, shape (n_angles, n_bands)
         ``(r_i - D) / c``.
     level : ndarray, shape (n_angles, n_bands)
-        ``D / r_i`` (spherical spreading).
+        ``D / r_i`` (spherical spreading: the pressure of a point source falls
+        as 1/r, Kinsler et al. [4]_ ch. 5).
 
     Notes
     -----

@@ -48,7 +48,22 @@ _TINY = 1e-300
 
 
 def log_grid(f_min_hz: float, f_max_hz: float, points: int, extra_hz=()) -> np.ndarray:
-    """``points`` log-spaced frequencies from f_min to f_max, with ``extra_hz`` inside the range added."""
+    """``points`` log-spaced frequencies from f_min to f_max, with ``extra_hz`` inside the range added.
+
+    Parameters
+    ----------
+    f_min_hz, f_max_hz : float
+        Ends of the grid in Hz (both included).
+    points : int
+        Points of the log-spaced part (:func:`numpy.geomspace`).
+    extra_hz : sequence of float
+        Frequencies added where they lie strictly inside the range.
+
+    Returns
+    -------
+    ndarray
+        Sorted, without repeats.
+    """
     f = np.geomspace(f_min_hz, f_max_hz, int(points))
     extra = np.asarray([x for x in extra_hz if f_min_hz < x < f_max_hz], dtype=float)
     return np.unique(np.concatenate([f, extra]))

@@ -122,6 +122,26 @@ def feature_points(f0_hz: np.ndarray, bandwidth_hz: np.ndarray, f_min_hz: float,
     sampled well. At most ``max_features`` features are kept, the narrowest
     (relative to the grid) first, so the count is bounded whatever the
     number of filters: at most ``max_features (2 len(offsets) + 1)`` points.
+
+    Parameters
+    ----------
+    f0_hz, bandwidth_hz : ndarray, shape (k,)
+        Centres and bandwidths in Hz (:func:`narrow_features`).
+    f_min_hz, f_max_hz : float
+        The analysis range in Hz.
+    points : int
+        Points of the log grid the features are compared with.
+    narrow_spacings : float
+        A feature narrower than this many grid spacings at its centre gets points.
+    max_features : int
+        Most features given points.
+    offsets : sequence of float
+        Multiples ``k`` of the bandwidth either side of each centre.
+
+    Returns
+    -------
+    ndarray
+        The points in Hz, inside ``(f_min_hz, f_max_hz)``.
     """
     f0 = np.asarray(f0_hz, dtype=float)
     bw = np.asarray(bandwidth_hz, dtype=float)

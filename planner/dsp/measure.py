@@ -68,6 +68,15 @@ def harmonic_delay_s(order: int, f1_hz: float, f2_hz: float, duration_s: float) 
 
     ``dt = L ln(order)`` with ``L = T / ln(f2 / f1)`` ([1]_ eq. 6).
 
+    Parameters
+    ----------
+    order : int
+        Harmonic number, 1 or more (1: the linear response itself, 0 s).
+    f1_hz, f2_hz : float
+        The sweep's start and end frequencies in Hz.
+    duration_s : float
+        The sweep's length in seconds.
+
     References
     ----------
     .. [1] A. Farina, 108th AES Convention, 2000, preprint 5093.

@@ -201,6 +201,15 @@ def inverse_sweep(f1_hz: float, f2_hz: float, duration_s: float, fs_hz: float,
     the exponential envelope ``exp(-t / L)`` (+6 dB/octave correction of the
     sweep's pink spectrum), normalised for 0 dB in the band.
 
+    Parameters
+    ----------
+    f1_hz, f2_hz, duration_s, fs_hz, fade_in_s, fade_out_s
+        As :func:`exp_sweep`.
+
+    Returns
+    -------
+    inverse : ndarray, same length as the sweep
+
     References
     ----------
     .. [1] A. Farina, 108th AES Convention, 2000, preprint 5093.

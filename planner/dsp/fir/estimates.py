@@ -3,7 +3,7 @@
 References
 ----------
 .. [1] A. V. Oppenheim and R. W. Schafer, "Discrete-Time Signal Processing",
-   3rd ed., Pearson, 2010, sec. 7.6 (Kaiser window design, eq. 7.62-7.63)
+   3rd ed., Pearson, 2010, sec. 7.5.3 (Kaiser window design, eq. 7.62-7.63)
    and sec. 7.7 (length of an optimum filter).
 .. [2] J. F. Kaiser, "Nonrecursive digital filter design using the I0-sinh
    window function", Proc. IEEE Int. Symp. Circuits and Systems, 1974,
