@@ -30,7 +30,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from bench_check import best  # noqa: E402
 
-from planner.dsp import measure, quantize as qz, signals  # noqa: E402
+from planner.dsp import fixed as qz, measure, signals  # noqa: E402
 
 FS = 48000.0
 

@@ -18,7 +18,7 @@ from pathlib import Path
 from typing import Any, Mapping
 
 from planner import filters as fk
-from planner.dsp.quantize import parse_arith
+from planner.dsp.fixed import parse_arith
 from planner import presets
 from planner.errors import CrossplanError, ProjectError
 from planner.jsonio import atomic_write_text

@@ -64,7 +64,6 @@ def _mono(x, channel, field):
 def run(args) -> int:
     # The numerical core is imported when the command runs (start-up time).
     import numpy as np
-
     from planner.audio.wav import read_wav
     from planner.dsp import measure
 

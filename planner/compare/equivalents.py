@@ -12,6 +12,7 @@ from scipy import signal, special
 from planner.compare.results import DerivedSpec, Side, db10
 from planner.compare.spec import check_family
 from planner.dsp import fir as dfir
+from planner.dsp.fir.spec import deviations
 from planner.dsp import iir
 from planner.dsp.response import band_responses
 from planner.errors import SpecNotMetError
@@ -192,7 +193,7 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
     check_family(family)
     fs = float(fs_hz)
     r, a = spec.ripple_db, spec.atten_db
-    dp, _ = dfir._deviations(r, a)
+    dp, _ = deviations(r, a)
     # Attenuation below the pass-band maximum, as scipy's designs count it.
     # The designs aim a hair inside the spec (1e-4 of the ripple, 1e-3 dB of
     # attenuation) so that rounding in the measurement cannot miss it.

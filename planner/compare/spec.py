@@ -12,6 +12,7 @@ from planner.compare.results import DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, Derived
 from planner.defaults import IIR_FAMILIES
 from planner.dsp import analysis as an
 from planner.dsp import fir as dfir
+from planner.dsp.fir.checks import check_positive
 from planner.dsp.response import band_responses
 from planner.errors import DesignError, SpecNotMetError
 from planner.model import Filter, Project
@@ -25,7 +26,7 @@ _SPEC_POINTS = 8192
 
 
 def check_spec_numbers(ripple_db, atten_db) -> tuple[float, float]:
-    r = dfir._check_positive(ripple_db, "ripple_db", "dB")
+    r = check_positive(ripple_db, "ripple_db", "dB")
     try:
         a = float(atten_db)
     except (TypeError, ValueError):

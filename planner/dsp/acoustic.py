@@ -8,7 +8,8 @@ electrical response, so the check sees what reaches the listener:
   ``s = j 2 pi f``;
 * measured magnitudes (and phases) brought onto the analysis grid in log
   frequency (:func:`interpolate_response`), with the phase derived from the
-  magnitude where none was measured (:func:`minimum_phase_deg`);
+  magnitude where none was measured (:func:`minimum_phase_deg`, from
+  :mod:`planner.dsp.minphase`, as :func:`edge_slopes_db_per_octave`);
 * the acoustic offset of a driver (its acoustic centre behind a reference
   plane) as a delay (:func:`speed_of_sound_m_s`, :func:`offset_delay_s`);
 * the summed response off axis, from the drivers' positions on the baffle
@@ -31,6 +32,9 @@ References
    an ideal gas, c proportional to the square root of absolute temperature).
 .. [5] R. Bristow-Johnson, "Audio EQ Cookbook", W3C Working Group Note, 2021
    (the analog prototype of the peaking filter).
+.. [6] A. V. Oppenheim and A. S. Willsky, "Signals and Systems", 2nd ed.,
+   Prentice Hall, 1997, sec. 6.5 (first- and second-order continuous-time
+   systems).
 """
 
 from __future__ import annotations
@@ -39,6 +43,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+# The slope bounds stay public constants here as well, outside __all__.
+from planner.dsp.minphase import (HIGH_SLOPE_DB_OCT, LOW_SLOPE_DB_OCT, edge_slopes_db_per_octave,
+                                  extended_db, minimum_phase_deg)
 from planner.errors import DesignError
 
 __all__ = [
@@ -75,7 +82,8 @@ def speed_of_sound_m_s(temp_c: float = 20.0) -> float:
 def offset_delay_s(offset_mm, temp_c: float = 20.0) -> np.ndarray:
     """Delay in seconds of an acoustic centre ``offset_mm`` behind the reference plane.
 
-    Positive offsets (recessed drivers) arrive later: ``offset / c``.
+    Positive offsets (recessed drivers) arrive later: ``offset / c``, with ``c``
+    from :func:`speed_of_sound_m_s`.
     """
     return np.asarray(offset_mm, dtype=float) / 1000.0 / speed_of_sound_m_s(temp_c)
 
@@ -112,8 +120,22 @@ def vented_box(freqs_hz, fc_hz: float, q1: float = B4_Q[0], q2: float = B4_Q[1])
     """Vented-box woofer: a fourth-order highpass at ``fc_hz`` ([2]_).
 
     Modelled as two second-order highpass sections at ``fc_hz`` with Qs
-    ``q1`` and ``q2``; the defaults are the B4 (fourth-order Butterworth)
-    alignment, -3 dB at ``fc_hz`` and 24 dB/octave below.
+    ``q1`` and ``q2``, each ``s^2 / (s^2 + s w0 / Q + w0^2)``; the defaults are
+    the B4 (fourth-order Butterworth) alignment, -3 dB at ``fc_hz`` and
+    24 dB/octave below.
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    fc_hz : float
+        Corner frequency in Hz.
+    q1, q2 : float
+        Qs of the two sections (default :data:`B4_Q`).
+
+    Returns
+    -------
+    ndarray, complex
     """
     fc = _positive(fc_hz, "fc", "Hz")
     s, w0 = _s(freqs_hz), 2 * np.pi * fc
@@ -123,7 +145,22 @@ def vented_box(freqs_hz, fc_hz: float, q1: float = B4_Q[0], q2: float = B4_Q[1])
 def rolloff(freqs_hz, f_hz: float, order: int = 2, q: float = 1 / np.sqrt(2)) -> np.ndarray:
     """A simple high-frequency roll-off: first- or second-order lowpass at ``f_hz``.
 
-    ``wc / (s + wc)`` or ``wc^2 / (s^2 + s wc / Q + wc^2)``.
+    ``wc / (s + wc)`` or ``wc^2 / (s^2 + s wc / Q + wc^2)``, ``wc = 2 pi f_hz``
+    (the first- and second-order analog lowpass, Oppenheim and Willsky [6]_).
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    f_hz : float
+        Corner frequency in Hz.
+    order : {1, 2}
+    q : float
+        Q of the second-order lowpass (default 1/sqrt(2), maximally flat).
+
+    Returns
+    -------
+    ndarray, complex
     """
     fc = _positive(f_hz, "rolloff_hz", "Hz")
     s, w0 = _s(freqs_hz), 2 * np.pi * fc
@@ -140,6 +177,21 @@ def breakup(freqs_hz, f_hz: float, gain_db: float, q: float) -> np.ndarray:
     ``(s^2 + s A w0 / Q + w0^2) / (s^2 + s w0 / (A Q) + w0^2)`` with
     ``A = 10^(gain_db / 40)``: the analog prototype of the Audio EQ Cookbook
     peaking filter ([5]_), ``gain_db`` at ``f_hz`` and 0 dB far from it.
+
+    Parameters
+    ----------
+    freqs_hz : array_like
+        Frequencies in Hz.
+    f_hz : float
+        Centre frequency in Hz.
+    gain_db : float
+        Level at the centre in dB (negative for a dip).
+    q : float
+        Quality factor (as the cookbook's peaking filter).
+
+    Returns
+    -------
+    ndarray, complex
     """
     f0 = _positive(f_hz, "breakup_hz", "Hz")
     if not np.isfinite(gain_db):
@@ -151,127 +203,6 @@ def breakup(freqs_hz, f_hz: float, gain_db: float, q: float) -> np.ndarray:
 
 # ---------------------------------------------------------------------------
 # measured responses
-
-
-def edge_slopes_db_per_octave(freqs_hz, mag_db, octaves: float = 1 / 3):
-    """Slopes (dB/octave) of a magnitude over its lowest and highest ``octaves``.
-
-    Least-squares lines of ``mag_db`` against ``log2 f`` over each end; used to
-    extend a measured magnitude beyond its range.
-    """
-    f = np.asarray(freqs_hz, dtype=float)
-    m = np.asarray(mag_db, dtype=float)
-    lf = np.log2(f)
-    out = []
-    for k, mask in enumerate((lf <= lf[0] + octaves, lf >= lf[-1] - octaves)):
-        if mask.sum() < 2:          # fewer than two points in the span: the two outer ones
-            mask = np.zeros(len(f), dtype=bool)
-            mask[[0, 1] if k == 0 else [-2, -1]] = True
-        out.append(float(np.polyfit(lf[mask], m[mask], 1)[0]))
-    return out[0], out[1]
-
-
-def _extended_db(freqs_hz, mag_db, to_hz: np.ndarray, low_slope: float, high_slope: float):
-    """``mag_db`` on ``to_hz``: interpolated in log frequency inside, sloped lines outside."""
-    f = np.asarray(freqs_hz, dtype=float)
-    m = np.asarray(mag_db, dtype=float)
-    t = np.asarray(to_hz, dtype=float)
-    lt = np.log2(np.maximum(t, 1e-12))
-    out = np.interp(lt, np.log2(f), m)
-    lo, hi = t < f[0], t > f[-1]
-    out[lo] = m[0] + low_slope * (lt[lo] - np.log2(f[0]))
-    out[hi] = m[-1] + high_slope * (lt[hi] - np.log2(f[-1]))
-    return out
-
-
-#: Bounds of the slopes (dB/octave) used to extend a magnitude beyond the data: a
-#: driver's own roll-offs are at most about fifth order (30 dB/octave) in this model;
-#: steeper measured edges (a gate, a noise floor) are clipped to them, and a magnitude
-#: never rises beyond its ends. Common practice, no published source.
-LOW_SLOPE_DB_OCT = (0.0, 30.0)
-HIGH_SLOPE_DB_OCT = (-30.0, 0.0)
-
-
-#: Log-frequency resolution of the gain-phase integral, points per decade.
-_BODE_PER_DECADE = 240
-#: How far (decades) the magnitude is extended beyond the data each side: the
-#: integral's kernel falls as exp(-|u|), so what lies further adds below 1e-9 rad.
-_BODE_EXTEND_DECADES = 9.0
-
-
-def _bode_weights(h: float, n: int) -> np.ndarray:
-    """``W[k] = int_{k h}^{(k+1) h} ln coth(|u| / 2) du`` for ``k = -n .. n-1``.
-
-    Three-point Gauss-Legendre per cell; the two cells that touch the
-    kernel's logarithmic singularity at ``u = 0`` use its expansion
-    ``ln coth(u/2) = ln(2/u) + u^2/12 + O(u^4)``, whose integral from 0 to h
-    is ``h (ln(2/h) + 1) + h^3 / 36``.
-    """
-    k = np.arange(-n, n)
-    nodes = np.array([-np.sqrt(0.6), 0.0, np.sqrt(0.6)])
-    wts = np.array([5.0, 8.0, 5.0]) / 18.0
-    u = (k[:, None] + 0.5 + 0.5 * nodes[None, :]) * h
-    with np.errstate(divide="ignore"):
-        kern = np.log(1.0 / np.tanh(np.abs(u) / 2.0))
-    out = h * (kern * wts).sum(axis=1)
-    near = h * (np.log(2.0 / h) + 1.0) + h ** 3 / 36.0
-    out[n] = out[n - 1] = near                  # cells [0, h] and [-h, 0]
-    return out
-
-
-def minimum_phase_deg(freqs_hz, mag_db) -> np.ndarray:
-    """The minimum phase (deg) that goes with a magnitude response: Bode's gain-phase integral.
-
-    For a minimum-phase system the phase at ``f0`` follows from the slope of
-    the log magnitude ``A = ln |H|`` (nepers) against ``u = ln(f / f0)``
-    ([3]_; the Hilbert transform of the log magnitude, written in log
-    frequency)::
-
-        phi(f0) = (1 / pi) * integral of (dA/du) ln coth(|u| / 2) du
-
-    The magnitude is taken as piecewise linear in log frequency between the
-    given points and extended beyond them with the slopes of its lowest and
-    highest third of an octave, clipped to :data:`LOW_SLOPE_DB_OCT` and
-    :data:`HIGH_SLOPE_DB_OCT` (a measurement's edge often shows its gate or
-    noise floor, not the driver). The integral is one convolution on a uniform
-    log grid (:data:`_BODE_PER_DECADE` points per decade), vectorised.
-
-    Parameters
-    ----------
-    freqs_hz : array_like, increasing, > 0
-    mag_db : array_like
-
-    Returns
-    -------
-    phase_deg : ndarray
-        At ``freqs_hz``, continuous (unwrapped); 0 deg where the response is
-        flat far from any slope.
-
-    Notes
-    -----
-    Only the magnitude inside the measured range is data; the phase near the
-    range's ends depends on the extension, so it is most trustworthy away
-    from them (about an octave in).
-    """
-    f = np.asarray(freqs_hz, dtype=float)
-    m = np.asarray(mag_db, dtype=float)
-    if f.ndim != 1 or len(f) < 2 or m.shape != f.shape or np.any(np.diff(f) <= 0) or f[0] <= 0:
-        raise DesignError("needs increasing positive frequencies and one magnitude each",
-                          field="freqs_hz")
-    lo, hi = edge_slopes_db_per_octave(f, m)
-    lo, hi = float(np.clip(lo, *LOW_SLOPE_DB_OCT)), float(np.clip(hi, *HIGH_SLOPE_DB_OCT))
-    h = np.log(10.0) / _BODE_PER_DECADE
-    x0 = np.log(f[0]) - _BODE_EXTEND_DECADES * np.log(10.0)
-    x1 = np.log(f[-1]) + _BODE_EXTEND_DECADES * np.log(10.0)
-    x = x0 + h * np.arange(int(np.ceil((x1 - x0) / h)) + 1)
-    a_np = _extended_db(f, m, np.exp(x), lo, hi) * (np.log(10.0) / 20.0)
-    slope = np.diff(a_np) / h                              # dA/du on each cell
-    n = len(slope)
-    w = _bode_weights(h, n)
-    # phi at grid point i: sum_j slope_j W[j - i], the cell j spanning [x_j, x_j + h].
-    phi = np.convolve(slope, w[::-1], mode="full")[n - 1: 2 * n] / np.pi
-    phi = phi[: len(x)]
-    return np.degrees(np.interp(np.log(f), x, phi))
 
 
 @dataclass(frozen=True)
@@ -323,7 +254,7 @@ def interpolate_response(freqs_hz, mag_db, phase_deg, to_hz, extrapolate: bool =
             f"{t[-1]:g} Hz; measure a wider range, narrow the analysis range, or allow "
             "extrapolation", field=field)
     lo, hi = edge_slopes_db_per_octave(f, m)
-    mag = _extended_db(f, m, t, lo, hi)
+    mag = extended_db(f, m, t, lo, hi)
     lt, lf = np.log2(t), np.log2(f)
     ph = np.interp(lt, lf, p)
     if below:
@@ -349,22 +280,31 @@ def off_axis_paths(positions_mm, offsets_mm, distance_m: float, angles_deg,
     behind the reference plane. The listener is ``distance_m`` from the
     point ``axis_mm`` above the origin (the listening axis), at each
     elevation angle (positive: above the axis). Relative to the path from
-    that point, each driver's path is longer by ``r_i - D``.
+    that point, each driver's path is longer by ``r_i - D``, with ``r_i`` the
+    Euclidean distance ``hypot(D cos a + x_i, D sin a - y_i)`` from the driver
+    to the listener.
 
     Parameters
     ----------
     positions_mm, offsets_mm : array_like, shape (n_bands,)
+        Height of each driver above the origin, and its acoustic centre
+        behind the reference plane, in mm.
     distance_m : float
+        Listening distance from the axis point, in m.
     angles_deg : array_like, shape (n_angles,)
+        Elevation angles in degrees (positive: above the axis).
     axis_mm : float
+        Height of the listening axis above the origin, in mm.
     temp_c : float
+        Air temperature in deg C (for the speed of sound).
 
     Returns
     -------
     delay_s : ndarray, shape (n_angles, n_bands)
         ``(r_i - D) / c``.
     level : ndarray, shape (n_angles, n_bands)
-        ``D / r_i`` (spherical spreading).
+        ``D / r_i`` (spherical spreading: the pressure of a point source falls
+        as 1/r, Kinsler et al. [4]_ ch. 5).
 
     Notes
     -----

@@ -2,6 +2,34 @@
 
 Pure functions on arrays. The project-level report that strings them
 together lives in :mod:`planner.engine`.
+
+Definitions (the ones the checks use; common practice, no published source):
+
+* Level: ``20 log10 |h|`` in dB (:func:`db`).
+* Flatness of a sum ``h_sum`` on a grid: its largest deviation from the
+  target (0 dB unless given), ``max_f |20 log10 |h_sum(f)| - target(f)|``,
+  reported with its sign and frequency, and the peak-to-peak ripple
+  ``max - min`` of the same deviation (:func:`flatness`).
+* Crossing of bands ``a`` and ``b``: a frequency where their levels in dB are
+  equal, ``20 log10 |h_a| = 20 log10 |h_b|``. Its phase difference is
+  ``arg h_a - arg h_b`` (band ``a`` minus band ``b``) in degrees, wrapped to
+  (-180, 180] (:func:`wrap_deg`); its level is the mean of the two levels
+  there (:class:`Crossing`, :func:`find_crossings`).
+
+Crossings are found as sign changes of the level difference
+``g = 20 log10|h_a| - 20 log10|h_b|`` between neighbouring grid points and
+refined by a bracketed root search on ``g`` against natural-log frequency:
+the Illinois variant of regula falsi (Dowell and Jarratt 1971 [1]_), with a
+bisection step after every interpolation step that has not halved ``|g|``,
+so that the bracket halves at least every two steps whatever ``g`` looks like
+(a sharp notch beside the crossing makes ``g`` steep and far from linear; the
+root stays bracketed). All crossings are refined together as arrays, each on
+its own two bands only.
+
+References
+----------
+.. [1] M. Dowell and P. Jarratt, "A modified regula falsi method for
+   computing the root of an equation", BIT 11, 1971, pp. 168-174.
 """
 
 from __future__ import annotations
@@ -20,7 +48,22 @@ _TINY = 1e-300
 
 
 def log_grid(f_min_hz: float, f_max_hz: float, points: int, extra_hz=()) -> np.ndarray:
-    """``points`` log-spaced frequencies from f_min to f_max, with ``extra_hz`` inside the range added."""
+    """``points`` log-spaced frequencies from f_min to f_max, with ``extra_hz`` inside the range added.
+
+    Parameters
+    ----------
+    f_min_hz, f_max_hz : float
+        Ends of the grid in Hz (both included).
+    points : int
+        Points of the log-spaced part (:func:`numpy.geomspace`).
+    extra_hz : sequence of float
+        Frequencies added where they lie strictly inside the range.
+
+    Returns
+    -------
+    ndarray
+        Sorted, without repeats.
+    """
     f = np.geomspace(f_min_hz, f_max_hz, int(points))
     extra = np.asarray([x for x in extra_hz if f_min_hz < x < f_max_hz], dtype=float)
     return np.unique(np.concatenate([f, extra]))
@@ -38,7 +81,19 @@ def wrap_deg(deg):
 
 
 def flatness(freqs_hz: np.ndarray, h_sum: np.ndarray, target_db: np.ndarray | float = 0.0):
-    """Largest deviation of the sum from the target.
+    """Largest deviation of the sum from the target on the grid.
+
+    The deviation is ``20 log10 |h_sum| - target_db`` at each grid point
+    (module notes); the largest in magnitude is the flatness.
+
+    Parameters
+    ----------
+    freqs_hz : ndarray, shape (n,)
+        The grid in Hz.
+    h_sum : ndarray, complex, shape (n,)
+        The summed response on the grid.
+    target_db : float or ndarray, shape (n,)
+        The level the sum should have (dB).
 
     Returns
     -------
@@ -93,28 +148,16 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
                    max_iter: int = config.CROSSING_MAX_ITER,
                    level_tol_db: float = config.CROSSING_LEVEL_TOL_DB,
                    noise_rel: float = config.CROSSING_NOISE_REL) -> list[Crossing]:
-    """Crossings of every pair of rows of ``h`` (bands) on the grid, refined exactly.
+    """Crossings of every pair of rows of ``h`` (bands), found on the grid and refined exactly.
 
-    A crossing is a change of sign of the level difference in dB,
-    ``g = 20 log10|h_a| - 20 log10|h_b|``, between two neighbouring grid
-    points (a touch, ``g`` exactly 0 at a grid point, counts once). When
-    ``evaluate`` is given, every crossing is then refined by a bracketed
-    root search on ``g`` against natural-log frequency, evaluated exactly at
-    each trial frequency: the Illinois variant of regula falsi (Dowell and
-    Jarratt 1971), with a bisection step after every interpolation step that
-    has not halved ``|g|``, so that the bracket halves at least every two
-    steps whatever ``g`` looks like (a sharp notch beside the crossing makes ``g``
-    steep and far from linear; the root stays bracketed). All crossings are
-    refined together as arrays, each on its own two bands only. It stops
-    when ``|g| <= tol_db`` or the bracket is ``xtol`` wide; the crossing
-    reported is the trial point with the smallest ``|g|``, and its phase
-    and level are those of the exact responses there. A sign change that
-    closes on a jump rather than a root (``|g|`` still above
-    ``level_tol_db``: both bands have a zero at the same frequency, and the
-    difference there is rounding noise) is not a crossing and is dropped,
-    so every crossing reported has its bands within ``level_tol_db``.
-
-    Without ``evaluate`` the crossing is interpolated linearly on the grid.
+    A crossing (module notes) is found as a sign change of the level
+    difference ``g`` between neighbouring grid points (a touch, ``g`` exactly 0
+    at a grid point, counts once). With ``evaluate``, each is refined by the
+    bracketed search of the module notes until ``|g| <= tol_db`` or the bracket
+    is ``xtol`` wide, and the trial point with the smallest ``|g|`` is reported
+    with the exact responses there; a sign change that closes on a jump, not a
+    root (``|g|`` still above ``level_tol_db``: both bands have a zero at one
+    frequency), is dropped. Without ``evaluate`` it is interpolated linearly.
 
     Parameters
     ----------
@@ -127,15 +170,15 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
     tol_db, xtol : float
         Stop when the levels differ by at most ``tol_db`` dB, or when the
         bracket is at most ``xtol`` wide in natural-log frequency.
+    max_iter : int
+        Most steps.
+    level_tol_db : float
+        Largest level difference (dB) of a crossing that is reported.
     noise_rel : float
         Relative rounding error of a response: where the bands are deep
         (level ``L`` dB), the tolerance is raised to
         ``20/ln(10) noise_rel 10^(-L/20)`` dB (at most ``level_tol_db / 10``),
         since the levels cannot be known better there.
-    max_iter : int
-        Most steps.
-    level_tol_db : float
-        Largest level difference (dB) of a crossing that is reported.
 
     Returns
     -------
@@ -143,45 +186,66 @@ def find_crossings(freqs_hz: np.ndarray, h: np.ndarray,
 
     References
     ----------
-    .. [1] M. Dowell and P. Jarratt, "A modified regula falsi method for
-       computing the root of an equation", BIT 11, 1971, pp. 168-174.
+    .. [1] M. Dowell and P. Jarratt, BIT 11, 1971, pp. 168-174.
     """
-    nb = len(h)
-    if nb < 2:
+    if len(h) < 2:
         return []
     m = db(h)
-    ia, ib = np.triu_indices(nb, k=1)
+    ia, ib = np.triu_indices(len(h), k=1)
     diff = m[ia] - m[ib]                       # (pairs, n)
-    s = np.sign(diff)
-    # A touch (diff exactly 0 at a grid point) counts once: where the sign
-    # changes across it, or where it is exact and its neighbours differ.
-    change = (s[:, :-1] * s[:, 1:] < 0) | ((s[:, :-1] != 0) & (s[:, 1:] == 0))
-    pk, jk = np.nonzero(change)
+    pk, jk = _sign_changes(diff)
     if len(pk) == 0:
         return []
     lf = np.log(freqs_hz)
     d0, d1 = diff[pk, jk], diff[pk, jk + 1]
     a_idx, b_idx = ia[pk], ib[pk]
-    lo, hi = lf[jk], lf[jk + 1]
     if evaluate is None:
-        t = np.where(d1 == d0, 0.0, d0 / (d0 - d1))
-        x = lo + t * (hi - lo)
-        ha = h[a_idx, jk] + t * (h[a_idx, jk + 1] - h[a_idx, jk])
-        hb = h[b_idx, jk] + t * (h[b_idx, jk + 1] - h[b_idx, jk])
-    else:
-        # Deep down, float64 rounding sets how level two bands can be found: never ask for
-        # more than noise_rel of the level (in dB: 20/ln 10 of it), nor less than a tenth of
-        # level_tol_db.
-        depth = 0.25 * (m[a_idx, jk] + m[b_idx, jk] + m[a_idx, jk + 1] + m[b_idx, jk + 1])
-        tol = np.clip(20.0 / np.log(10.0) * noise_rel * 10.0 ** (-depth / 20.0), tol_db,
-                      max(tol_db, 0.1 * level_tol_db))
-        x, ha, hb, g = _refine_crossings(evaluate, a_idx, b_idx, lo, hi, d0, d1,
-                                         h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
-                                         h[b_idx, jk + 1], tol, xtol, max_iter)
-        # A sign change the search cannot close is a jump, not a crossing: both bands have a
-        # zero at one frequency, where the difference is rounding noise.
-        real = g <= level_tol_db
-        x, ha, hb, a_idx, b_idx = x[real], ha[real], hb[real], a_idx[real], b_idx[real]
+        x, ha, hb = _interpolated(h, lf, a_idx, b_idx, jk, d0, d1)
+        return _crossings(a_idx, b_idx, x, ha, hb)
+    return _refined(evaluate, h, m, lf, a_idx, b_idx, jk, d0, d1, tol_db, xtol, max_iter,
+                    level_tol_db, noise_rel)
+
+
+def _refined(evaluate, h, m, lf, a_idx, b_idx, jk, d0, d1, tol_db, xtol, max_iter,
+             level_tol_db, noise_rel) -> list[Crossing]:
+    """The crossings bracketed by grid cells ``jk``, refined by :func:`_refine_crossings`."""
+    # Deep down, float64 rounding sets how level two bands can be found: never ask for
+    # more than noise_rel of the level (in dB: 20/ln 10 of it), nor less than a tenth of
+    # level_tol_db.
+    depth = 0.25 * (m[a_idx, jk] + m[b_idx, jk] + m[a_idx, jk + 1] + m[b_idx, jk + 1])
+    tol = np.clip(20.0 / np.log(10.0) * noise_rel * 10.0 ** (-depth / 20.0), tol_db,
+                  max(tol_db, 0.1 * level_tol_db))
+    x, ha, hb, g = _refine_crossings(evaluate, a_idx, b_idx, lf[jk], lf[jk + 1], d0, d1,
+                                     h[a_idx, jk], h[b_idx, jk], h[a_idx, jk + 1],
+                                     h[b_idx, jk + 1], tol, xtol, max_iter)
+    # A sign change the search cannot close is a jump, not a crossing: both bands have a
+    # zero at one frequency, where the difference is rounding noise.
+    real = g <= level_tol_db
+    return _crossings(a_idx[real], b_idx[real], x[real], ha[real], hb[real])
+
+
+def _sign_changes(diff: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(pair, grid index) of each sign change of ``diff`` between index ``j`` and ``j + 1``.
+
+    A touch (diff exactly 0 at a grid point) counts once: where the sign
+    changes across it, or where it is exact and its neighbours differ.
+    """
+    s = np.sign(diff)
+    change = (s[:, :-1] * s[:, 1:] < 0) | ((s[:, :-1] != 0) & (s[:, 1:] == 0))
+    return np.nonzero(change)
+
+
+def _interpolated(h, lf, a_idx, b_idx, jk, d0, d1):
+    """Crossings interpolated linearly on the grid: log frequency and both responses."""
+    t = np.where(d1 == d0, 0.0, d0 / (d0 - d1))
+    x = lf[jk] + t * (lf[jk + 1] - lf[jk])
+    ha = h[a_idx, jk] + t * (h[a_idx, jk + 1] - h[a_idx, jk])
+    hb = h[b_idx, jk] + t * (h[b_idx, jk + 1] - h[b_idx, jk])
+    return x, ha, hb
+
+
+def _crossings(a_idx, b_idx, x, ha, hb) -> list[Crossing]:
+    """The crossings at log frequencies ``x``: phase of a minus b wrapped, mean level."""
     phase = wrap_deg(np.degrees(np.angle(ha) - np.angle(hb)))
     level = 0.5 * (db(ha) + db(hb))
     freq = np.exp(x)

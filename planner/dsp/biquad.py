@@ -62,7 +62,24 @@ def _section(b0, b1, b2, a0, a1, a2) -> np.ndarray:
 
 
 def peaking(freq_hz: float, gain_db: float, q: float, fs_hz: float) -> np.ndarray:
-    """Peaking EQ: ``gain_db`` at ``freq_hz``, 0 dB far away ([1]_, "peakingEQ")."""
+    """Peaking EQ: ``gain_db`` at ``freq_hz``, 0 dB far away ([1]_, "peakingEQ").
+
+    Parameters
+    ----------
+    freq_hz : float
+        Centre frequency in Hz, below Nyquist.
+    gain_db : float
+        Level at the centre in dB (negative: a cut).
+    q : float
+        Quality factor, above 0 (the cookbook's Q: bandwidth between the
+        points at half the gain in dB).
+    fs_hz : float
+        Sample rate in Hz.
+
+    Returns
+    -------
+    ndarray, shape (1, 6)
+    """
     w0, a, q = _w0(freq_hz, fs_hz), _gain(gain_db), _q(q)
     alpha, c = np.sin(w0) / (2 * q), np.cos(w0)
     return _section(1 + alpha * a, -2 * c, 1 - alpha * a, 1 + alpha / a, -2 * c, 1 - alpha / a)
@@ -88,7 +105,21 @@ def low_shelf(freq_hz: float, gain_db: float, fs_hz: float, q: float | None = No
               slope: float | None = None) -> np.ndarray:
     """Low shelf: ``gain_db`` below ``freq_hz``, ``gain_db / 2`` at it ([1]_, "lowShelf").
 
-    Give either ``q`` or the shelf ``slope`` S (S = 1: steepest monotonic).
+    Parameters
+    ----------
+    freq_hz : float
+        Shelf midpoint in Hz, below Nyquist.
+    gain_db : float
+        Shelf level in dB.
+    fs_hz : float
+        Sample rate in Hz.
+    q, slope : float, optional
+        Exactly one: the shelf's Q, or its slope S (S = 1: the steepest that
+        stays monotonic).
+
+    Returns
+    -------
+    ndarray, shape (1, 6)
     """
     w0, a = _w0(freq_hz, fs_hz), _gain(gain_db)
     alpha, c, sa = _shelf_alpha(w0, a, q, slope), np.cos(w0), np.sqrt(a)
@@ -104,7 +135,10 @@ def low_shelf(freq_hz: float, gain_db: float, fs_hz: float, q: float | None = No
 
 def high_shelf(freq_hz: float, gain_db: float, fs_hz: float, q: float | None = None,
                slope: float | None = None) -> np.ndarray:
-    """High shelf: ``gain_db`` above ``freq_hz``, ``gain_db / 2`` at it ([1]_, "highShelf")."""
+    """High shelf: ``gain_db`` above ``freq_hz``, ``gain_db / 2`` at it ([1]_, "highShelf").
+
+    Parameters and returns as :func:`low_shelf`.
+    """
     w0, a = _w0(freq_hz, fs_hz), _gain(gain_db)
     alpha, c, sa = _shelf_alpha(w0, a, q, slope), np.cos(w0), np.sqrt(a)
     return _section(

@@ -119,10 +119,27 @@ def _result(level_db: Callable, gains, target_db, freqs_hz, weights, lo, hi, met
 def linearised(level_db: Callable, gains_db, step_db: float = 0.01, jacobian=None):
     """Level and its Jacobian (dB per dB) at ``gains_db``.
 
-    Returns ``(level, J)`` with ``J[:, k] = d level / d gain_k``, from
-    ``jacobian(gains)`` when given, else by central differences. For a chain
-    of EQ filters column ``k`` is filter ``k``'s own shape: where it overlaps
-    its neighbours the columns overlap, which is what a fit must account for.
+    ``J[:, k] = d level / d gain_k``, from ``jacobian(gains)`` when given, else
+    by central differences ``(L(g + h e_k) - L(g - h e_k)) / (2 h)`` ([1]_
+    sec. 8.1). For a chain of EQ filters column ``k`` is filter ``k``'s own
+    shape: where it overlaps its neighbours the columns overlap, which is
+    what a fit must account for.
+
+    Parameters
+    ----------
+    level_db : callable
+        ``gains (n,) -> level in dB on the grid (m,)``.
+    gains_db : array_like, shape (n,)
+        Where to linearise.
+    step_db : float
+        Step ``h`` of the central differences, dB.
+    jacobian : callable, optional
+        ``gains -> (m, n)`` derivatives, used instead of differences.
+
+    Returns
+    -------
+    level : ndarray, shape (m,)
+    J : ndarray, shape (m, n)
     """
     g = np.asarray(gains_db, dtype=float)
     base = level_db(g)
@@ -202,6 +219,15 @@ def minimax_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target
     when the true worst deviation falls; otherwise the trust region halves
     ([1]_ sec. 18.1). Points of weight 0 do not count.
 
+    Parameters
+    ----------
+    level_db, freqs_hz, target_db, start_db, bounds_db, weights, jacobian
+        As :func:`fit_gains`.
+    rounds : int
+        Most linear programs solved.
+    trust_db : float
+        First trust region: the largest change of any gain in one round, dB.
+
     Returns
     -------
     FitResult
@@ -212,22 +238,10 @@ def minimax_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target
     g = np.clip(g, lo, hi)
     live = w > 0
     worst = float(np.max(np.abs(level_db(g) - t)[live] * w[live]))
-    n = len(g)
     for _ in range(rounds):
-        base, jac = linearised(level_db, g, jacobian=jacobian)
-        r = (base - t)[live] * w[live]
-        a = jac[live] * w[live][:, None]
-        # Variables: d (n), tau. Rows: a d - tau <= -r ; -a d - tau <= r.
-        ones = np.ones((len(r), 1))
-        a_ub = np.vstack([np.hstack([a, -ones]), np.hstack([-a, -ones])])
-        b_ub = np.concatenate([-r, r])
-        step_lo = np.maximum(lo - g, -trust_db)
-        step_hi = np.minimum(hi - g, trust_db)
-        lp = optimize.linprog(np.r_[np.zeros(n), 1.0], A_ub=a_ub, b_ub=b_ub,
-                              bounds=list(zip(step_lo, step_hi)) + [(0, None)], method="highs")
-        if lp.status != 0:
+        cand = _minimax_step(level_db, g, t, w, live, lo, hi, trust_db, jacobian)
+        if cand is None:
             break
-        cand = np.clip(g + lp.x[:n], lo, hi)
         new = float(np.max(np.abs(level_db(cand) - t)[live] * w[live]))
         if new < worst - 1e-9:
             g, worst = cand, new
@@ -236,3 +250,27 @@ def minimax_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target
             if trust_db < 1e-3:
                 break
     return _result(level_db, g, t, f, w, lo, hi, "minimax")
+
+
+def _minimax_step(level_db, g, t, w, live, lo, hi, trust_db, jacobian):
+    """Gains after one linear program of :func:`minimax_gains` (None if it has no solution).
+
+    Minimises ``tau`` over the step ``d`` and ``tau`` subject to
+    ``|w (level + J d - target)| <= tau`` on the live points, the gain limits
+    and ``|d| <= trust_db`` ([1]_ sec. 18.1).
+    """
+    n = len(g)
+    base, jac = linearised(level_db, g, jacobian=jacobian)
+    r = (base - t)[live] * w[live]
+    a = jac[live] * w[live][:, None]
+    # Variables: d (n), tau. Rows: a d - tau <= -r ; -a d - tau <= r.
+    ones = np.ones((len(r), 1))
+    a_ub = np.vstack([np.hstack([a, -ones]), np.hstack([-a, -ones])])
+    b_ub = np.concatenate([-r, r])
+    step_lo = np.maximum(lo - g, -trust_db)
+    step_hi = np.minimum(hi - g, trust_db)
+    lp = optimize.linprog(np.r_[np.zeros(n), 1.0], A_ub=a_ub, b_ub=b_ub,
+                          bounds=list(zip(step_lo, step_hi)) + [(0, None)], method="highs")
+    if lp.status != 0:
+        return None
+    return np.clip(g + lp.x[:n], lo, hi)

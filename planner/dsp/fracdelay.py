@@ -122,8 +122,24 @@ def delay_error(h: np.ndarray, delay_samples: float, edge: float = EDGE_FS,
                 points: int = _POINTS) -> float:
     """Largest ``|H(w) - e^{-jwD}|`` for ``0 <= w <= 2 pi edge`` (``H`` by a DTFT matrix product).
 
-    ``h`` may be 2-D (one filter per row, with ``delay_samples`` an array of
-    the same length): the largest error of each row is returned then.
+    ``H(w) = sum_n h[n] e^{-jwn}`` on ``points`` evenly spaced ``w``; the ideal
+    delay of ``D`` samples is ``e^{-jwD}`` (Laakso et al. [1]_).
+
+    Parameters
+    ----------
+    h : ndarray, shape (N,) or (n_filters, N)
+        One filter, or one per row.
+    delay_samples : float or ndarray, shape (n_filters,)
+        The delay each should have, in samples.
+    edge : float
+        Upper end of the band, as a fraction of the sample rate.
+    points : int
+        Grid points from 0 to the edge.
+
+    Returns
+    -------
+    float or ndarray, shape (n_filters,)
+        The largest error (of each row, for a 2-D ``h``).
     """
     h = np.atleast_2d(np.asarray(h, float))
     d = np.atleast_1d(np.asarray(delay_samples, float))
@@ -165,12 +181,20 @@ class FracDelayDesign:
 
     @property
     def magnitude_bound_db(self) -> float:
-        """``20 log10(1 + e)``: the magnitude's largest distance from flat, dB."""
+        """``20 log10(1 + e)``: the magnitude's largest distance from flat, dB.
+
+        ``|H| <= |e^{-jwD}| + |H - e^{-jwD}| <= 1 + e`` (triangle inequality).
+        """
         return 20.0 * math.log10(1.0 + self.measured_error)
 
     @property
     def phase_bound_deg(self) -> float:
-        """``asin(e)``: the phase's largest distance from the exact delay, deg."""
+        """``asin(e)``: the phase's largest distance from the exact delay, deg.
+
+        ``H`` lies in the disc of radius ``e`` around the unit phasor
+        ``e^{-jwD}``; the largest angle a point of that disc makes with it is
+        ``asin(e)`` (plane geometry: the tangent from the origin).
+        """
         return math.degrees(math.asin(min(1.0, self.measured_error)))
 
     def fir(self, fraction: float) -> np.ndarray:

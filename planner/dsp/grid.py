@@ -122,6 +122,26 @@ def feature_points(f0_hz: np.ndarray, bandwidth_hz: np.ndarray, f_min_hz: float,
     sampled well. At most ``max_features`` features are kept, the narrowest
     (relative to the grid) first, so the count is bounded whatever the
     number of filters: at most ``max_features (2 len(offsets) + 1)`` points.
+
+    Parameters
+    ----------
+    f0_hz, bandwidth_hz : ndarray, shape (k,)
+        Centres and bandwidths in Hz (:func:`narrow_features`).
+    f_min_hz, f_max_hz : float
+        The analysis range in Hz.
+    points : int
+        Points of the log grid the features are compared with.
+    narrow_spacings : float
+        A feature narrower than this many grid spacings at its centre gets points.
+    max_features : int
+        Most features given points.
+    offsets : sequence of float
+        Multiples ``k`` of the bandwidth either side of each centre.
+
+    Returns
+    -------
+    ndarray
+        The points in Hz, inside ``(f_min_hz, f_max_hz)``.
     """
     f0 = np.asarray(f0_hz, dtype=float)
     bw = np.asarray(bandwidth_hz, dtype=float)
@@ -246,23 +266,33 @@ def zoom_extremes(value: Callable[[np.ndarray, np.ndarray], np.ndarray], lo_hz: 
         k = np.nonzero((hi - lo > xtol) & (still < 2))[0]
         if not len(k):
             break
-        m = len(k)
-        rows = np.arange(m)
         xs = lo[k, None] + (hi - lo)[k, None] * t[None, :]
         vs = np.asarray(value(np.repeat(k, points), np.exp(xs.ravel())),
-                        dtype=float).reshape(m, points)
+                        dtype=float).reshape(len(k), points)
         vs = np.where(np.isfinite(vs), vs, -np.inf)
-        j = np.argmax(vs, axis=1)
-        gain = vs[rows, j] - vb[k]
-        moved = gain > 0
-        still[k] = np.where(gain > vtol, 0, still[k] + 1)
-        # The best so far (a trial point, or the old best) and its neighbours among the
-        # trial points (or the bracket's ends) make the new bracket.
-        xk = np.where(moved, xs[rows, j], xb[k])
-        xb[k] = xk
-        vb[k] = np.where(moved, vs[rows, j], vb[k])
-        below = (xs < xk[:, None]).sum(axis=1)           # trial points left of the best
-        above = below + np.where(moved, 1, 0)            # first trial point right of it
-        lo[k] = np.where(below > 0, xs[rows, np.maximum(below - 1, 0)], lo[k])
-        hi[k] = np.where(above < points, xs[rows, np.minimum(above, points - 1)], hi[k])
+        _zoom_in(k, xs, vs, lo, hi, xb, vb, still, vtol)
     return np.exp(xb), vb
+
+
+def _zoom_in(k, xs, vs, lo, hi, xb, vb, still, vtol) -> None:
+    """One step of :func:`zoom_extremes` for candidates ``k``, in place.
+
+    ``xs``, ``vs`` (shape (len(k), points)) are the trial points (log Hz) and
+    their values. The best so far (a trial point, or the old best) and its
+    neighbours among the trial points (or the bracket's ends) make the new
+    bracket ``[lo, hi]``; ``still`` counts the steps in a row that gained at
+    most ``vtol``.
+    """
+    points = xs.shape[1]
+    rows = np.arange(len(k))
+    j = np.argmax(vs, axis=1)
+    gain = vs[rows, j] - vb[k]
+    moved = gain > 0
+    still[k] = np.where(gain > vtol, 0, still[k] + 1)
+    xk = np.where(moved, xs[rows, j], xb[k])
+    xb[k] = xk
+    vb[k] = np.where(moved, vs[rows, j], vb[k])
+    below = (xs < xk[:, None]).sum(axis=1)           # trial points left of the best
+    above = below + np.where(moved, 1, 0)            # first trial point right of it
+    lo[k] = np.where(below > 0, xs[rows, np.maximum(below - 1, 0)], lo[k])
+    hi[k] = np.where(above < points, xs[rows, np.minimum(above, points - 1)], hi[k])

@@ -201,7 +201,23 @@ def bessel_sos(kind: str, order: int, freq_hz: float, fs_hz: float, norm: str = 
 
 def crossover_sos(family: str, kind: str, order: int, freq_hz: float, fs_hz: float,
                   norm: str = "phase") -> np.ndarray:
-    """Dispatch to :func:`butterworth_sos`, :func:`linkwitz_riley_sos` or :func:`bessel_sos`."""
+    """Dispatch to :func:`butterworth_sos`, :func:`linkwitz_riley_sos` or :func:`bessel_sos`.
+
+    Parameters
+    ----------
+    family : {'butterworth', 'linkwitz-riley', 'bessel'}
+    kind : {'lowpass', 'highpass'}
+    order : int
+        One of the family's orders (:data:`FAMILIES`).
+    freq_hz, fs_hz : float
+        Cut-off and sample rate in Hz.
+    norm : {'phase', 'delay', 'mag'}
+        Bessel only (:data:`BESSEL_NORMS`).
+
+    Returns
+    -------
+    sos : ndarray, shape (n, 6)
+    """
     if family == "butterworth":
         return butterworth_sos(kind, order, freq_hz, fs_hz)
     if family == "linkwitz-riley":

@@ -9,7 +9,8 @@ time gate around the main peak then removes later reflections, at the cost
 of frequency resolution: a gate of ``W`` seconds resolves no better than
 about ``1 / W`` Hz.
 
-The text format is the common plain-text measurement layout: one line per
+The text format of a response (:mod:`planner.dsp.response_text`; its names are
+here as well) is the common plain-text measurement layout: one line per
 frequency, ``freq_hz  mag_db  [phase_deg]``, with ``*`` comment lines.
 
 References
@@ -27,13 +28,13 @@ References
 
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass
 
 import numpy as np
 from scipy import fft as sfft
 
-from planner.dsp.signals import _check_band, _half_hann, inverse_of_sweep, sweep_rate
+from planner.dsp.response_text import Response, format_response_text, parse_response_text
+from planner.dsp.signals import check_band, half_hann, inverse_of_sweep, sweep_rate
 from planner.errors import CrossplanError
 
 __all__ = [
@@ -66,6 +67,15 @@ def harmonic_delay_s(order: int, f1_hz: float, f2_hz: float, duration_s: float) 
     """How far before the linear response harmonic ``order`` appears, in seconds.
 
     ``dt = L ln(order)`` with ``L = T / ln(f2 / f1)`` ([1]_ eq. 6).
+
+    Parameters
+    ----------
+    order : int
+        Harmonic number, 1 or more (1: the linear response itself, 0 s).
+    f1_hz, f2_hz : float
+        The sweep's start and end frequencies in Hz.
+    duration_s : float
+        The sweep's length in seconds.
 
     References
     ----------
@@ -131,7 +141,15 @@ def deconvolve_sweep(recording, sweep, fs_hz: float, f1_hz: float, f2_hz: float,
     .. [2] O. Kirkeby et al., IEEE Trans. Speech Audio Process., vol. 6,
        1998, pp. 189-194.
     """
-    f1, f2, fs = _check_band(f1_hz, f2_hz, fs_hz)
+    f1, f2, fs = check_band(f1_hz, f2_hz, fs_hz)
+    rec, x = _check_deconvolution(recording, sweep, method, full)
+    if method == "inverse":
+        return _by_inverse_filter(rec, x, f1, f2, fs, full)
+    return _by_division(rec, x, f1, f2, fs)
+
+
+def _check_deconvolution(recording, sweep, method: str, full: bool):
+    """The recording and the sweep as arrays, the recording no shorter; a known method."""
     rec = _signal_1d(recording, "recording")
     x = _signal_1d(sweep, "sweep")
     if len(rec) < len(x):
@@ -141,12 +159,22 @@ def deconvolve_sweep(recording, sweep, fs_hz: float, f1_hz: float, f2_hz: float,
         raise CrossplanError(f"must be 'inverse' or 'division', not {method!r}", field="method")
     if full and method != "inverse":
         raise CrossplanError("full=True needs method 'inverse'", field="full")
+    return rec, x
+
+
+def _by_inverse_filter(rec: np.ndarray, x: np.ndarray, f1: float, f2: float, fs: float,
+                       full: bool) -> np.ndarray:
+    """Linear convolution of the recording with Farina's inverse filter [1]_, by FFT."""
     n_full = len(rec) + len(x) - 1
     nfft = sfft.next_fast_len(n_full, real=True)
-    if method == "inverse":
-        inv = inverse_of_sweep(x, f1, f2, fs)
-        y = sfft.irfft(sfft.rfft(rec, nfft) * sfft.rfft(inv, nfft), nfft)[:n_full]
-        return y if full else y[len(x) - 1:len(x) - 1 + len(rec)]
+    inv = inverse_of_sweep(x, f1, f2, fs)
+    y = sfft.irfft(sfft.rfft(rec, nfft) * sfft.rfft(inv, nfft), nfft)[:n_full]
+    return y if full else y[len(x) - 1:len(x) - 1 + len(rec)]
+
+
+def _by_division(rec: np.ndarray, x: np.ndarray, f1: float, f2: float, fs: float) -> np.ndarray:
+    """Regularised spectral division ``R X* / (|X|^2 + eps(f))`` (Kirkeby et al. [2]_)."""
+    nfft = sfft.next_fast_len(len(rec) + len(x) - 1, real=True)
     xs = sfft.rfft(x, nfft)
     p = np.abs(xs) ** 2
     f = sfft.rfftfreq(nfft, 1.0 / fs)
@@ -227,9 +255,9 @@ def gate(ir, fs_hz: float, pre_ms: float, window_ms: float, fade_ms: float) -> G
     n_in = min(n_fade, peak - start)
     n_out = min(n_fade, end - peak - 1)
     if n_in:
-        seg[:n_in] *= _half_hann(n_in)
+        seg[:n_in] *= half_hann(n_in)
     if n_out:
-        seg[len(seg) - n_out:] *= _half_hann(n_out)[::-1]
+        seg[len(seg) - n_out:] *= half_hann(n_out)[::-1]
     return Gated(seg, start, peak)
 
 
@@ -272,11 +300,22 @@ def ir_to_response(ir, fs_hz: float, freqs_hz, t0_samples: float = 0.0):
         raise CrossplanError(f"must be finite frequencies in [0, {fs / 2:g}] Hz (Nyquist)",
                              field="freqs_hz")
     w = 2.0 * np.pi * f / fs
-    # Two-level DTFT: with n = k B + m, H(w) = sum_k e^{-jwkB} sum_m h[kB+m] e^{-jwm}.
-    # The inner sums of all K blocks are one matrix product with a (B, F)
-    # table of e^{-jwm}; only (B + K) F complex exponentials are evaluated
-    # instead of N F, with B ~ sqrt(N). Frequencies are taken in blocks to
-    # bound memory; within a block everything is vectorised.
+    out = _dtft(h, w) * np.exp(-1j * w * t0_samples)
+    mag = 20.0 * np.log10(np.maximum(np.abs(out), 1e-300))
+    ph = np.degrees(np.angle(out))
+    return mag, np.where(ph == -180.0, 180.0, ph)
+
+
+def _dtft(h: np.ndarray, w: np.ndarray) -> np.ndarray:
+    """``sum_n h[n] e^{-j w n}`` at each ``w`` (rad/sample), in two levels.
+
+    With ``n = k B + m``, ``H(w) = sum_k e^{-jwkB} sum_m h[kB+m] e^{-jwm}`` (the
+    sum regrouped: exact). The inner sums of all K blocks are one matrix
+    product with a (B, F) table of ``e^{-jwm}``; only (B + K) F complex
+    exponentials are evaluated instead of N F, with B ~ sqrt(N). Frequencies
+    are taken in blocks to bound memory; within a block everything is
+    vectorised.
+    """
     n_taps = len(h)
     b_len = int(np.ceil(np.sqrt(n_taps)))
     k_len = -(-n_taps // b_len)
@@ -285,152 +324,10 @@ def ir_to_response(ir, fs_hz: float, freqs_hz, t0_samples: float = 0.0):
     blocks = blocks.reshape(k_len, b_len)
     m = np.arange(b_len)
     k = np.arange(k_len) * b_len
-    out = np.empty(len(f), dtype=complex)
+    out = np.empty(len(w), dtype=complex)
     step = max(1, (1 << 20) // (b_len + k_len))
-    for i in range(0, len(f), step):
+    for i in range(0, len(w), step):
         wb = w[i:i + step]
         inner = blocks @ np.exp(-1j * np.outer(m, wb))          # (K, F)
         out[i:i + step] = np.einsum("kf,kf->f", inner, np.exp(-1j * np.outer(k, wb)))
-    out *= np.exp(-1j * w * t0_samples)
-    mag = 20.0 * np.log10(np.maximum(np.abs(out), 1e-300))
-    ph = np.degrees(np.angle(out))
-    return mag, np.where(ph == -180.0, 180.0, ph)
-
-
-@dataclass
-class Response:
-    """A frequency response read from text.
-
-    Attributes
-    ----------
-    freqs_hz, mag_db : ndarray
-    phase_deg : ndarray or None
-        None when the text had no phase column.
-    header : list of str
-        Comment lines, without the comment mark.
-    """
-
-    freqs_hz: np.ndarray
-    mag_db: np.ndarray
-    phase_deg: np.ndarray | None
-    header: list
-
-
-def format_response_text(freqs_hz, mag_db, phase_deg=None, header_lines=()) -> str:
-    """Write a response as plain text, one frequency per line.
-
-    Header lines come first, each as ``* text``; then lines
-    ``freq_hz  mag_db  phase_deg`` (phase omitted if None), frequency with
-    8 significant digits, magnitude to 0.0001 dB, phase to 0.001 deg.
-
-    Parameters
-    ----------
-    freqs_hz, mag_db : array_like, same length
-    phase_deg : array_like, optional
-    header_lines : sequence of str
-        Comment lines (a line with a newline is split into several).
-
-    Returns
-    -------
-    str
-        Ending with a newline.
-
-    References
-    ----------
-    .. [1] The common plain-text frequency-response layout (frequency,
-       magnitude, phase columns; comment lines) used for measurement
-       exchange: common practice, no published standard.
-    """
-    f = np.asarray(freqs_hz, dtype=float)
-    m = np.asarray(mag_db, dtype=float)
-    p = None if phase_deg is None else np.asarray(phase_deg, dtype=float)
-    if f.ndim != 1 or m.shape != f.shape or (p is not None and p.shape != f.shape):
-        raise CrossplanError(
-            f"freqs_hz, mag_db and phase_deg must be 1-D of one length, not {f.shape}, "
-            f"{m.shape}, {None if p is None else p.shape}", field="mag_db")
-    cols = [f, m] if p is None else [f, m, p]
-    if not all(np.all(np.isfinite(c)) for c in cols):
-        raise CrossplanError("values must be finite numbers, found nan or inf", field="mag_db")
-    lines = [f"* {s}".rstrip() for h in header_lines for s in str(h).splitlines() or [""]]
-    # Column-wise (vectorised) formatting, joined into rows.
-    rows = np.char.add(np.char.mod("%.8g", f), np.char.add("  ", np.char.mod("%.4f", m)))
-    if p is not None:
-        rows = np.char.add(rows, np.char.add("  ", np.char.mod("%.3f", p)))
-    return "\n".join(lines + rows.tolist()) + "\n"
-
-
-_SPLIT = re.compile(r"[,;\t ]+")
-_COMMENT = ("*", "#", ";", "//")
-
-
-def parse_response_text(text: str) -> Response:
-    """Read a response written as text, tolerantly.
-
-    Accepted: comment lines starting with ``*``, ``#``, ``;`` or ``//``;
-    blank lines; one column-title line (non-numeric) before the data;
-    columns split by commas, semicolons, tabs or spaces; 2 columns
-    (frequency, magnitude) or 3 or more (frequency, magnitude, phase;
-    further columns ignored), the same count on every line. Frequencies must
-    be positive and strictly increasing.
-
-    Parameters
-    ----------
-    text : str
-
-    Returns
-    -------
-    Response
-
-    Raises
-    ------
-    CrossplanError
-        ``field='line N'`` naming the line, the rule and the bad text.
-
-    References
-    ----------
-    .. [1] The common plain-text frequency-response layout: common practice,
-       no published standard.
-    """
-    if not isinstance(text, str):
-        raise CrossplanError(f"must be text, not {type(text).__name__}", field="text")
-    header, rows, ncol, title_seen = [], [], None, False
-    for no, raw in enumerate(text.splitlines(), start=1):
-        line = raw.strip().lstrip("\ufeff")
-        if not line:
-            continue
-        mark = next((c for c in _COMMENT if line.startswith(c)), None)
-        if mark:
-            header.append(line[len(mark):].strip())
-            continue
-        tokens = [t for t in _SPLIT.split(line) if t]
-        try:
-            vals = [float(t) for t in tokens[:3]]
-        except ValueError:
-            if not rows and not title_seen:
-                title_seen = True
-                header.append(line)
-                continue
-            raise CrossplanError(f"expected numbers 'freq_hz mag_db [phase_deg]', got {raw!r}",
-                                 field=f"line {no}") from None
-        n = min(len(tokens), 3)
-        if n < 2:
-            raise CrossplanError(f"needs at least 2 columns (freq_hz mag_db), got {raw!r}",
-                                 field=f"line {no}")
-        if ncol is None:
-            ncol = n
-        elif n != ncol:
-            raise CrossplanError(f"has {n} columns where earlier lines have {ncol}: {raw!r}",
-                                 field=f"line {no}")
-        if not all(np.isfinite(vals)):
-            raise CrossplanError(f"values must be finite, got {raw!r}", field=f"line {no}")
-        if vals[0] <= 0:
-            raise CrossplanError(f"frequency {vals[0]:g} Hz must be above 0", field=f"line {no}")
-        if rows and vals[0] <= rows[-1][0]:
-            raise CrossplanError(
-                f"frequency {vals[0]:g} Hz must be above the previous line's {rows[-1][0]:g} Hz",
-                field=f"line {no}")
-        rows.append(vals)
-    if not rows:
-        raise CrossplanError("no data lines 'freq_hz mag_db [phase_deg]' found", field="text")
-    a = np.array(rows, dtype=float)
-    return Response(a[:, 0], a[:, 1], a[:, 2] if ncol == 3 else None, header)
+    return out

@@ -19,7 +19,7 @@ from typing import Sequence
 
 import numpy as np
 
-from planner.dsp.fir import fir_response, fir_response_and_derivative
+from planner.dsp.fir.response import fir_response, fir_response_and_derivative
 
 __all__ = ["stack_sos", "sos_response", "band_responses", "poly_response", "BandResponses",
            "PointEvaluator", "log_derivative"]
@@ -181,7 +181,11 @@ class BandResponses:
         return -np.imag(self.dlog)
 
     def sum_group_delay_samples(self, active: Sequence[bool] | None = None) -> np.ndarray:
-        """Group delay of the sum in samples: ``-Im(S'/S)`` with ``S' = sum_b h_b (h_b'/h_b)``."""
+        """Group delay of the sum in samples: ``-Im(S'/S)`` with ``S' = sum_b h_b (h_b'/h_b)``.
+
+        The derivative of a sum is the sum of the derivatives, each ``h_b' = h_b
+        (h_b'/h_b)``; ``-Im(S'/S)`` is the group delay (module notes).
+        """
         m = self._mask(active)
         hb, lb = self.h[m], self.dlog[m]
         with np.errstate(invalid="ignore"):
@@ -232,11 +236,7 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         h = h * g[:, None]
     # FIR taps: bands with taps of the same length are evaluated together by
     # the block method of planner.dsp.fir (one matrix product per length).
-    groups: dict[int, list[int]] = {}
-    if firs is not None:
-        for i, taps in enumerate(firs):
-            if taps is not None:
-                groups.setdefault(len(taps), []).append(i)
+    groups = _fir_groups(firs)
     for idx in groups.values():
         h[idx] *= fir_response(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
 
@@ -271,6 +271,21 @@ def log_derivative(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
 
     What :attr:`BandResponses.dlog` holds, for responses already evaluated
     (gain and polarity do not change it; a delay of d samples adds ``-j d``).
+    ``d(ln h)/dw = h'/h``, the sum over the chain of each factor's own
+    logarithmic derivative (module notes).
+
+    Parameters
+    ----------
+    sos_list : sequence of ndarray, each (n_i, 6)
+        Each band's sections.
+    freqs_hz : ndarray, shape (n,)
+        Grid in Hz.
+    fs_hz : float
+        Sample rate in Hz.
+    delays_samples : sequence of float, optional
+        Band delays in samples.
+    firs : sequence of ndarray or None, optional
+        FIR taps applied after the sections, per band.
     """
     freqs_hz = np.asarray(freqs_hz, dtype=float)
     d = np.asarray(delays_samples if delays_samples is not None else np.zeros(len(sos_list)),

@@ -1,26 +1,28 @@
-"""Test signals as plain arrays: sweeps, impulses, noise, IIR impulse responses.
+"""Test signals as plain arrays: sweeps and their inverse filters, impulses, noise.
 
-Everything here is pure numpy/scipy: arrays in, arrays out, no files.
+Everything here is pure numpy/scipy: arrays in, arrays out, no files. An IIR
+chain's impulse response and fast convolution are in :mod:`planner.dsp.impulse`
+(their names are here as well).
 
 References
 ----------
 .. [1] A. Farina, "Simultaneous measurement of impulse response and
    distortion with a swept-sine technique", 108th AES Convention, Paris,
    2000, preprint 5093 (exponential sweep and its inverse filter).
-.. [2] M. R. Schroeder, "New method of measuring reverberation time",
-   J. Acoust. Soc. Am., vol. 37, 1965, pp. 409-412 (backward-integrated
-   energy of an impulse response).
 .. [3] N. J. Kasdin, "Discrete simulation of colored noise and stochastic
    processes and 1/f^alpha power law noise generation", Proc. IEEE, vol. 83,
    no. 5, 1995, pp. 802-827 (1/f noise by frequency-domain shaping).
+.. [4] F. J. Harris, "On the use of windows for harmonic analysis with the
+   discrete Fourier transform", Proc. IEEE, vol. 66, no. 1, 1978, pp. 51-83
+   (Hann window).
 """
 
 from __future__ import annotations
 
 import numpy as np
-from scipy import signal
 
-from planner.errors import CrossplanError, ExportError
+from planner.dsp.impulse import fft_convolve, truncate_iir_impulse
+from planner.errors import CrossplanError
 
 __all__ = [
     "exp_sweep",
@@ -42,7 +44,8 @@ def _positive(value, field: str, unit: str) -> float:
     return v
 
 
-def _check_band(f1_hz, f2_hz, fs_hz):
+def check_band(f1_hz, f2_hz, fs_hz):
+    """``(f1, f2, fs)`` in Hz: all positive, ``f1 < f2 <= fs / 2`` (fields f1_hz, f2_hz, fs_hz)."""
     fs = _positive(fs_hz, "fs_hz", "Hz")
     f1 = _positive(f1_hz, "f1_hz", "Hz")
     f2 = _positive(f2_hz, "f2_hz", "Hz")
@@ -54,8 +57,12 @@ def _check_band(f1_hz, f2_hz, fs_hz):
     return f1, f2, fs
 
 
-def _half_hann(n: int) -> np.ndarray:
-    """Rising half of a Hann window, ``n`` samples from 0 towards 1 (exclusive)."""
+def half_hann(n: int) -> np.ndarray:
+    """Rising half of a Hann window, ``n`` samples from 0 towards 1 (exclusive).
+
+    ``0.5 - 0.5 cos(pi k / n)`` for ``k = 0 .. n-1``: the first half of the
+    Hann window of ``2n`` points (Harris [4]_).
+    """
     return 0.5 - 0.5 * np.cos(np.pi * np.arange(n) / max(n, 1))
 
 
@@ -114,28 +121,34 @@ def exp_sweep(f1_hz: float, f2_hz: float, duration_s: float, fs_hz: float,
     >>> exp_sweep(20, 20000, 1.0, 48000).shape
     (48000,)
     """
-    f1, f2, fs = _check_band(f1_hz, f2_hz, fs_hz)
+    f1, f2, fs = check_band(f1_hz, f2_hz, fs_hz)
     t_len = _positive(duration_s, "duration_s", "seconds")
     n = int(round(t_len * fs))
     if n < 2:
         raise CrossplanError(f"{t_len:g} s is shorter than 2 samples at {fs:g} Hz",
                              field="duration_s")
+    n_in, n_out = _fade_samples(fade_in_s, fade_out_s, fs, n, t_len)
+    big_l = sweep_rate(f1, f2, t_len)
+    t = np.arange(n) / fs
+    x = amplitude * np.sin(2.0 * np.pi * f1 * big_l * np.expm1(t / big_l))
+    if n_in:
+        x[:n_in] *= half_hann(n_in)
+    if n_out:
+        x[n - n_out:] *= half_hann(n_out)[::-1]
+    return x
+
+
+def _fade_samples(fade_in_s, fade_out_s, fs: float, n: int, t_len: float) -> tuple[int, int]:
+    """Fade lengths in samples: each 0 or more seconds, together no longer than the sweep."""
     n_in, n_out = (int(round(float(v) * fs)) for v in (fade_in_s, fade_out_s))
-    for name, v, k in (("fade_in_s", fade_in_s, n_in), ("fade_out_s", fade_out_s, n_out)):
+    for name, v in (("fade_in_s", fade_in_s), ("fade_out_s", fade_out_s)):
         if not np.isfinite(float(v)) or float(v) < 0:
             raise CrossplanError(f"must be 0 or more seconds, not {v!r}", field=name)
     if n_in + n_out > n:
         raise CrossplanError(
             f"fades of {fade_in_s:g} s + {fade_out_s:g} s are longer than the sweep "
             f"({t_len:g} s)", field="fade_out_s")
-    big_l = sweep_rate(f1, f2, t_len)
-    t = np.arange(n) / fs
-    x = amplitude * np.sin(2.0 * np.pi * f1 * big_l * np.expm1(t / big_l))
-    if n_in:
-        x[:n_in] *= _half_hann(n_in)
-    if n_out:
-        x[n - n_out:] *= _half_hann(n_out)[::-1]
-    return x
+    return n_in, n_out
 
 
 def inverse_of_sweep(sweep: np.ndarray, f1_hz: float, f2_hz: float, fs_hz: float) -> np.ndarray:
@@ -165,7 +178,7 @@ def inverse_of_sweep(sweep: np.ndarray, f1_hz: float, f2_hz: float, fs_hz: float
     ----------
     .. [1] A. Farina, 108th AES Convention, 2000, preprint 5093, sec. 3.
     """
-    f1, f2, fs = _check_band(f1_hz, f2_hz, fs_hz)
+    f1, f2, fs = check_band(f1_hz, f2_hz, fs_hz)
     x = np.asarray(sweep, dtype=float)
     if x.ndim != 1 or len(x) < 2 or not np.all(np.isfinite(x)):
         raise CrossplanError("must be a 1-D array of finite samples, 2 or more",
@@ -187,6 +200,15 @@ def inverse_sweep(f1_hz: float, f2_hz: float, duration_s: float, fs_hz: float,
     See :func:`inverse_of_sweep` (Farina [1]_): the time-reversed sweep with
     the exponential envelope ``exp(-t / L)`` (+6 dB/octave correction of the
     sweep's pink spectrum), normalised for 0 dB in the band.
+
+    Parameters
+    ----------
+    f1_hz, f2_hz, duration_s, fs_hz, fade_in_s, fade_out_s
+        As :func:`exp_sweep`.
+
+    Returns
+    -------
+    inverse : ndarray, same length as the sweep
 
     References
     ----------
@@ -298,127 +320,3 @@ def pink_noise(n_samples: int, fs_hz: float, seed=None, rms: float = 0.1) -> np.
     shape[1:] = 1.0 / np.sqrt(f[1:])
     x = np.fft.irfft(spec * shape, n)
     return x * (rms / np.sqrt(np.mean(x * x)))
-
-
-def truncate_iir_impulse(sos, fs_hz: float, floor_db: float = -150.0,
-                         max_seconds: float = 10.0) -> np.ndarray:
-    """Impulse response of an IIR chain, cut where its tail falls below ``floor_db``.
-
-    The response is computed by :func:`scipy.signal.sosfilt` in blocks of
-    doubling length (the filter state carried across) until the last block's
-    energy is 10 dB below the floor relative to the peak sample's energy;
-    since a stable tail decays at least geometrically, what follows is then
-    negligible (a 10 dB margin: common practice, no published source). The
-    cut is at the first sample ``n`` where the remaining tail energy
-    ``sum_{k >= n} h[k]^2`` (Schroeder's backward integral [1]_) is below
-    ``floor_db`` relative to ``max h^2``: the energy envelope of the tail,
-    not a single sample, so a zero crossing never cuts early.
-
-    Parameters
-    ----------
-    sos : ndarray, shape (n, 6)
-        Second-order sections ``[b0, b1, b2, 1, a1, a2]``.
-    fs_hz : float
-        Sample rate in Hz.
-    floor_db : float
-        Tail energy floor relative to the peak, dB (negative).
-    max_seconds : float
-        Longest response computed, in seconds.
-
-    Returns
-    -------
-    h : ndarray
-        The truncated impulse response (at least 1 sample).
-
-    Raises
-    ------
-    ExportError
-        ``field='sos'`` if a pole lies on or outside the unit circle;
-        ``field='max_seconds'`` if the tail has not decayed within
-        ``max_seconds``; ``field='floor_db'`` if the floor is not negative.
-
-    References
-    ----------
-    .. [1] M. R. Schroeder, J. Acoust. Soc. Am., vol. 37, 1965, pp. 409-412.
-    """
-    from planner.dsp.quantize import _check_sos, pole_radius
-
-    s = _check_sos(sos)
-    fs = float(fs_hz)
-    if not np.isfinite(fs) or fs <= 0:
-        raise ExportError(f"must be a positive number of Hz, not {fs_hz!r}", field="fs_hz")
-    if not np.isfinite(floor_db) or floor_db >= 0:
-        raise ExportError(f"must be a negative number of dB, not {floor_db!r}",
-                          field="floor_db")
-    if not np.isfinite(max_seconds) or max_seconds <= 0:
-        raise ExportError(f"must be a positive number of seconds, not {max_seconds!r}",
-                          field="max_seconds")
-    r = pole_radius(s)
-    if np.any(r >= 1.0):
-        i = int(np.argmax(r))
-        raise ExportError(f"section {i + 1} has a pole at radius {r[i]:.9g} >= 1: the impulse "
-                          f"response never decays", field="sos")
-    n_max = max(1, int(np.ceil(max_seconds * fs)))
-    floor = 10.0 ** (floor_db / 10.0)
-    zi = signal.sosfilt_zi(s) * 0.0
-    blocks, done, n, size = [], False, 0, 1024
-    while n < n_max:
-        size = min(size, n_max - n)
-        x = np.zeros(size)
-        if n == 0:
-            x[0] = 1.0
-        y, zi = signal.sosfilt(s, x, zi=zi)
-        blocks.append(y)
-        n += size
-        peak = max(np.max(np.abs(b)) for b in blocks) ** 2
-        if peak > 0 and np.sum(y * y) <= floor * peak * 0.1:
-            done = True
-            break
-        if peak == 0:
-            done = True
-            break
-        size *= 2
-    h = np.concatenate(blocks)
-    peak = np.max(h * h)
-    if not done:
-        tail_db = 10 * np.log10(np.sum(blocks[-1] ** 2) / peak)
-        raise ExportError(
-            f"{max_seconds:g} s is too short: the impulse response's last block is still at "
-            f"{tail_db:.1f} dB, above floor_db {floor_db:g} dB; raise max_seconds or floor_db",
-            field="max_seconds")
-    if peak == 0:
-        return h[:1]
-    tail = np.cumsum((h * h)[::-1])[::-1]
-    below = np.flatnonzero(tail < floor * peak)
-    cut = int(below[0]) if len(below) else len(h)
-    return h[:max(cut, 1)]
-
-
-def fft_convolve(x, h, mode: str = "full") -> np.ndarray:
-    """Linear convolution of long signals by overlap-add FFT.
-
-    A thin wrapper of :func:`scipy.signal.oaconvolve`, which picks the block
-    size; for a long signal and a long FIR it costs ``O(N log M)``.
-
-    Parameters
-    ----------
-    x, h : ndarray, 1-D
-    mode : {'full', 'same', 'valid'}
-
-    Returns
-    -------
-    y : ndarray
-
-    References
-    ----------
-    .. [1] A. V. Oppenheim and R. W. Schafer, "Discrete-Time Signal
-       Processing", 3rd ed., sec. 8.7.3 (block convolution, overlap-add).
-    """
-    x, h = np.asarray(x, dtype=float), np.asarray(h, dtype=float)
-    for name, v in (("x", x), ("h", h)):
-        if v.ndim != 1 or len(v) == 0:
-            raise CrossplanError(f"must be a non-empty 1-D array, not shape {v.shape}",
-                                 field=name)
-    if mode not in ("full", "same", "valid"):
-        raise CrossplanError(f"must be 'full', 'same' or 'valid', not {mode!r}", field="mode")
-    return signal.oaconvolve(x, h, mode=mode)

@@ -8,12 +8,12 @@ analyses it. Each band's sections are then laid out for the DSP
 in chain order, each labelled with its filter, so they map onto a DSP's
 per-filter slots; ``paired`` re-pairs the band's poles and zeros and orders
 the sections with the poles nearest the unit circle last
-(:func:`planner.dsp.sections.pair_sections`). Both keep every numerator's
+(:func:`planner.dsp.fixed.sections.pair_sections`). Both keep every numerator's
 shape, so zeros at ``z = +1/-1`` stay exact. For a fixed-point target the
 numerators are scaled so that the signal peaks at full
-scale after each section (:func:`planner.dsp.sections.scale_sections`), with
+scale after each section (:func:`planner.dsp.fixed.sections.scale_sections`), with
 what is left of the band's gain in ``scale``. The sections are rounded to the
-target number format (:func:`planner.dsp.quantize.quantize_sos`, with a
+target number format (:func:`planner.dsp.fixed.quantize_sos`, with a
 post-shift per section where a fixed-point word cannot hold them), and the
 coefficients as written are compared with the design ``check`` analysed:
 nothing is written that differs from what was checked by more than

@@ -25,7 +25,7 @@ from typing import Sequence
 
 from planner import __version__, project as pj
 from planner.audio.wav import write_wav
-from planner.dsp import quantize as qz
+from planner.dsp import fixed as qz
 from planner.engine import delays as dl
 from planner.engine import rounding
 from planner.errors import ExportError

@@ -21,7 +21,7 @@ import math
 import numpy as np
 
 from planner.defaults import EXPORT_FORMATS
-from planner.dsp import quantize as qz
+from planner.dsp import fixed as qz
 from planner.engine.delays import BandDelay
 from planner.export.rate import BandExport, RateExport, rate_value
 from planner.export.recheck import MAX_DEVIATION_DB, ArithResult, shown_against

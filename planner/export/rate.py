@@ -8,10 +8,10 @@ analyses it. Each band's sections are then laid out for the DSP
 in chain order, each labelled with its filter, so they map onto a DSP's
 per-filter slots; ``paired`` re-pairs the band's poles and zeros and orders
 the sections with the poles nearest the unit circle last
-(:func:`planner.dsp.sections.pair_sections`). Both keep every numerator's
+(:func:`planner.dsp.fixed.sections.pair_sections`). Both keep every numerator's
 shape, so zeros at ``z = +1/-1`` stay exact. For a fixed-point target the
 numerators are scaled so that the signal peaks at full scale after each
-section (:func:`planner.dsp.sections.scale_sections`), with what is left of
+section (:func:`planner.dsp.fixed.sections.scale_sections`), with what is left of
 the band's gain in ``scale``. The sections are then rounded and compared with
 the design ``check`` analysed (:mod:`planner.export.recheck`).
 
@@ -32,8 +32,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from planner import engine, filters as fk
-from planner.dsp import quantize as qz
-from planner.dsp import sections as dsec
+from planner.dsp import fixed as qz
 from planner.errors import CrossplanError, ExportError, ProjectError
 from planner.export.recheck import (ArithResult, peak_internal, quantize_and_recheck,
                                     recheck_grid)
@@ -205,9 +204,9 @@ def _layout(d: engine.BandDesign, a: qz.Arith, mode: str):
         return sos.copy(), [], 1.0
     owners = list(d.section_filters) if len(d.section_filters) == len(sos) else None
     if mode == "paired":
-        sos, owners = dsec.pair_sections(sos), None
+        sos, owners = qz.pair_sections(sos), None
     if a.kind == "fixed":
-        laid = dsec.scale_sections(sos)
+        laid = qz.scale_sections(sos)
         return laid.sos, owners, laid.gain
     return sos.copy(), owners, 1.0
 

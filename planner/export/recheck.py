@@ -1,12 +1,12 @@
 """The written coefficients of a band against the design ``check`` analysed.
 
 The laid-out sections are rounded to the target number format
-(:func:`planner.dsp.quantize.quantize_sos`, with a post-shift per section
+(:func:`planner.dsp.fixed.quantize_sos`, with a post-shift per section
 where a fixed-point word cannot hold them) and their response is compared
 with the very design ``check`` analysed, never with an intermediate of the
 export: nothing is written that differs from what was checked by more than
 :data:`MAX_DEVIATION_DB` where the response matters
-(:func:`planner.dsp.quantize.judge_deviation`).
+(:func:`planner.dsp.fixed.judge_deviation`).
 
 References
 ----------
@@ -22,7 +22,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from planner import engine
-from planner.dsp import quantize as qz
+from planner.dsp import fixed as qz
 from planner.dsp.response import band_responses
 from planner.units import format_hz
 
@@ -33,8 +33,8 @@ __all__ = ["MAX_DEVIATION_DB", "RANGE_DB", "ERROR_FLOOR_DB", "RECHECK_POINTS", "
 #: Largest magnitude deviation (dB) of the written coefficients from the
 #: design ``check`` analysed, judged where the design is within RANGE_DB of
 #: the band's peak; deeper down the magnitude error must stay ERROR_FLOOR_DB
-#: below the peak (see :func:`planner.dsp.quantize.judge_deviation`). The
-#: same values as the defaults of :func:`planner.dsp.quantize.suggest_fixes`;
+#: below the peak (see :func:`planner.dsp.fixed.judge_deviation`). The
+#: same values as the defaults of :func:`planner.dsp.fixed.suggest_fixes`;
 #: common practice, no published source.
 MAX_DEVIATION_DB = 0.1
 
@@ -63,7 +63,7 @@ class ArithResult:
 
     Section numbers are 1-based, in the exported order. ``deviation_db`` is
     judged within ``range_db`` of the band's peak and ``floor_error_db``
-    below it (:func:`planner.dsp.quantize.judge_deviation`); both are None
+    below it (:func:`planner.dsp.fixed.judge_deviation`); both are None
     when a section cannot be held (overflow, saturation or instability make
     a frequency response meaningless), and ``reason`` then says why.
     """

@@ -27,7 +27,7 @@ from typing import Any, Mapping
 
 import numpy as np
 
-from planner.dsp.quantize import pole_radius
+from planner.dsp.fixed import pole_radius
 from planner.errors import ProjectError
 from planner.filters.fields import FieldSpec
 from planner.filters.registry import FilterDesign, FilterKind, register

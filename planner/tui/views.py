@@ -15,6 +15,7 @@ from planner import config
 from planner.dsp.analysis import db
 from planner.engine import Report
 from planner.present.plots import Series
+from planner.timeresp import impulse_responses
 from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
@@ -122,8 +123,6 @@ def _r1(v: float) -> float:
 
 def impulse_of(r: Report):
     """The impulse responses of the report's bands and sum (:mod:`planner.timeresp`)."""
-    from planner.timeresp import impulse_responses
-
     return impulse_responses(r.designs, r.project.sample_rate,
                              [b.name for b in r.project.bands], r.active)
 

@@ -15,9 +15,9 @@ from scipy import signal
 
 from planner.dsp import iir
 from planner.dsp.biquad import notch, peaking
-from planner.dsp.quantize import pole_radius
-from planner.dsp.sections import (integer_shape, pair_sections, quadratic_roots,
-                                  scale_sections)
+from planner.dsp.fixed import pole_radius
+from planner.dsp.fixed.sections import (integer_shape, pair_sections, quadratic_roots,
+                                        scale_sections)
 from planner.errors import DesignError
 
 

@@ -1,0 +1,169 @@
+"""A frequency response as plain text: one line per frequency, read tolerantly.
+
+The layout is the common plain-text measurement one: one line per frequency,
+``freq_hz  mag_db  [phase_deg]``, with ``*`` comment lines. Text in, text out:
+reading and writing files is the caller's.
+
+References
+----------
+.. [1] The common plain-text frequency-response layout (frequency, magnitude,
+   phase columns; comment lines) used for measurement exchange: common
+   practice, no published standard.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from planner.errors import CrossplanError
+
+__all__ = ["Response", "format_response_text", "parse_response_text"]
+
+
+@dataclass
+class Response:
+    """A frequency response read from text.
+
+    Attributes
+    ----------
+    freqs_hz, mag_db : ndarray
+    phase_deg : ndarray or None
+        None when the text had no phase column.
+    header : list of str
+        Comment lines, without the comment mark.
+    """
+
+    freqs_hz: np.ndarray
+    mag_db: np.ndarray
+    phase_deg: np.ndarray | None
+    header: list
+
+
+def format_response_text(freqs_hz, mag_db, phase_deg=None, header_lines=()) -> str:
+    """Write a response as plain text, one frequency per line.
+
+    Header lines come first, each as ``* text``; then lines
+    ``freq_hz  mag_db  phase_deg`` (phase omitted if None), frequency with
+    8 significant digits, magnitude to 0.0001 dB, phase to 0.001 deg.
+
+    Parameters
+    ----------
+    freqs_hz, mag_db : array_like, same length
+    phase_deg : array_like, optional
+    header_lines : sequence of str
+        Comment lines (a line with a newline is split into several).
+
+    Returns
+    -------
+    str
+        Ending with a newline.
+
+    References
+    ----------
+    .. [1] The common plain-text frequency-response layout (frequency,
+       magnitude, phase columns; comment lines) used for measurement
+       exchange: common practice, no published standard.
+    """
+    f = np.asarray(freqs_hz, dtype=float)
+    m = np.asarray(mag_db, dtype=float)
+    p = None if phase_deg is None else np.asarray(phase_deg, dtype=float)
+    if f.ndim != 1 or m.shape != f.shape or (p is not None and p.shape != f.shape):
+        raise CrossplanError(
+            f"freqs_hz, mag_db and phase_deg must be 1-D of one length, not {f.shape}, "
+            f"{m.shape}, {None if p is None else p.shape}", field="mag_db")
+    cols = [f, m] if p is None else [f, m, p]
+    if not all(np.all(np.isfinite(c)) for c in cols):
+        raise CrossplanError("values must be finite numbers, found nan or inf", field="mag_db")
+    lines = [f"* {s}".rstrip() for h in header_lines for s in str(h).splitlines() or [""]]
+    # Column-wise (vectorised) formatting, joined into rows.
+    rows = np.char.add(np.char.mod("%.8g", f), np.char.add("  ", np.char.mod("%.4f", m)))
+    if p is not None:
+        rows = np.char.add(rows, np.char.add("  ", np.char.mod("%.3f", p)))
+    return "\n".join(lines + rows.tolist()) + "\n"
+
+
+_SPLIT = re.compile(r"[,;\t ]+")
+_COMMENT = ("*", "#", ";", "//")
+
+
+def parse_response_text(text: str) -> Response:
+    """Read a response written as text, tolerantly.
+
+    Accepted: comment lines starting with ``*``, ``#``, ``;`` or ``//``;
+    blank lines; one column-title line (non-numeric) before the data;
+    columns split by commas, semicolons, tabs or spaces; 2 columns
+    (frequency, magnitude) or 3 or more (frequency, magnitude, phase;
+    further columns ignored), the same count on every line. Frequencies must
+    be positive and strictly increasing.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    Response
+
+    Raises
+    ------
+    CrossplanError
+        ``field='line N'`` naming the line, the rule and the bad text.
+
+    References
+    ----------
+    .. [1] The common plain-text frequency-response layout: common practice,
+       no published standard.
+    """
+    if not isinstance(text, str):
+        raise CrossplanError(f"must be text, not {type(text).__name__}", field="text")
+    header, rows, ncol, title_seen = [], [], None, False
+    for no, raw in enumerate(text.splitlines(), start=1):
+        line = raw.strip().lstrip("\ufeff")
+        if not line:
+            continue
+        mark = next((c for c in _COMMENT if line.startswith(c)), None)
+        if mark:
+            header.append(line[len(mark):].strip())
+            continue
+        tokens = [t for t in _SPLIT.split(line) if t]
+        try:
+            vals = [float(t) for t in tokens[:3]]
+        except ValueError:
+            if not rows and not title_seen:
+                title_seen = True
+                header.append(line)
+                continue
+            raise CrossplanError(f"expected numbers 'freq_hz mag_db [phase_deg]', got {raw!r}",
+                                 field=f"line {no}") from None
+        ncol = _check_row(vals, min(len(tokens), 3), ncol, rows[-1][0] if rows else None,
+                          raw, no)
+        rows.append(vals)
+    if not rows:
+        raise CrossplanError("no data lines 'freq_hz mag_db [phase_deg]' found", field="text")
+    a = np.array(rows, dtype=float)
+    return Response(a[:, 0], a[:, 1], a[:, 2] if ncol == 3 else None, header)
+
+
+def _check_row(vals: list, n: int, ncol: int | None, f_prev: float | None, raw: str,
+               no: int) -> int:
+    """Check one data line's numbers (``n`` columns); the column count of the text."""
+    if n < 2:
+        raise CrossplanError(f"needs at least 2 columns (freq_hz mag_db), got {raw!r}",
+                             field=f"line {no}")
+    if ncol is None:
+        ncol = n
+    elif n != ncol:
+        raise CrossplanError(f"has {n} columns where earlier lines have {ncol}: {raw!r}",
+                             field=f"line {no}")
+    if not all(np.isfinite(vals)):
+        raise CrossplanError(f"values must be finite, got {raw!r}", field=f"line {no}")
+    if vals[0] <= 0:
+        raise CrossplanError(f"frequency {vals[0]:g} Hz must be above 0", field=f"line {no}")
+    if f_prev is not None and vals[0] <= f_prev:
+        raise CrossplanError(
+            f"frequency {vals[0]:g} Hz must be above the previous line's {f_prev:g} Hz",
+            field=f"line {no}")
+    return ncol
