@@ -118,3 +118,18 @@ def grid_cap(points: int, n_bands: int) -> int:
     return (int(points) + GRID_NAMED_MAX + GRID_FEATURES_MAX * per_feature
             + GRID_REFINE_PASSES * GRID_REFINE_CELLS * GRID_REFINE_SPLIT
             + 2 * GRID_EXTREMES + int(n_bands))
+
+
+# --- drivers and safety (planner.engine.safety) ------------------------------------------
+#: A tweeter's (or compression driver's) highpass should sit at least this many times its
+#: resonance, and be of at least TWEETER_MIN_ORDER: common practice, no published source.
+TWEETER_RESONANCE_FACTOR = 2.0
+#: A boost below LOW_BOOST_HZ of more than LOW_BOOST_DB (a Linkwitz transform, a low
+#: shelf, a peaking filter) asks the driver for more excursion: common practice.
+LOW_BOOST_HZ = 200.0
+LOW_BOOST_DB = 3.0
+#: A vented box wants a subsonic highpass at or above this fraction of its tuning, or it
+#: unloads below it: common practice, no published source.
+SUBSONIC_FRACTION = 0.5
+#: A break-up peak higher than this (dB) with no cut near it gets a notch suggested.
+BREAKUP_WARN_DB = 3.0

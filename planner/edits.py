@@ -54,7 +54,7 @@ def _rebuild(p: Project, change: Callable[[dict], None]) -> Project:
     """
     d = pj.to_dict(p)
     change(d)
-    return pj.from_dict(d)
+    return pj.from_dict(d, p.source_dir)
 
 
 def _band(d: dict, i: int) -> dict:

@@ -20,7 +20,8 @@ from typing import Any, Mapping
 
 from planner import config
 
-__all__ = ["Filter", "Band", "Analysis", "Project", "FORMAT", "VERSION"]
+__all__ = ["Filter", "Driver", "Measured", "Band", "Analysis", "Acoustics", "Project", "FORMAT",
+           "VERSION"]
 
 FORMAT = "crossplan-project"
 VERSION = 1
@@ -85,6 +86,85 @@ class Filter:
         return replace(self, params=p)
 
 
+@dataclass(frozen=True, eq=False)
+class Measured:
+    """A driver's measured response as read from its file.
+
+    Attributes
+    ----------
+    path : str
+        The file as named in the project (relative to the project's folder).
+    freqs_hz, mag_db : array_like
+        The data, increasing frequencies.
+    phase_deg : array_like or None
+        None when the file has no phase column.
+    sha256 : str
+        Content hash of the file (``"sha256:<hex>"``), for export manifests.
+    """
+
+    path: str
+    freqs_hz: Any
+    mag_db: Any
+    phase_deg: Any
+    sha256: str
+
+    def __eq__(self, other):
+        return isinstance(other, Measured) and (self.path, self.sha256) == (other.path,
+                                                                           other.sha256)
+
+    def __hash__(self):
+        return hash((self.path, self.sha256))
+
+
+@dataclass(frozen=True)
+class Driver:
+    """The transducer behind a band: a measured response or an analytic model, and where it sits.
+
+    Attributes
+    ----------
+    model : str or None
+        ``closed-box``, ``vented-box``, ``tweeter`` or ``flat`` (see
+        :mod:`planner.drivers`); None for a measured driver.
+    params : Mapping
+        The model's parameters in their units (``fc`` in Hz, ``qtc``, ...), the
+        optional roll-off and break-up, ``sensitivity_db``.
+    data : Measured or None
+        The measured response of a driver given by ``file``.
+    offset_mm : float
+        Acoustic centre behind the reference plane (mm; positive: recessed,
+        arrives later).
+    position_mm : float or None
+        Height of the acoustic centre on the baffle (mm), for the off-axis view.
+    role : str or None
+        ``woofer``, ``midrange``, ``tweeter``, ``compression`` or ``sub``
+        (what the safety checks look at).
+    resonance_hz : float or None
+        The driver's declared resonance (Hz), for the tweeter checks.
+    min_phase : bool
+        Derive the phase from the magnitude even where the file has phase.
+    extrapolate : bool
+        Let the analysis range go beyond the file's (with a warning).
+    raw : Mapping
+        The JSON form as written (what saving writes back, unknown keys
+        included).
+    """
+
+    model: str | None = None
+    params: Mapping[str, Any] = field(default_factory=dict)
+    data: Measured | None = None
+    offset_mm: float = 0.0
+    position_mm: float | None = None
+    role: str | None = None
+    resonance_hz: float | None = None
+    min_phase: bool = False
+    extrapolate: bool = False
+    raw: Mapping[str, Any] = field(default_factory=dict, compare=False)
+
+    def __post_init__(self):
+        object.__setattr__(self, "params", _frozen(self.params))
+        object.__setattr__(self, "raw", _frozen(self.raw))
+
+
 @dataclass(frozen=True)
 class Band:
     """One output way (woofer, tweeter, sub, ...) and its chain of filters.
@@ -104,8 +184,12 @@ class Band:
         soloed bands are summed.
     filters : tuple of Filter
         The chain, applied in order.
-    driver : Mapping or None
-        The transducer behind the band (kept for later use; not yet analysed).
+    driver : Driver or None
+        The transducer behind the band (its response multiplies the band's
+        in the acoustic sum); None for a band counted as a flat driver.
+    target : tuple of Filter
+        The acoustic response the band should reach, driver included (for
+        example an LR4 lowpass): the check reports how far it is.
     extra : Mapping
         Unknown keys of the JSON form.
     """
@@ -117,14 +201,14 @@ class Band:
     mute: bool = False
     solo: bool = False
     filters: tuple[Filter, ...] = ()
-    driver: Mapping[str, Any] | None = None
+    driver: Driver | None = None
+    target: tuple[Filter, ...] = ()
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "filters", tuple(self.filters))
+        object.__setattr__(self, "target", tuple(self.target))
         object.__setattr__(self, "extra", _frozen(self.extra))
-        if self.driver is not None:
-            object.__setattr__(self, "driver", _frozen(self.driver))
 
     def with_filter(self, index: int, flt: Filter) -> "Band":
         """A copy with filter ``index`` replaced."""
@@ -176,6 +260,42 @@ class Analysis:
 
 
 @dataclass(frozen=True)
+class Acoustics:
+    """How the acoustic sum is formed and looked at (used when any band has a driver).
+
+    Attributes
+    ----------
+    temperature_c : float
+        Air temperature (deg C) for the speed of sound of the offsets.
+    reference_db : float or None
+        The level the acoustic sum is held flat to (dB, the drivers' own
+        scale); None: the least sensitive driver's pass-band level.
+    distance_m : float
+        Listening distance of the off-axis view (m).
+    angle_min_deg, angle_max_deg, angle_step_deg : float
+        The vertical angles of the off-axis view (deg; positive above the axis).
+    axis_mm : float
+        Height of the listening axis on the baffle (mm, as ``position_mm``).
+    window_db : float
+        The off-axis sum stays within this of the on-axis sum inside the
+        vertical listening window (dB).
+    """
+
+    temperature_c: float = 20.0
+    reference_db: float | None = None
+    distance_m: float = 2.0
+    angle_min_deg: float = -30.0
+    angle_max_deg: float = 30.0
+    angle_step_deg: float = 5.0
+    axis_mm: float = 0.0
+    window_db: float = 3.0
+    extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
+
+    def __post_init__(self):
+        object.__setattr__(self, "extra", _frozen(self.extra))
+
+
+@dataclass(frozen=True)
 class Project:
     """A whole project: name, sample rate, analysis settings and bands."""
 
@@ -184,10 +304,18 @@ class Project:
     bands: tuple[Band, ...]
     analysis: Analysis = field(default_factory=Analysis)
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
+    acoustics: Acoustics = field(default_factory=Acoustics)
+    #: the folder driver files are named relative to (not saved)
+    source_dir: str | None = field(default=None, compare=False)
 
     def __post_init__(self):
         object.__setattr__(self, "bands", tuple(self.bands))
         object.__setattr__(self, "extra", _frozen(self.extra))
+
+    @property
+    def has_drivers(self) -> bool:
+        """Whether any band has a driver: then the checks look at the acoustic sum."""
+        return any(b.driver is not None for b in self.bands)
 
     @property
     def nyquist_hz(self) -> float:

@@ -17,20 +17,24 @@ import os
 from pathlib import Path
 from typing import Any, Mapping
 
+from planner import drivers
 from planner import filters as fk
-from planner.dsp.fixed import parse_arith
 from planner import presets
+from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectError
 from planner.jsonio import atomic_write_text
-from planner.model import FORMAT, VERSION, Analysis, Band, Filter, Project
+from planner.model import FORMAT, VERSION, Acoustics, Analysis, Band, Filter, Project
 
 __all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
            "check_band", "atomic_write_text"]
 
-_PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "bands"}
+_PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands"}
+_ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
+                   "angle_max_deg", "angle_step_deg", "axis_mm", "window_db"}
 _ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
                   "arith", "enforce_headroom"}
-_BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver"}
+_BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver",
+              "target"}
 _FILTER_BASE = {"type", "family", "bypass"}
 
 
@@ -89,24 +93,37 @@ def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
     return Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
 
 
-def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
-    """Check one band's JSON form and return the :class:`Band`."""
-    raw = _obj(raw, "")
-    name = raw.get("name")
-    if not isinstance(name, str) or not name.strip():
-        raise ProjectError(f"must be a non-empty string, not {name!r}", field="name")
-    flist = raw.get("filters", [])
+def _chain(raw: Mapping, key: str, fs_hz: float) -> tuple[Filter, ...]:
+    flist = raw.get(key, [])
     if not isinstance(flist, list):
-        raise ProjectError(f"must be a list, not {type(flist).__name__}", field="filters")
+        raise ProjectError(f"must be a list, not {type(flist).__name__}", field=key)
     chain = []
     for j, f in enumerate(flist):
         try:
             chain.append(check_filter(f, fs_hz))
         except CrossplanError as e:
-            raise e.at(f"filters[{j}]") from None
-    driver = raw.get("driver")
-    if driver is not None:
-        _obj(driver, "driver")
+            raise e.at(f"{key}[{j}]") from None
+    return tuple(chain)
+
+
+def check_band(raw: Mapping[str, Any], fs_hz: float, analysis: Analysis | None = None,
+               base_dir: str | os.PathLike | None = None) -> Band:
+    """Check one band's JSON form and return the :class:`Band`.
+
+    A ``driver`` (:mod:`planner.drivers`) names its measurement file relative
+    to ``base_dir`` (the project file's folder); ``target`` is a chain of
+    filters, the acoustic response the band should reach.
+    """
+    raw = _obj(raw, "")
+    name = raw.get("name")
+    if not isinstance(name, str) or not name.strip():
+        raise ProjectError(f"must be a non-empty string, not {name!r}", field="name")
+    driver = None
+    if raw.get("driver") is not None:
+        try:
+            driver = drivers.check_driver(raw["driver"], fs_hz, analysis or Analysis(), base_dir)
+        except CrossplanError as e:
+            raise e.at("driver") from None
     return Band(
         name=name.strip(),
         gain_db=float(_num(raw, "gain_db", 0.0, lo=-100, hi=40, unit="dB")),
@@ -114,8 +131,9 @@ def check_band(raw: Mapping[str, Any], fs_hz: float) -> Band:
         invert=_bool(raw, "invert"),
         mute=_bool(raw, "mute"),
         solo=_bool(raw, "solo"),
-        filters=tuple(chain),
+        filters=_chain(raw, "filters", fs_hz),
         driver=driver,
+        target=_chain(raw, "target", fs_hz),
         extra={k: v for k, v in raw.items() if k not in _BAND_KEYS},
     )
 
@@ -156,10 +174,36 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
     )
 
 
-def from_dict(raw: Any) -> Project:
+def _acoustics(raw: Mapping) -> Acoustics:
+    d = Acoustics()
+    ref = raw.get("reference_db")
+    amin = float(_num(raw, "angle_min_deg", d.angle_min_deg, lo=-90, hi=90, unit="deg"))
+    amax = float(_num(raw, "angle_max_deg", d.angle_max_deg, lo=-90, hi=90, unit="deg"))
+    if amax < amin:
+        raise ProjectError(f"{amax:g} deg must be at least angle_min_deg ({amin:g} deg)",
+                           field="angle_max_deg")
+    return Acoustics(
+        temperature_c=float(_num(raw, "temperature_c", d.temperature_c, lo=-50, hi=60,
+                                 unit="deg C")),
+        reference_db=None if ref is None else float(_num(raw, "reference_db", lo=-200, hi=200,
+                                                         unit="dB")),
+        distance_m=float(_num(raw, "distance_m", d.distance_m, lo=0.05, hi=1000, unit="m")),
+        angle_min_deg=amin, angle_max_deg=amax,
+        angle_step_deg=float(_num(raw, "angle_step_deg", d.angle_step_deg, lo=0.1, hi=90,
+                                  unit="deg")),
+        axis_mm=float(_num(raw, "axis_mm", d.axis_mm, lo=-5000, hi=5000, unit="mm")),
+        window_db=float(_num(raw, "window_db", d.window_db, lo=0, lo_open=True, hi=40,
+                             unit="dB")),
+        extra={k: v for k, v in raw.items() if k not in _ACOUSTICS_KEYS},
+    )
+
+
+def from_dict(raw: Any, base_dir: str | os.PathLike | None = None) -> Project:
     """Check a project's JSON form (already parsed) and return the :class:`Project`.
 
     Every field is checked, nothing is designed (see :func:`check_filter`).
+    Driver files are read relative to ``base_dir`` (the project file's
+    folder; default: the current folder).
 
     Raises
     ------
@@ -187,13 +231,17 @@ def from_dict(raw: Any) -> Project:
         analysis = _analysis(_obj(raw.get("analysis", {}), ""), fs)
     except CrossplanError as e:
         raise e.at("analysis") from None
+    try:
+        acoustics = _acoustics(_obj(raw.get("acoustics", {}), ""))
+    except CrossplanError as e:
+        raise e.at("acoustics") from None
     blist = raw.get("bands")
     if not isinstance(blist, list) or not blist:
         raise ProjectError(f"must be a non-empty list of bands, not {blist!r}", field="bands")
     bands, seen = [], {}
     for i, b in enumerate(blist):
         try:
-            band = check_band(b, fs)
+            band = check_band(b, fs, analysis, base_dir)
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
         if band.name in seen:
@@ -203,7 +251,9 @@ def from_dict(raw: Any) -> Project:
         bands.append(band)
     return Project(name=name, sample_rate=float(fs) if fs != int(fs) else int(fs),
                    bands=tuple(bands), analysis=analysis,
-                   extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS})
+                   extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS},
+                   acoustics=acoustics,
+                   source_dir=None if base_dir is None else str(base_dir))
 
 
 def _filter_dict(f: Filter) -> dict:
@@ -231,6 +281,10 @@ def to_dict(project: Project) -> dict:
                      **({"arith": a.arith} if a.arith is not None else {}), **a.extra},
         "bands": [],
     }
+    ac = project.acoustics
+    if ac != Acoustics() or ac.extra:
+        out["acoustics"] = {k: getattr(ac, k) for k in sorted(_ACOUSTICS_KEYS)
+                            if getattr(ac, k) is not None} | dict(ac.extra)
     for b in project.bands:
         bd: dict[str, Any] = {"name": b.name, "gain_db": b.gain_db, "delay_ms": b.delay_ms,
                               "invert": b.invert}
@@ -240,14 +294,16 @@ def to_dict(project: Project) -> dict:
             bd["solo"] = True
         bd["filters"] = [_filter_dict(f) for f in b.filters]
         if b.driver is not None:
-            bd["driver"] = dict(b.driver)
+            bd["driver"] = dict(b.driver.raw)
+        if b.target:
+            bd["target"] = [_filter_dict(f) for f in b.target]
         bd.update(b.extra)
         out["bands"].append(bd)
     out.update(project.extra)
     return out
 
 
-def loads(text: str) -> Project:
+def loads(text: str, base_dir: str | os.PathLike | None = None) -> Project:
     """Parse and check a project from JSON text (see :func:`from_dict`)."""
     try:
         raw = json.loads(text)
@@ -256,7 +312,7 @@ def loads(text: str) -> Project:
                            field="file") from None
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
-    return from_dict(raw)
+    return from_dict(raw, base_dir)
 
 
 def load_preset(name: str) -> Project:
@@ -278,7 +334,7 @@ def load(path: str | os.PathLike) -> Project:
         raise ProjectError(f"no such file: {str(p)!r}", field="file") from None
     except (OSError, UnicodeDecodeError) as e:
         raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
-    return loads(text)
+    return loads(text, p.resolve().parent)
 
 
 def save(project: Project, path: str | os.PathLike) -> None:

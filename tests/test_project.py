@@ -33,11 +33,15 @@ def test_unknown_keys_kept_at_every_level(example):
     assert out["bands"][0]["filters"][0]["note"] == "subsonic"
 
 
-def test_driver_kept(example):
-    example["bands"][0]["driver"] = {"file": "woofer.frd", "offset_mm": 30}
-    p = project.from_dict(example)
-    assert json.loads(project.dumps(p))["bands"][0]["driver"] == {"file": "woofer.frd",
-                                                                  "offset_mm": 30}
+def test_driver_kept_as_written(example, tmp_path):
+    # The driver is read and analysed now, and saved back as written, unknown keys too.
+    lines = "".join(f"{f:g} 87 0\n" for f in (10, 100, 1000, 10000, 30000))
+    (tmp_path / "woofer.frd").write_text("# freq mag phase\n" + lines)
+    example["bands"][0]["driver"] = {"file": "woofer.frd", "offset_mm": 30, "vendor_note": "x"}
+    p = project.from_dict(example, tmp_path)
+    assert p.bands[0].driver.offset_mm == 30.0 and p.bands[0].driver.data.mag_db[0] == 87.0
+    assert json.loads(project.dumps(p))["bands"][0]["driver"] == {
+        "file": "woofer.frd", "offset_mm": 30, "vendor_note": "x"}
 
 
 @pytest.mark.parametrize("mutate, message", [

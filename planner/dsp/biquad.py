@@ -198,3 +198,33 @@ def highpass2(freq_hz: float, q: float, fs_hz: float) -> np.ndarray:
     w0, q = _w0(freq_hz, fs_hz), _q(q)
     alpha, c = np.sin(w0) / (2 * q), np.cos(w0)
     return _section((1 + c) / 2, -(1 + c), (1 + c) / 2, 1 + alpha, -2 * c, 1 - alpha)
+
+
+def analog_section(b, a, fs_hz: float, warp_hz: float) -> np.ndarray:
+    """One analog section of first or second order, made digital by the bilinear transform.
+
+    ``b``, ``a``: coefficients in descending powers of ``s`` (``[b2, b1, b0]`` or
+    ``[b1, b0]``). The transform ``s = K (1 - z^-1) / (1 + z^-1)`` uses
+    ``K = 2 pi f_w / tan(pi f_w / fs)``, so the digital response equals the
+    analog one exactly at ``warp_hz`` (prewarping; Oppenheim and Schafer,
+    "Discrete-Time Signal Processing", 3rd ed., sec. 7.2.2).
+
+    Returns
+    -------
+    ndarray, shape (1, 6)
+    """
+    w = 2.0 * np.pi * float(warp_hz)
+    _w0(warp_hz, fs_hz)
+    k = w / np.tan(w / (2.0 * fs_hz))
+
+    def poly(c):
+        c = np.asarray(c, dtype=float)
+        if len(c) == 2:
+            c1, c0 = c
+            return np.array([c1 * k + c0, c0 - c1 * k, 0.0])
+        c2, c1, c0 = c
+        kk = k * k
+        return np.array([c2 * kk + c1 * k + c0, 2.0 * (c0 - c2 * kk), c2 * kk - c1 * k + c0])
+
+    nb, na = poly(b), poly(a)
+    return _section(*nb, *na)

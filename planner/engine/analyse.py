@@ -23,12 +23,13 @@ from planner import config
 from planner.dsp import analysis as an
 from planner.dsp import grid as dgrid
 from planner.dsp.response import BandResponses, log_derivative
+from planner.engine.acoustic import AcousticPoints, Drivers, band_acoustics
 from planner.engine.design import BandDesign, design_band, evaluate, point_evaluator
 from planner.engine.result import (BandResult, CheckResult, CrossingResult, Report,
                                    check_state)
 from planner.engine.warnings import warnings_of
 from planner.errors import CrossplanError
-from planner.model import Project
+from planner.model import Band, Project
 
 __all__ = ["analyse", "start_grid"]
 
@@ -59,7 +60,7 @@ def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarra
     return f[keep], np.concatenate([h, new_h], axis=1)[:, order][:, keep]
 
 
-def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
+def _sample(project: Project, designs: list[BandDesign], active: list[bool], response, point):
     """The analysis grid and every band's response on it.
 
     The starting grid (:func:`start_grid`) is evaluated; then, for at most
@@ -70,9 +71,8 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
     exact evaluation (:func:`planner.dsp.grid.zoom_extremes`) and added. The
     grid has at most :func:`planner.config.grid_cap` points.
     """
-    fs = project.sample_rate
     freqs = start_grid(project, designs)
-    h = evaluate(designs, freqs, fs).h
+    h = response(freqs)
     act = np.asarray(active, dtype=bool)
 
     def sum_db(hh):
@@ -83,7 +83,7 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
         new = dgrid.fast_cells(freqs, lv[None, :], np.array([-np.inf]))
         if not len(new):
             break
-        freqs, h = _merge(freqs, h, new, evaluate(designs, new, fs).h)
+        freqs, h = _merge(freqs, h, new, response(new))
         lv = sum_db(h)
 
     # Local extremes: candidates are (row, sign, grid index); row -1 is the sum's level (sign
@@ -106,7 +106,6 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
     lo, hi = freqs[np.maximum(idx - 1, 0)], freqs[np.minimum(idx + 1, n - 1)]
     is_sum = row < 0
     start = np.where(is_sum, lv[idx], an.db(h[np.maximum(row, 0), idx]))
-    point = point_evaluator(designs, fs)
 
     def value(c, f):
         # Every band at every trial point, by the matrix-product path: the sum candidates
@@ -121,8 +120,40 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool]):
     x = np.unique(x[(x > freqs[0]) & (x < freqs[-1])])
     x = x[~np.isin(x, freqs)]
     if len(x):
-        freqs, h = _merge(freqs, h, x, evaluate(designs, x, fs).h)
+        freqs, h = _merge(freqs, h, x, response(x))
     return freqs, h
+
+
+def _targets(project: Project, freqs: np.ndarray) -> list:
+    """Each band's target chain (its acoustic goal) on ``freqs``, or None."""
+    out = []
+    for b in project.bands:
+        if not b.target:
+            out.append(None)
+            continue
+        d = design_band(Band(b.name, filters=b.target), project.sample_rate)
+        out.append(evaluate([d], freqs, project.sample_rate).h[0])
+    return out
+
+
+def _evaluators(project: Project, designs: list[BandDesign]):
+    """(drivers or None, responses on a grid, point evaluator): electrical, or acoustic when
+    a band has a driver (:mod:`planner.engine.acoustic`)."""
+    fs = project.sample_rate
+    electrical = point_evaluator(designs, fs)
+
+    def el_response(f):
+        return evaluate(designs, f, fs).h
+
+    if not project.has_drivers:
+        return None, el_response, electrical
+    f0 = start_grid(project, designs)
+    drivers = Drivers.of(project, f0, el_response(f0))
+
+    def response(f):
+        return el_response(f) * drivers.all_bands(f)
+
+    return drivers, response, AcousticPoints(electrical, drivers)
 
 
 def analyse(project: Project, points: int | None = None) -> Report:
@@ -145,10 +176,15 @@ def analyse(project: Project, points: int | None = None) -> Report:
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
     active = project.active()
-    freqs, h = _sample(project, designs, active)
-    resp = BandResponses(freqs, h, fs, lambda: log_derivative(
-        [d.sos for d in designs], freqs, fs, [d.delay_samples for d in designs],
-        [d.fir for d in designs]))
+    drivers, response, point = _evaluators(project, designs)
+    freqs, h = _sample(project, designs, active, response, point)
+
+    def dlog():
+        out = log_derivative([d.sos for d in designs], freqs, fs,
+                             [d.delay_samples for d in designs], [d.fir for d in designs])
+        return out if drivers is None else out + drivers.log_derivative(freqs, fs)
+
+    resp = BandResponses(freqs, h, fs, dlog)
     act_idx = [i for i, on in enumerate(active) if on]
     sum_h = resp.sum(active)
     if act_idx:
@@ -162,6 +198,8 @@ def analyse(project: Project, points: int | None = None) -> Report:
         sub = resp.h[act_idx]
         # Each crossing is refined on its own two bands, at its own trial frequencies.
         point = point_evaluator([designs[i] for i in act_idx], fs)
+        if drivers is not None:
+            point = AcousticPoints(point, drivers, act_idx)
         for c in an.find_crossings(freqs, sub, evaluate=point):
             ia, ib = act_idx[c.a], act_idx[c.b]
             checked = c.level_db >= a.crossing_floor_db
@@ -170,16 +208,23 @@ def analyse(project: Project, points: int | None = None) -> Report:
                 c.phase_diff_deg, c.level_db, checked,
                 (abs(c.phase_diff_deg) <= a.phase_deg) if checked else True))
 
-    peak, peak_at = an.peak_gain(freqs, resp.h)
+    # Headroom is electrical: what the DSP's signal reaches, whatever the driver does.
+    electrical = resp.h if drivers is None else evaluate(designs, freqs, fs).h
+    peak, peak_at = an.peak_gain(freqs, electrical)
+    acoustics = (None if drivers is None else
+                 band_acoustics(drivers, project, freqs, resp.h, _targets(project, freqs)))
     bands = [BandResult(b.name, active[i], float(peak[i]), float(peak_at[i]),
                         designs[i].n_sections,
                         0 if designs[i].fir is None else len(designs[i].fir),
                         designs[i].latency_samples, 1000.0 * designs[i].latency_samples / fs,
-                        designs[i].fir_linear_phase)
+                        designs[i].fir_linear_phase,
+                        acoustic=drivers is not None and b.driver is not None,
+                        acoustics=None if acoustics is None else acoustics[i])
              for i, b in enumerate(project.bands)]
     report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
                     crossings, bands, checks=_checks(project, active, max_dev, at, ripple,
-                                                     flat_ok, crossings, bands))
+                                                     flat_ok, crossings, bands),
+                    drivers=drivers)
     report.warnings.extend(warnings_of(report))
     return report
 

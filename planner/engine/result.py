@@ -8,6 +8,7 @@ read the verdicts and never compare a figure with a limit themselves.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from functools import cached_property
 from types import MappingProxyType
 from typing import Any, Mapping
 
@@ -15,6 +16,7 @@ import numpy as np
 
 from planner import config
 from planner.dsp.response import BandResponses
+from planner.engine.acoustic import group_delay_audibility, off_axis
 from planner.engine.design import BandDesign
 from planner.model import Project
 
@@ -52,12 +54,21 @@ class BandResult:
     latency_samples: float = 0.0
     latency_ms: float = 0.0
     fir_linear_phase: bool = True
+    #: the band has a driver and the report is acoustic
+    acoustic: bool = False
+    #: the band's acoustic figures (:class:`planner.engine.acoustic.BandAcoustics`), when
+    #: the report is acoustic
+    acoustics: Any = None
 
     def to_dict(self) -> dict:
-        return {"name": self.name, "active": self.active, "peak_gain_db": self.peak_gain_db,
-                "peak_at_hz": self.peak_at_hz, "sections": self.sections,
-                "fir_taps": self.fir_taps, "latency_samples": self.latency_samples,
-                "latency_ms": self.latency_ms, "fir_linear_phase": self.fir_linear_phase}
+        d = {"name": self.name, "active": self.active, "peak_gain_db": self.peak_gain_db,
+             "peak_at_hz": self.peak_at_hz, "sections": self.sections,
+             "fir_taps": self.fir_taps, "latency_samples": self.latency_samples,
+             "latency_ms": self.latency_ms, "fir_linear_phase": self.fir_linear_phase,
+             "acoustic": self.acoustic}
+        if self.acoustics is not None:
+            d["driver"] = self.acoustics.to_dict()
+        return d
 
 
 #: How each check state reads, as text (never by colour alone): only ``fail`` says FAIL.
@@ -144,6 +155,35 @@ class Report:
     bands: list[BandResult]
     warnings: list[Warning_] = field(default_factory=list)
     checks: tuple[CheckResult, ...] = ()
+    #: the project's drivers (:class:`planner.engine.acoustic.Drivers`) when any band has
+    #: one: then ``responses`` and ``sum_h`` are the acoustic ones
+    drivers: Any = None
+
+    @property
+    def acoustic(self) -> bool:
+        """Whether the responses and the sum are acoustic (driver x filters)."""
+        return self.drivers is not None
+
+    @cached_property
+    def off_axis(self):
+        """The sum at vertical angles (:func:`planner.engine.acoustic.off_axis`), or None
+        when the report is electrical or no driver has a position."""
+        if self.drivers is None:
+            return None
+        return off_axis(self.project, self.freqs_hz, self.responses.h, self.active,
+                        self.checked_crossings)
+
+    def group_delay_audibility(self) -> list[dict]:
+        """The sum's excess group delay against audibility thresholds (information only)."""
+        return group_delay_audibility(self.freqs_hz, self.sum_group_delay_ms())
+
+    def electrical_h(self) -> np.ndarray:
+        """Every band's electrical response on the grid (the acoustic one without its driver)."""
+        if self.drivers is None:
+            return self.responses.h
+        with np.errstate(divide="ignore", invalid="ignore"):
+            d = self.drivers.all_bands(self.freqs_hz)
+            return np.where(d != 0, self.responses.h / d, 0.0)
 
     def check(self, name: str) -> CheckResult:
         """The :class:`CheckResult` called ``name`` (KeyError if there is none)."""
@@ -221,7 +261,19 @@ class Report:
             "headroom": self._headroom_dict(),
             "checks": [{"name": c.name, "state": c.state, "enforced": c.enforced}
                        for c in self.checks],
+            "acoustics": self._acoustics_dict(),
         }
+
+    def _acoustics_dict(self) -> dict | None:
+        """The acoustic sum's frame: its reference level and the information figures."""
+        if self.drivers is None:
+            return None
+        ox = self.off_axis
+        return {"reference_db": self.drivers.reference_db,
+                "auto_reference": self.drivers.auto_reference,
+                "temperature_c": self.drivers.temp_c,
+                "group_delay_audibility": self.group_delay_audibility(),
+                "off_axis": None if ox is None else ox.to_dict()}
 
     def _headroom_dict(self) -> dict:
         h = self.check("headroom")

@@ -11,6 +11,7 @@ from planner import config
 from planner import filters as fk
 from planner.engine.result import Report, Warning_
 from planner.engine.rounding import fraction_warnings
+from planner.engine.safety import driver_warnings
 from planner.units import format_hz
 
 __all__ = ["warnings_of", "LATENCY_TOL_SAMPLES"]
@@ -81,6 +82,28 @@ def _kind_warnings(r: Report) -> list[Warning_]:
             for kind, items in found.values() for w in kind.project_warnings(items)]
 
 
+def _phase_hint(r: Report, c) -> tuple[str, int]:
+    """What would bring a crossing's phase difference to 0: inverting, or a delay (with value).
+
+    A band that leads by ``phi`` degrees at ``f`` Hz lines up with the other
+    when delayed by ``phi / (360 f)`` seconds (a delay of ``t`` turns the
+    phase by ``-360 f t`` degrees, Oppenheim and Schafer sec. 2.7); the
+    phase difference is that of the first band minus the second.
+    """
+    d = c.phase_diff_deg
+    if abs(d) >= config.INVERT_HINT_DEG:
+        return "try inverting one", c.band_index[1]
+    lead = 0 if d > 0 else 1
+    i = c.band_index[lead]
+    ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
+    band = r.project.bands[i]
+    new = band.delay_ms + ms
+    return (f"band {band.name} leads by {abs(d):.0f} deg there: add delay_ms {ms:.4g} to "
+            f"{band.name}" + (f" (making it {new:.4g})" if band.delay_ms else "")
+            + " to line them up at the crossing (an all-pass at the crossing does it too, "
+            "without delaying the rest of the band)"), i
+
+
 def warnings_of(r: Report) -> list[Warning_]:
     """Plain-language warnings about the sum, the crossings, headroom and risky filters."""
     p, a = r.project, r.project.analysis
@@ -99,11 +122,8 @@ def warnings_of(r: Report) -> list[Warning_]:
             continue
         deg = abs(c.phase_diff_deg)
         where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {format_hz(c.freq_hz)}"
-        if deg >= config.INVERT_HINT_DEG:
-            hint = "try inverting one"
-        else:
-            hint = "try matching the slopes of the two filters, or adjust delay_ms"
-        out.append(Warning_(f"{where}: {hint}", band=c.band_index[1], code="phase"))
+        hint, band = _phase_hint(r, c)
+        out.append(Warning_(f"{where}: {hint}", band=band, code="phase"))
     for i in r.check("headroom").figures["over"]:
         b = r.bands[i]
         out.append(Warning_(
@@ -120,7 +140,7 @@ def warnings_of(r: Report) -> list[Warning_]:
                     "harder and eats headroom; check the manufacturer's limits",
                     band=i, filter=j, code="boost"))
         hps = [(j, f) for j, f in live if f.type == "highpass"]
-        if hps:
+        if hps and band.driver is None:    # bands with a driver: planner.engine.safety
             j, top = max(hps, key=lambda jf: jf[1].params["freq"])
             order = top.params.get("order", 2)
             if (top.params["freq"] >= config.TWEETER_HIGHPASS_HZ
@@ -131,5 +151,6 @@ def warnings_of(r: Report) -> list[Warning_]:
                     f"band {band.name} is protected only by a first-order (6 dB/octave) "
                     f"highpass at {format_hz(top.params['freq'])}: a tweeter usually needs "
                     "12 dB/octave or more", band=i, filter=j, code="shallow-highpass"))
+    out.extend(driver_warnings(r))
     out.extend(fraction_warnings(r))
     return out

@@ -14,7 +14,7 @@ from planner.filters.registry import (FilterDesign, FilterKind, KindWarning, che
                                       design, families_of, kind_of, kinds, label, lookup,
                                       register)
 # Importing the kinds registers them, in this order (forms and pick lists follow it).
-from planner.filters import iir, eq, raw, fir  # noqa: E402,F401,I001
+from planner.filters import iir, eq, raw, fir, driver  # noqa: E402,F401,I001
 
 __all__ = ["FieldSpec", "check_field", "FilterDesign", "FilterKind", "KindWarning",
            "check_params", "design", "families_of", "kind_of", "kinds", "label", "lookup",

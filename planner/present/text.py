@@ -41,6 +41,7 @@ def text_report(r: Report) -> str:
     s, x, h = r.check("sum"), r.check("crossings"), r.check("headroom")
     lines = [f"{p.name}  ({p.sample_rate / 1000:g} kHz, {len(p.bands)} bands, "
              f"{format_hz(a.f_min)} - {format_hz(a.f_max)})"]
+    lines.extend(_acoustic_head(r))
     if not s.figures["muted"]:
         f = s.figures
         lines.append(f"sum        {_state(s)} {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}"
@@ -76,6 +77,7 @@ def text_report(r: Report) -> str:
     gd = gd[np.isfinite(gd)]
     if gd.size:
         lines.append(f"delay      sum group delay {gd.min():.2f} .. {gd.max():.2f} ms")
+    lines.extend(_acoustic_info(r))
     if any(b.latency_samples for b in r.bands):
         lats = ", ".join(f"{b.name} {b.latency_samples:g}" for b in r.bands if b.active)
         lines.append(f"latency    {lats} samples; sum {r.latency_samples:g} samples "
@@ -85,9 +87,58 @@ def text_report(r: Report) -> str:
         lines.append("warnings")
         lines.extend(f"  - {w.text}" for w in r.warnings)
     lines.append(f"result     {_result(r)}")
-    if any(w.code in ("headroom", "boost", "shallow-highpass") for w in r.warnings):
+    if any(w.code in SAFETY_CODES for w in r.warnings):
         lines.append(SAFETY_NOTE)
     return "\n".join(lines)
+
+
+#: Warnings after which the report repeats the safety note.
+SAFETY_CODES = ("headroom", "boost", "shallow-highpass", "tweeter-highpass", "excursion",
+                "subsonic")
+
+
+def _acoustic_head(r: Report) -> list[str]:
+    """``acoustic   sum of driver x filters, flat to 87.0 dB (...)`` and each band's level."""
+    if not r.acoustic:
+        return []
+    d = r.drivers
+    how = "the least sensitive driver" if d.auto_reference else "acoustics.reference_db"
+    out = [f"acoustic   the sum of drivers x filters, held flat to {d.reference_db:.1f} dB "
+           f"({how}); bands without a driver count as flat"]
+    for b, band in zip(r.bands, r.project.bands):
+        ac = b.acoustics
+        if band.driver is None or ac is None:
+            continue
+        what = band.driver.model or f"file {band.driver.data.path}"
+        lv = "" if ac.level_db is None else f", level {ac.level_db:.1f} dB"
+        trim = ("" if ac.suggested_gain_db is None else
+                f", gain_db {ac.suggested_gain_db:+.1f} matches it (now {band.gain_db:+.1f})")
+        tgt = ("" if ac.target_dev_db is None else
+               f", {ac.target_dev_db:.2f} dB from its target at {format_hz(ac.target_at_hz)}")
+        out.append(f"           {b.name}: {what}{lv}{trim}{tgt}")
+    return out
+
+
+def _acoustic_info(r: Report) -> list[str]:
+    """Group delay against audibility thresholds, and the vertical listening window."""
+    if not r.acoustic:
+        return []
+    out = []
+    gda = r.group_delay_audibility()
+    if gda:
+        parts = ", ".join(f"{g['excess_ms']:+.2f} ms at {format_hz(g['freq_hz'])}"
+                          + (" (above)" if g["above"] else "") for g in gda)
+        out.append(f"           excess group delay {parts}; audibility thresholds "
+                   "(Blauert and Laws 1978) "
+                   + ", ".join(f"{g['threshold_ms']:g}" for g in gda) + " ms (information)")
+    ox = r.off_axis
+    if ox is not None:
+        lobes = "; ".join(f"{'/'.join(lb['bands'])} lobe at {lb['lobe_deg']:+.0f} deg "
+                          f"({format_hz(lb['freq_hz'])})" for lb in ox.lobes)
+        out.append(f"off-axis   within {ox.window_db:g} dB of on-axis from {ox.window_deg[0]:+.0f} "
+                   f"to {ox.window_deg[1]:+.0f} deg at {r.project.acoustics.distance_m:g} m"
+                   + (f"; {lobes}" if lobes else ""))
+    return out
 
 
 def _result(r: Report) -> str:
