@@ -74,7 +74,7 @@ def _bs_design(p, fs):
     # First-order shelf: (s / wz + 1) / (s / wp + 1), 0 dB at DC and -gain above, its
     # corners spread evenly (in log frequency) about the step.
     fc, g = baffle_step_hz(p["width_mm"]), 10.0 ** (-p["gain_db"] / 20.0)
-    wz, wp = 2 * math.pi * fc * math.sqrt(g), 2 * math.pi * fc / math.sqrt(g)
+    wz, wp = 2 * math.pi * fc / math.sqrt(g), 2 * math.pi * fc * math.sqrt(g)
     return FilterDesign(biquad.analog_section([1.0 / wz, 1.0], [1.0 / wp, 1.0], fs, fc))
 
 
