@@ -12,7 +12,7 @@ __all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
            "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS"]
 
 #: Frequency views of ``crossplan plot`` (:mod:`planner.present.plots`).
-PLOT_VIEWS = ("magnitude", "phase", "delay")
+PLOT_VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis")
 #: Views on a time axis (ms): impulse and step responses.
 TIME_VIEWS = ("impulse", "step")
 #: File formats of ``crossplan export`` (:mod:`planner.export`).

@@ -192,6 +192,9 @@ def check_driver(raw: Any, fs_hz: float, analysis: Analysis,
         missing = "breakup_db" if "breakup_hz" in params else "breakup_hz"
         raise ProjectError("missing; a break-up peak needs breakup_hz and breakup_db",
                            field=missing)
+    for sub, key in (("rolloff_order", "rolloff_hz"), ("breakup_q", "breakup_hz")):
+        if key not in params:
+            params.pop(sub, None)           # a default only where its feature is used
     bools = {k: _bool(raw, k) for k in _BOOLS}
     data = None
     if name is not None:

@@ -16,7 +16,7 @@ from planner.errors import ProjectError
 __all__ = ["DEMO", "names", "text", "describe", "title"]
 
 #: The project opened by ``crossplan`` with no file.
-DEMO = "two-way"
+DEMO = "desk-2way"
 
 
 def _folder():

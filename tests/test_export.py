@@ -536,3 +536,18 @@ def test_coefficient_exports_keep_every_band_apart(tmp_path, fmt, names):
             assert [b["name"] for b in json.loads(text)["bands"]] == names
         else:
             assert all(n in text for n in names)
+
+
+def test_manifest_records_the_driver_files_content_hashes(tmp_path):
+    # SHA-256 of the file's text (FIPS 180-4, hashlib as reference).
+    text = "# freq mag\n" + "".join(f"{f:g} 87\n" for f in (10, 100, 1000, 10000, 30000))
+    (tmp_path / "w.txt").write_text(text)
+    d = json.loads(json.dumps(EXAMPLE))
+    d["bands"][0]["driver"] = {"file": "w.txt"}
+    d["bands"][1]["driver"] = {"model": "tweeter", "fc": 900}
+    res = export.write_export(project.from_dict(d, tmp_path), [48000], "json", tmp_path / "o")
+    m = json.loads(res.manifest.read_text())
+    assert m["drivers"][0] == {"band": "woofer", "file": "w.txt",
+                               "content_hash": "sha256:" + hashlib.sha256(text.encode()).hexdigest()}
+    assert m["drivers"][1] == {"band": "tweeter", "model": "tweeter",
+                               "params": {"fc": 900.0, "q": 0.8}}

@@ -95,8 +95,8 @@ def rounding_effect(report: Report, delays_samples: Sequence[float]) -> Rounding
     sec. 2.7): the sum of the active bands is formed again and compared in
     dB with the checked sum. At each checked crossing of a band that moved,
     the responses of the bands are evaluated afresh
-    (:func:`planner.engine.evaluate` with the new delays) and the phase
-    difference taken again. All of it vectorised over frequency.
+    (:func:`planner.engine.evaluate` with the new delays, times the drivers
+    in an acoustic report) and the phase difference taken again. All of it vectorised over frequency.
     """
     fs = float(report.project.sample_rate)
     old = np.array([d.delay_samples for d in report.designs], float)
@@ -123,6 +123,8 @@ def rounding_effect(report: Report, delays_samples: Sequence[float]) -> Rounding
         designs = [replace(d, delay_samples=float(x)) for d, x in zip(report.designs, new)]
         fc = np.array([c.freq_hz for c in moved])
         hv = evaluate(designs, fc, fs).h
+        if report.drivers is not None:          # the acoustic responses: drivers too
+            hv = hv * report.drivers.all_bands(fc)
         k = np.arange(len(moved))
         ia = np.array([c.band_index[0] for c in moved])
         ib = np.array([c.band_index[1] for c in moved])

@@ -36,7 +36,7 @@ from planner.jsonio import atomic_write, atomic_write_text, dumps
 from planner.model import Project
 
 __all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "slug", "band_file_stems",
-           "RunFiles", "write_file", "write_text_file", "rate_text", "content_hash",
+           "RunFiles", "write_file", "write_text_file", "rate_text", "content_hash", "driver_records",
            "ExportResult", "coefficient_text", "write_export"]
 
 
@@ -170,6 +170,24 @@ def write_text_file(path: Path, text: str) -> None:
 def rate_text(fs_hz: float) -> str:
     """A rate as written in file names: ``48000``, ``44100``, ``22050.5`` as ``22050p5``."""
     return str(int(fs_hz)) if float(fs_hz).is_integer() else repr(float(fs_hz)).replace(".", "p")
+
+
+def driver_records(project: Project) -> list[dict]:
+    """The drivers the checks were made with: per band its model, or its file and content hash.
+
+    A measurement file can change under the same name; its SHA-256 (FIPS
+    180-4) ties an export to the data it was checked against.
+    """
+    out = []
+    for b in project.bands:
+        d = b.driver
+        if d is None:
+            continue
+        if d.data is not None:
+            out.append({"band": b.name, "file": d.data.path, "content_hash": d.data.sha256})
+        else:
+            out.append({"band": b.name, "model": d.model, "params": dict(d.params)})
+    return out
 
 
 def content_hash(project: Project) -> str:
@@ -311,6 +329,7 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
         "fractional_delay": fractional_delay if fmt == "wav" else "exact",
         "rates": [rate_value(r) for r in uniq],
         "files": [p.name for p in files],
+        "drivers": driver_records(project),
         "checks": rate_entries,
     }
     text = dumps(manifest, indent=1)

@@ -80,9 +80,11 @@ def text_report(r: Report) -> str:
     lines.extend(_acoustic_info(r))
     if any(b.latency_samples for b in r.bands):
         lats = ", ".join(f"{b.name} {b.latency_samples:g}" for b in r.bands if b.active)
+        fir = any(b.fir_taps for b in r.bands if b.active)
         lines.append(f"latency    {lats} samples; sum {r.latency_samples:g} samples "
                      f"({r.latency_ms:.2f} ms), "
-                     + ("bands aligned" if r.latencies_agree else "bands NOT aligned"))
+                     + (("bands aligned" if r.latencies_agree else "bands NOT aligned")
+                        if fir else "the bands' delays"))
     if r.warnings:
         lines.append("warnings")
         lines.extend(f"  - {w.text}" for w in r.warnings)

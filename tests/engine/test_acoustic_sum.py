@@ -180,3 +180,16 @@ def test_the_lobe_tilts_as_the_path_geometry_says():
 def test_no_positions_no_off_axis_view():
     r = engine.analyse(project.from_dict(_two_way({"model": "flat"}, {"model": "flat"})))
     assert r.off_axis is None
+
+
+def test_the_cost_of_rounding_a_delay_is_acoustic_too():
+    # 0.48 samples of the tweeter's delay rounded away turn the crossing by
+    # 360 f (0.48 / fs) deg (the delay property), drivers or not.
+    d = _two_way({"model": "tweeter", "fc": 500, "q": 0.7}, {"model": "flat"})
+    d["bands"][1]["delay_ms"] = 0.48 / FS * 1000
+    r = engine.analyse(project.from_dict(d))
+    w = next(w.text for w in r.warnings if w.code == "fractional-delay")
+    c = r.checked_crossings[0]
+    expect = -360 * c.freq_hz * 0.48 / FS
+    got = float(w.split("changes by ")[1].split(" deg")[0])
+    assert got == pytest.approx(expect, abs=0.15)
