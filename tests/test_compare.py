@@ -370,3 +370,16 @@ class TestEndOfRange:
         d = project.to_dict(two_way_preset)
         d["bands"][0]["filters"][0]["bypass"] = True
         assert compare.end_of_range(project.from_dict(d)) == [set(), set()]
+
+
+def test_builds_sum_acoustically_when_bands_have_drivers():
+    # The all-IIR build of a project that is already IIR is the project itself: its sum's
+    # deviation equals the check's, which is acoustic (a closed box woofer rolls it off).
+    d = two_way(4, fc=2000.0)
+    d["analysis"]["f_min"] = 20
+    d["bands"][0]["driver"] = {"model": "closed-box", "fc": 80, "qtc": 0.7}
+    p = project.from_dict(d)
+    r = engine.analyse(p)
+    c = compare.compare_project(p)
+    assert c.iir_sum.max_dev_db == pytest.approx(r.max_dev_db, abs=1e-9)
+    assert r.max_dev_db < -10        # 20 Hz, two octaves under an 80 Hz closed box

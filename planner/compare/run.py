@@ -216,7 +216,11 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
 
 def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComparison],
            family: str) -> Build:
-    """Every band's crossover replaced by its ``family`` side; EQ, gain, delay, polarity kept."""
+    """Every band's crossover replaced by its ``family`` side; EQ, gain, delay, polarity kept.
+
+    With drivers the build's sum is acoustic (each band times its driver), as
+    the check's.
+    """
     fs = float(project.sample_rate)
     missing = [b.name for b in bands if b.status == NOT_MET]
     if missing:
@@ -251,7 +255,10 @@ def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComp
     if not any(active):
         return Build(family, True, [], None, None, None, lat, 1000.0 * lat / fs, align,
                      inverted, designs)
-    h = engine.evaluate(designs, rep.freqs_hz, fs).sum(active)
+    bands_h = engine.evaluate(designs, rep.freqs_hz, fs).h
+    if rep.drivers is not None:          # the acoustic sum, as the check's
+        bands_h = bands_h * rep.drivers.all_bands(rep.freqs_hz)
+    h = bands_h[np.asarray(active, dtype=bool)].sum(axis=0)
     dev, at, ripple = an.flatness(rep.freqs_hz, h)
     return Build(family, True, [], dev, at, ripple, lat, 1000.0 * lat / fs, align, inverted,
                  designs)

@@ -105,8 +105,7 @@ def _acoustic_head(r: Report) -> list[str]:
         return []
     d = r.drivers
     how = "the least sensitive driver" if d.auto_reference else "acoustics.reference_db"
-    out = [f"acoustic   the sum of drivers x filters, held flat to {d.reference_db:.1f} dB "
-           f"({how}); bands without a driver count as flat"]
+    out = [f"acoustic   drivers x filters, held flat to {d.reference_db:.1f} dB ({how})"]
     for b, band in zip(r.bands, r.project.bands):
         ac = b.acoustics
         if band.driver is None or ac is None:
@@ -128,11 +127,10 @@ def _acoustic_info(r: Report) -> list[str]:
     out = []
     gda = r.group_delay_audibility()
     if gda:
-        parts = ", ".join(f"{g['excess_ms']:+.2f} ms at {format_hz(g['freq_hz'])}"
-                          + (" (above)" if g["above"] else "") for g in gda)
-        out.append(f"           excess group delay {parts}; audibility thresholds "
-                   "(Blauert and Laws 1978) "
-                   + ", ".join(f"{g['threshold_ms']:g}" for g in gda) + " ms (information)")
+        parts = ", ".join(f"{format_hz(g['freq_hz'])} {g['excess_ms']:+.2f}"
+                          + ("!" if g["above"] else "") + f"/{g['threshold_ms']:g}" for g in gda)
+        out.append(f"           excess group delay/audible (ms, Blauert and Laws 1978; "
+                   f"information): {parts}")
     ox = r.off_axis
     if ox is not None:
         lobes = "; ".join(f"{'/'.join(lb['bands'])} lobe at {lb['lobe_deg']:+.0f} deg "
