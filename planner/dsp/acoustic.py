@@ -44,14 +44,15 @@ from dataclasses import dataclass
 import numpy as np
 
 # The slope bounds stay public constants here as well, outside __all__.
-from planner.dsp.minphase import (HIGH_SLOPE_DB_OCT, LOW_SLOPE_DB_OCT, edge_slopes_db_per_octave,
+from planner.dsp.minphase import (HIGH_SLOPE_DB_OCT, LOW_SLOPE_DB_OCT,  # noqa: F401
+                                  edge_slopes_db_per_octave,
                                   extended_db, minimum_phase_deg)
 from planner.errors import DesignError
 
 __all__ = [
     "speed_of_sound_m_s", "offset_delay_s", "closed_box", "vented_box", "rolloff",
     "breakup", "B4_Q", "minimum_phase_deg", "interpolate_response", "Interpolated",
-    "edge_slopes_db_per_octave", "off_axis_paths",
+    "edge_slopes_db_per_octave", "off_axis_paths", "ResponseTable",
 ]
 
 #: Q of the two second-order sections of a fourth-order Butterworth highpass: the B4
@@ -222,49 +223,76 @@ class Interpolated:
     extrapolated_above_hz: float | None = None
 
 
+@dataclass(frozen=True)
+class ResponseTable:
+    """A measured response ready to be read at any frequencies (see :func:`interpolate_response`).
+
+    Everything that depends on the data alone (log frequencies, the unwrapped
+    phase, the edge slopes) is worked out once; a lookup is then a few
+    vectorised ``numpy.interp`` calls.
+    """
+
+    log2_f: np.ndarray
+    mag_db: np.ndarray
+    phase_rad: np.ndarray
+    low_slope: float
+    high_slope: float
+
+    @classmethod
+    def of(cls, freqs_hz, mag_db, phase_deg) -> "ResponseTable":
+        f = np.asarray(freqs_hz, dtype=float)
+        m = np.asarray(mag_db, dtype=float)
+        lo, hi = edge_slopes_db_per_octave(f, m)
+        return cls(np.log2(f), m, np.unwrap(np.radians(np.asarray(phase_deg, dtype=float))),
+                   lo, hi)
+
+    def __call__(self, to_hz, extrapolate: bool = False, field: str = "driver") -> Interpolated:
+        t = np.asarray(to_hz, dtype=float)
+        lf, p = self.log2_f, self.phase_rad
+        f_lo, f_hi = 2.0 ** lf[0], 2.0 ** lf[-1]
+        t_lo, t_hi = (float(t.min()), float(t.max())) if t.size else (f_lo, f_hi)
+        below, above = t_lo < f_lo * (1 - 1e-9), t_hi > f_hi * (1 + 1e-9)
+        if (below or above) and not extrapolate:
+            raise DesignError(
+                f"the data covers {f_lo:g} .. {f_hi:g} Hz but the analysis needs {t_lo:g} .. "
+                f"{t_hi:g} Hz; measure a wider range, narrow the analysis range, or allow "
+                "extrapolation", field=field)
+        lt = np.log2(t)
+        mag = np.interp(lt, lf, self.mag_db)
+        ph = np.interp(lt, lf, p)
+        if below:
+            sel = lt < lf[0]
+            mag[sel] = self.mag_db[0] + self.low_slope * (lt[sel] - lf[0])
+            ph[sel] = p[0] + (p[1] - p[0]) / (lf[1] - lf[0]) * (lt[sel] - lf[0])
+        if above:
+            sel = lt > lf[-1]
+            mag[sel] = self.mag_db[-1] + self.high_slope * (lt[sel] - lf[-1])
+            ph[sel] = p[-1] + (p[-1] - p[-2]) / (lf[-1] - lf[-2]) * (lt[sel] - lf[-1])
+        return Interpolated(10.0 ** (mag / 20.0) * np.exp(1j * ph), t_lo if below else None,
+                            t_hi if above else None)
+
+
 def interpolate_response(freqs_hz, mag_db, phase_deg, to_hz, extrapolate: bool = False,
                          field: str = "driver") -> Interpolated:
-    """A measured response on another grid: log frequency, magnitude in dB, unwrapped phase.
+    """A measured response on other frequencies: log frequency, magnitude in dB, unwrapped phase.
 
     Parameters
     ----------
     freqs_hz, mag_db, phase_deg : array_like
         The data (increasing frequencies); ``phase_deg`` may be wrapped.
     to_hz : array_like
-        The grid.
+        The frequencies (in any order).
     extrapolate : bool
-        Allow grid points outside the data's range: the magnitude follows the
+        Allow frequencies outside the data's range: the magnitude follows the
         slope of the data's outer third of an octave, the phase its outer two
-        points' trend. Otherwise such a grid is refused.
+        points' trend. Otherwise they are refused.
 
     Raises
     ------
     DesignError
-        A grid beyond the data (without ``extrapolate``), naming both ranges.
+        Frequencies beyond the data (without ``extrapolate``), naming both ranges.
     """
-    f = np.asarray(freqs_hz, dtype=float)
-    m = np.asarray(mag_db, dtype=float)
-    p = np.unwrap(np.radians(np.asarray(phase_deg, dtype=float)))
-    t = np.asarray(to_hz, dtype=float)
-    below = t[0] < f[0] * (1 - 1e-9)
-    above = t[-1] > f[-1] * (1 + 1e-9)
-    if (below or above) and not extrapolate:
-        raise DesignError(
-            f"the data covers {f[0]:g} .. {f[-1]:g} Hz but the analysis needs {t[0]:g} .. "
-            f"{t[-1]:g} Hz; measure a wider range, narrow the analysis range, or allow "
-            "extrapolation", field=field)
-    lo, hi = edge_slopes_db_per_octave(f, m)
-    mag = extended_db(f, m, t, lo, hi)
-    lt, lf = np.log2(t), np.log2(f)
-    ph = np.interp(lt, lf, p)
-    if below:
-        k = (p[1] - p[0]) / (lf[1] - lf[0])
-        ph = np.where(t < f[0], p[0] + k * (lt - lf[0]), ph)
-    if above:
-        k = (p[-1] - p[-2]) / (lf[-1] - lf[-2])
-        ph = np.where(t > f[-1], p[-1] + k * (lt - lf[-1]), ph)
-    return Interpolated(10.0 ** (mag / 20.0) * np.exp(1j * ph),
-                        float(t[0]) if below else None, float(t[-1]) if above else None)
+    return ResponseTable.of(freqs_hz, mag_db, phase_deg)(to_hz, extrapolate, field)
 
 
 # ---------------------------------------------------------------------------

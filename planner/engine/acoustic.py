@@ -43,11 +43,12 @@ _DERIV_STEP = 1e-4
 
 
 @lru_cache(maxsize=64)
-def _phase_of(data: Measured, min_phase: bool) -> tuple:
-    """The phase (deg) a measured driver is analysed with: measured, or derived (cached)."""
-    if data.phase_deg is not None and not min_phase:
-        return tuple(np.asarray(data.phase_deg, dtype=float))
-    return tuple(minimum_phase_deg(data.freqs_hz, data.mag_db))
+def _table_of(data: Measured, min_phase: bool) -> ac.ResponseTable:
+    """A measured driver ready to read: its phase measured, or derived from the magnitude by
+    Bode's relation where the file has none or ``min_phase`` asks (cached per file)."""
+    phase = (data.phase_deg if data.phase_deg is not None and not min_phase
+             else minimum_phase_deg(data.freqs_hz, data.mag_db))
+    return ac.ResponseTable.of(data.freqs_hz, data.mag_db, phase)
 
 
 def _model_response(driver: Driver, freqs_hz: np.ndarray) -> np.ndarray:
@@ -77,9 +78,7 @@ def driver_response(driver: Driver, freqs_hz, temp_c: float = 20.0) -> np.ndarra
     """
     f = np.asarray(freqs_hz, dtype=float)
     if driver.data is not None:
-        d = driver.data
-        h = ac.interpolate_response(d.freqs_hz, d.mag_db, _phase_of(d, driver.min_phase), f,
-                                    extrapolate=driver.extrapolate, field="file").h
+        h = _table_of(driver.data, driver.min_phase)(f, driver.extrapolate, "file").h
     else:
         h = _model_response(driver, f) * 10.0 ** (driver.params.get("sensitivity_db", 0.0) / 20)
     if driver.offset_mm:
