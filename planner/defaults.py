@@ -9,7 +9,8 @@ like start at once.
 from __future__ import annotations
 
 __all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
-           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS"]
+           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS", "ALIGN_VARIABLES", "ALIGN_DEFAULT",
+           "FIT_BANKS", "FIT_LIMIT_DB"]
 
 #: Frequency views of ``crossplan plot`` (:mod:`planner.present.plots`).
 PLOT_VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis")
@@ -30,3 +31,13 @@ COMPARE_ATTEN_DB = 60.0
 IIR_FAMILIES = ("auto", "butterworth", "elliptic")
 #: Longest FIR the fewest-tap searches try unless told otherwise (taps).
 MAX_TAPS = 8191
+
+#: What ``crossplan align`` may change (:mod:`planner.solve.alignment`): band
+#: delays, polarities, level trims, crossover frequencies, all-pass frequencies.
+ALIGN_VARIABLES = ("delay", "invert", "gain", "freq", "allpass")
+#: What it changes unless told otherwise.
+ALIGN_DEFAULT = ("delay", "invert")
+#: Banks of peaking filters ``crossplan fit --bank`` adds (ISO 266 centres).
+FIT_BANKS = ("octave", "third-octave")
+#: Gain limit of a fitted filter, either way (dB).
+FIT_LIMIT_DB = 12.0

@@ -29,6 +29,8 @@ References
    third-octaves).
 .. [3] R. Bristow-Johnson, "Audio EQ Cookbook", W3C Working Group Note,
    2021 (bandwidth in octaves and Q: ``1/Q = 2 sinh(ln(2)/2 * BW)``).
+.. [4] A. N. Tikhonov and V. Y. Arsenin, "Solutions of Ill-Posed Problems",
+   Winston, 1977 (the regularised least squares of :func:`fit_gains`).
 """
 
 from __future__ import annotations
@@ -42,7 +44,8 @@ from scipy import optimize
 from planner.errors import DesignError
 
 __all__ = ["ISO_THIRD_OCTAVE_HZ", "ISO_OCTAVE_HZ", "band_centres_hz", "q_of_bandwidth",
-           "FitResult", "fit_gains", "minimax_gains", "linearised", "db"]
+           "FitResult", "fit_gains", "minimax_gains", "linearised", "db", "log_weights",
+           "evaluate"]
 
 #: ISO 266 nominal third-octave centres from 20 Hz to 20 kHz (preferred numbers, R10).
 ISO_THIRD_OCTAVE_HZ = (20, 25, 31.5, 40, 50, 63, 80, 100, 125, 160, 200, 250, 315, 400, 500,
@@ -107,6 +110,28 @@ class FitResult:
     method: str
 
 
+def log_weights(freqs_hz) -> np.ndarray:
+    """Weights of a grid's points by log-frequency spacing (trapezoid), summing to one:
+    every octave counts alike however the points are spread."""
+    f = np.asarray(freqs_hz, dtype=float)
+    if len(f) < 2 or not np.log(f[-1] / f[0]) > 0:
+        return np.full(len(f), 1.0 / max(len(f), 1))
+    d = np.diff(np.log(f))
+    w = np.zeros(len(f))
+    w[:-1] += d / 2
+    w[1:] += d / 2
+    return w / w.sum()
+
+
+def evaluate(level_db: Callable, gains_db, target_db, freqs_hz, weights, lo, hi,
+             method: str) -> FitResult:
+    """The :class:`FitResult` of given gains (limits ``lo``, ``hi`` name those at a limit)."""
+    return _result(level_db, np.asarray(gains_db, float), np.asarray(target_db, float),
+                   np.asarray(freqs_hz, float), np.asarray(weights, float),
+                   np.broadcast_to(lo, np.shape(gains_db)), np.broadcast_to(hi, np.shape(gains_db)),
+                   method)
+
+
 def _result(level_db: Callable, gains, target_db, freqs_hz, weights, lo, hi, method):
     err = level_db(gains) - target_db
     w = weights / weights.sum()
@@ -167,8 +192,11 @@ def _check(freqs_hz, target_db, weights, n, bounds_db):
 
 
 def fit_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target_db,
-              start_db, bounds_db=(-12.0, 12.0), weights=None, jacobian=None) -> FitResult:
+              start_db, bounds_db=(-12.0, 12.0), weights=None, jacobian=None,
+              ridge: float = 0.0) -> FitResult:
     """Gains (dB) within bounds that make ``level_db(gains)`` follow ``target_db``.
+
+    Minimises ``sum_f w_f (level_f - target_f)^2 + ridge * sum_k g_k^2``.
 
     Parameters
     ----------
@@ -184,6 +212,10 @@ def fit_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target_db,
     jacobian : callable, optional
         ``gains -> (m, n)`` derivatives of the level; by central differences
         of ``level_db`` when not given.
+    ridge : float
+        Weight of the gains' own size (Tikhonov regularisation, [4]_):
+        keeps a gain that barely changes the level near 0 dB instead
+        of letting it drift to a limit. 0: plain least squares.
 
     Returns
     -------
@@ -192,16 +224,20 @@ def fit_gains(level_db: Callable[[np.ndarray], np.ndarray], freqs_hz, target_db,
     """
     g0 = np.asarray(start_db, dtype=float)
     f, t, w, lo, hi = _check(freqs_hz, target_db, weights, len(g0), bounds_db)
-    sw = np.sqrt(w)
+    sw, sr = np.sqrt(w), np.sqrt(max(float(ridge), 0.0))
+    eye = sr * np.eye(len(g0))
     base, jac = linearised(level_db, np.clip(g0, lo, hi), jacobian=jacobian)
-    lin = optimize.lsq_linear(jac * sw[:, None], (t - base + jac @ np.clip(g0, lo, hi)) * sw,
+    lin = optimize.lsq_linear(np.vstack([jac * sw[:, None], eye]),
+                              np.r_[(t - base + jac @ np.clip(g0, lo, hi)) * sw,
+                                    np.zeros(len(g0))],
                               bounds=(lo, hi), method="bvls")
     start = np.clip(lin.x, lo, hi)
 
     def resid(g):
-        return (level_db(g) - t) * sw
+        return np.r_[(level_db(g) - t) * sw, sr * g]
 
-    jac_fn = "2-point" if jacobian is None else (lambda g: np.asarray(jacobian(g)) * sw[:, None])
+    jac_fn = "2-point" if jacobian is None else (
+        lambda g: np.vstack([np.asarray(jacobian(g)) * sw[:, None], eye]))
     sol = optimize.least_squares(resid, start, jac=jac_fn, bounds=(lo, hi), method="trf",
                                  x_scale=1.0, diff_step=1e-4, max_nfev=50 * max(1, len(g0)))
     best = sol.x if np.sum(resid(sol.x) ** 2) <= np.sum(resid(start) ** 2) else start
