@@ -14,19 +14,19 @@ from __future__ import annotations
 import json
 import math
 import os
+from dataclasses import replace
 from pathlib import Path
 from typing import Any, Mapping
 
-from planner import drivers
+from planner import drivers, presets
 from planner import filters as fk
-from planner import presets
 from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectError
 from planner.jsonio import atomic_write_text
 from planner.model import FORMAT, VERSION, Acoustics, Analysis, Band, Filter, Project
 
-__all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "save", "check_filter",
-           "check_band", "atomic_write_text"]
+__all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "save", "rebased",
+           "check_filter", "check_band", "atomic_write_text"]
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands"}
 _ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
@@ -340,3 +340,24 @@ def load(path: str | os.PathLike) -> Project:
 def save(project: Project, path: str | os.PathLike) -> None:
     """Write a project file atomically (see :func:`atomic_write_text`)."""
     atomic_write_text(path, dumps(project))
+
+
+def rebased(project: Project, folder: str | os.PathLike) -> Project:
+    """The project as it must be written into ``folder``: driver files named relative to
+    the project's own folder are renamed relative to ``folder``, so they are still found.
+
+    Absolute names, and projects not read from a file, are left as they are.
+    """
+    if project.source_dir is None:
+        return project
+    src, dst = Path(project.source_dir).resolve(), Path(folder).resolve()
+    if src == dst:
+        return project
+    bands = []
+    for b in project.bands:
+        name = None if b.driver is None else b.driver.raw.get("file")
+        if isinstance(name, str) and not Path(name).is_absolute():
+            moved = Path(os.path.relpath(src / name, dst)).as_posix()
+            b = replace(b, driver=replace(b.driver, raw={**b.driver.raw, "file": moved}))
+        bands.append(b)
+    return replace(project, bands=tuple(bands), source_dir=str(dst))

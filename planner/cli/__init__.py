@@ -38,6 +38,8 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "render": ("planner.cli.render", "run audio or a test signal through the bands, to WAV files"),
     "measure": ("planner.cli.measure", "a frequency response from a recorded sweep (Farina)"),
     "compare": ("planner.cli.compare", "IIR versus FIR per band for the same magnitude spec"),
+    "align": ("planner.cli.solve", "search band delays, polarities and trims for a flat sum"),
+    "fit": ("planner.cli.solve", "solve EQ or band gains so the sum follows a target curve"),
 }
 
 
