@@ -28,7 +28,7 @@ LAYERS: list[tuple[int, tuple[str, ...]]] = [
     (1, ("planner.dsp",)),
     (2, ("planner.model",)),
     (3, ("planner.filters",)),
-    (4, ("planner.project", "planner.drivers")),
+    (4, ("planner.project", "planner.drivers", "planner.targets")),
     (5, ("planner.engine",)),
     (6, ("planner.edits", "planner.history", "planner.timeresp", "planner.crossovers",
          "planner.audio.wav")),

@@ -40,7 +40,7 @@ from planner.dsp import fit as dfit
 from planner.dsp.response import sos_response
 from planner.errors import ProjectError
 from planner.model import Filter, Project
-from planner.solve.targets import Target
+from planner.targets import Target
 from planner.units import format_hz
 
 __all__ = ["EQ_TYPES", "BANKS", "DEFAULT_LIMIT_DB", "Fit", "fit", "add_bank", "free_filters"]

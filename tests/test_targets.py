@@ -1,4 +1,4 @@
-"""Target curves (planner.solve.targets).
+"""Target curves (planner.targets).
 
 References: the Audio EQ Cookbook (W3C Working Group Note, 2021) low shelf with S = 1,
 whose level is the full gain far below its frequency, half the gain (in dB) at it and
