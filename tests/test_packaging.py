@@ -5,6 +5,9 @@ A plain ``pip install .`` (as CI does) installs only the packages listed in
 checkout and be missing when installed.
 """
 
+import os
+import subprocess
+import sys
 import tomllib
 from pathlib import Path
 
@@ -16,4 +19,17 @@ def test_every_package_folder_is_listed():
     listed = set(conf["tool"]["setuptools"]["packages"])
     found = {".".join(p.parent.relative_to(ROOT).parts) for p in (ROOT / "planner").rglob("__init__.py")}
     assert found - listed == set(), f"not in pyproject.toml: {sorted(found - listed)}"
-    assert "planner.presets" in listed            # the preset files, from presets/
+    assert "planner.preset_files" in listed       # the preset files, from presets/
+
+
+def test_installed_copy_reads_its_presets(tmp_path):
+    # Run outside the checkout, so the installed package (CI: a plain
+    # ``pip install .``) is imported, not this folder: its presets must be there.
+    code = ("import planner, planner.presets as p; from planner import project; "
+            "print(planner.__file__); print(len(p.names())); "
+            "print(project.load_preset(p.DEMO).name)")
+    env = {k: v for k, v in os.environ.items() if k != "PYTHONPATH"}
+    out = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, env=env,
+                         capture_output=True, text=True, check=True).stdout.splitlines()
+    assert int(out[1]) == len(list((ROOT / "presets").glob("*.json")))
+    assert out[2]
