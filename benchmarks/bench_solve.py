@@ -17,6 +17,12 @@ Run:  python benchmarks/bench_solve.py
 
 from __future__ import annotations
 
+import os
+
+# One BLAS thread unless set (as the crossplan command does; see DEVELOPERS.md), before numpy.
+for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+    os.environ.setdefault(_var, "1")
+
 import time
 
 import numpy as np
