@@ -416,7 +416,7 @@ class Opened(NamedTuple):
     """A project file as read: the project, the file's fingerprint and the loader's notices."""
 
     project: Project
-    fingerprint: Fingerprint
+    fingerprint: Fingerprint | None   # None for a project not read from a file
     notices: tuple[str, ...]
 
 
