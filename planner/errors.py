@@ -14,6 +14,7 @@ __all__ = [
     "SpecNotMetError",
     "ExportError",
     "DesignCancelled",
+    "ProjectChangedError",
 ]
 
 
@@ -74,3 +75,27 @@ class DesignCancelled(DesignError):
     Raised through :mod:`planner.progress` when the command line gets Ctrl-C
     or the editor's user presses Escape; no filter was made.
     """
+
+
+class ProjectChangedError(ProjectError):
+    """The project file changed on disk since it was loaded, so saving would lose that change.
+
+    Raised by :func:`planner.project.save` when given the fingerprint taken at
+    load (``expect``) and the file now differs; nothing is written. The
+    caller decides: save anyway (``force``), save elsewhere, or leave it.
+
+    Attributes
+    ----------
+    path : str
+        The file.
+    expected, found
+        The fingerprints (:class:`planner.project.Fingerprint`) taken at
+        load and now; ``found`` is None when the file is gone.
+    """
+
+    def __init__(self, message: str, field: str | None = "file", path: str = "",
+                 expected=None, found=None):
+        super().__init__(message, field)
+        self.path = path
+        self.expected = expected
+        self.found = found

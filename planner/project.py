@@ -11,22 +11,32 @@ field is the path of the bad value, e.g.
 
 from __future__ import annotations
 
+import copy
+import hashlib
 import json
 import math
 import os
-from dataclasses import replace
+from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any, Mapping
+from typing import Any, Callable, Mapping, NamedTuple
 
 from planner import drivers, presets
 from planner import filters as fk
 from planner.dsp.fixed import parse_arith
-from planner.errors import CrossplanError, ProjectError
-from planner.jsonio import atomic_write_text
+from planner.errors import CrossplanError, ProjectChangedError, ProjectError
+from planner.jsonio import atomic_write_bytes, atomic_write_text, backup_path
 from planner.model import FORMAT, VERSION, Acoustics, Analysis, Band, Filter, Project
 
-__all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "save", "rebased",
-           "check_filter", "check_band", "atomic_write_text"]
+__all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "read", "save",
+           "rebased", "check_filter", "check_band", "atomic_write_text", "Fingerprint",
+           "fingerprint", "Opened", "MIGRATIONS", "oldest_version", "migrate", "backup_path"]
+
+#: Steps that bring an older file up to date: ``MIGRATIONS[n]`` takes the parsed JSON of a
+#: version-``n`` file and returns it as version ``n + 1`` (a new dict, unknown keys kept).
+#: Version 1 is the first version of the format, so there is no step yet; the next change
+#: of the format adds ``MIGRATIONS[1]`` and raises :data:`planner.model.VERSION` to 2.
+MIGRATIONS: dict[int, Callable[[dict], dict]] = {}
+
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands"}
 _ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
@@ -198,12 +208,63 @@ def _acoustics(raw: Mapping) -> Acoustics:
     )
 
 
-def from_dict(raw: Any, base_dir: str | os.PathLike | None = None) -> Project:
+def oldest_version() -> int:
+    """The oldest format version this crossplan reads (and migrates, :data:`MIGRATIONS`)."""
+    v = VERSION
+    while v - 1 in MIGRATIONS:
+        v -= 1
+    return v
+
+
+def migrate(raw: Mapping[str, Any], notices: list[str] | None = None) -> dict:
+    """The parsed JSON of a project file brought to the current format :data:`VERSION`.
+
+    A file of an older version goes through the :data:`MIGRATIONS` steps in
+    memory (the file itself is not touched; saving writes the current
+    version) and one line saying so is appended to ``notices``. A newer
+    version, or one that is not a whole number, is refused naming the field
+    ``version``, the value and the versions this crossplan reads.
+
+    Raises
+    ------
+    ProjectError
+        ``version: 3 is newer than this crossplan reads (1); ...``.
+    """
+    version = raw.get("version")
+    if isinstance(version, bool) or not isinstance(version, int):
+        raise ProjectError(f"must be a whole number, not {version!r}", field="version")
+    if version > VERSION:
+        raise ProjectError(f"{version} is newer than this crossplan reads ({VERSION}); "
+                           "update crossplan to open it", field="version")
+    oldest = oldest_version()
+    if version < oldest:
+        if version < 1:
+            raise ProjectError(f"{version} is not a valid version (1 or later)",
+                               field="version")
+        raise ProjectError(f"{version} is older than this crossplan reads ({oldest} to "
+                           f"{VERSION})", field="version")
+    out = dict(raw)
+    if version == VERSION:
+        return out
+    out = copy.deepcopy(out)
+    for v in range(version, VERSION):
+        out = MIGRATIONS[v](out)
+        out["version"] = v + 1
+    if notices is not None:
+        notices.append(f"version: the file is format version {version}; read as version "
+                       f"{VERSION} in memory (the file is unchanged until it is saved, "
+                       f"which writes version {VERSION})")
+    return out
+
+
+def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
+              notices: list[str] | None = None) -> Project:
     """Check a project's JSON form (already parsed) and return the :class:`Project`.
 
     Every field is checked, nothing is designed (see :func:`check_filter`).
     Driver files are read relative to ``base_dir`` (the project file's
-    folder; default: the current folder).
+    folder; default: the current folder). A file of an older format version
+    is migrated first (:func:`migrate`), with a line appended to ``notices``.
 
     Raises
     ------
@@ -215,14 +276,7 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None) -> Project:
     if fmt != FORMAT:
         raise ProjectError(f"must be {FORMAT!r}, not {fmt!r} (is this a crossplan project?)",
                            field="format")
-    version = raw.get("version")
-    if isinstance(version, bool) or not isinstance(version, int):
-        raise ProjectError(f"must be a whole number, not {version!r}", field="version")
-    if version > VERSION:
-        raise ProjectError(f"{version} is newer than this crossplan reads ({VERSION}); "
-                           "update crossplan to open it", field="version")
-    if version < 1:
-        raise ProjectError(f"{version} is not a valid version (1 or later)", field="version")
+    raw = migrate(raw, notices)
     name = raw.get("name", "untitled")
     if not isinstance(name, str):
         raise ProjectError(f"must be a string, not {name!r}", field="name")
@@ -303,7 +357,8 @@ def to_dict(project: Project) -> dict:
     return out
 
 
-def loads(text: str, base_dir: str | os.PathLike | None = None) -> Project:
+def loads(text: str, base_dir: str | os.PathLike | None = None,
+          notices: list[str] | None = None) -> Project:
     """Parse and check a project from JSON text (see :func:`from_dict`)."""
     try:
         raw = json.loads(text)
@@ -312,7 +367,7 @@ def loads(text: str, base_dir: str | os.PathLike | None = None) -> Project:
                            field="file") from None
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
-    return from_dict(raw, base_dir)
+    return from_dict(raw, base_dir, notices)
 
 
 def load_preset(name: str) -> Project:
@@ -325,21 +380,121 @@ def dumps(project: Project) -> str:
     return json.dumps(to_dict(project), indent=2, ensure_ascii=False) + "\n"
 
 
-def load(path: str | os.PathLike) -> Project:
-    """Read and check a project file (see :func:`from_dict`)."""
+@dataclass(frozen=True)
+class Fingerprint:
+    """What a file was when it was read: its size in bytes, its mtime (ns) and its SHA-256.
+
+    Two fingerprints name the same content when size and hash agree; the
+    mtime is kept for messages (a file saved again with the same bytes is
+    not a change that a save would lose).
+    """
+
+    size: int
+    mtime_ns: int
+    sha256: str
+
+    @classmethod
+    def of(cls, data: bytes, mtime_ns: int) -> "Fingerprint":
+        return cls(len(data), mtime_ns, hashlib.sha256(data).hexdigest())
+
+    def same_content(self, other: "Fingerprint | None") -> bool:
+        return other is not None and (self.size, self.sha256) == (other.size, other.sha256)
+
+
+def fingerprint(path: str | os.PathLike) -> Fingerprint | None:
+    """The :class:`Fingerprint` of the file at ``path`` now, or None when there is none."""
+    try:
+        with open(path, "rb") as fh:
+            st = os.fstat(fh.fileno())
+            data = fh.read()
+    except (FileNotFoundError, IsADirectoryError, NotADirectoryError):
+        return None
+    return Fingerprint.of(data, st.st_mtime_ns)
+
+
+class Opened(NamedTuple):
+    """A project file as read: the project, the file's fingerprint and the loader's notices."""
+
+    project: Project
+    fingerprint: Fingerprint | None   # None for a project not read from a file
+    notices: tuple[str, ...]
+
+
+def read(path: str | os.PathLike) -> Opened:
+    """Read and check a project file, with the fingerprint of the bytes read (for
+    :func:`save`'s ``expect``) and the notices of the load (an older format version)."""
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        with open(p, "rb") as fh:
+            st = os.fstat(fh.fileno())
+            data = fh.read()
+        text = data.decode("utf-8")
     except FileNotFoundError:
         raise ProjectError(f"no such file: {str(p)!r}", field="file") from None
     except (OSError, UnicodeDecodeError) as e:
         raise ProjectError(f"cannot read {str(p)!r}: {e}", field="file") from None
-    return loads(text, p.resolve().parent)
+    notices: list[str] = []
+    proj = loads(text, p.resolve().parent, notices)
+    return Opened(proj, Fingerprint.of(data, st.st_mtime_ns), tuple(notices))
 
 
-def save(project: Project, path: str | os.PathLike) -> None:
-    """Write a project file atomically (see :func:`atomic_write_text`)."""
-    atomic_write_text(path, dumps(project))
+def load(path: str | os.PathLike, notices: list[str] | None = None) -> Project:
+    """Read and check a project file (see :func:`from_dict`); an older format version's
+    notice is appended to ``notices``."""
+    opened = read(path)
+    if notices is not None:
+        notices.extend(opened.notices)
+    return opened.project
+
+
+def save(project: Project, path: str | os.PathLike, expect: Fingerprint | None = None,
+         force: bool = False, backup: bool = True) -> Fingerprint:
+    """Write a project file atomically and return the fingerprint of what was written.
+
+    The write goes through a temporary file of the same folder, flushed and
+    renamed (:func:`planner.jsonio.atomic_write`). With ``backup`` (the
+    default) the version the file held before, when there was one and it
+    differs, is kept as ``<name>.bak`` beside it (:func:`backup_path`).
+
+    Parameters
+    ----------
+    project : Project
+        What to write.
+    path : str or PathLike
+        The file.
+    expect : Fingerprint, optional
+        The fingerprint taken when the file was loaded (:func:`read`). When
+        the file's content now differs (another program or session saved
+        it), or the file is gone, nothing is written and
+        :class:`~planner.errors.ProjectChangedError` is raised, unless
+        ``force``.
+    force : bool
+        Write even when the file changed since ``expect``.
+    backup : bool
+        Keep the previous version as ``<name>.bak``.
+
+    Raises
+    ------
+    ProjectChangedError
+        ``file: 'p.json' changed on disk since it was loaded ...``.
+    """
+    p = Path(path)
+    if expect is not None and not force:
+        now = fingerprint(p)
+        if not expect.same_content(now):
+            what = ("is gone" if now is None else
+                    f"changed on disk since it was loaded ({expect.size} -> {now.size} bytes, "
+                    f"sha256 {expect.sha256[:12]} -> {now.sha256[:12]})")
+            raise ProjectChangedError(f"{str(p)!r} {what}; not saved (save anyway, or save "
+                                      "as another file)", path=str(p), expected=expect,
+                                      found=now)
+    data = dumps(project).encode("utf-8")
+    atomic_write_bytes(p, data, backup=backup)
+    try:
+        mtime_ns = os.stat(p).st_mtime_ns
+    except OSError:
+        mtime_ns = 0
+    return Fingerprint.of(data, mtime_ns)
 
 
 def rebased(project: Project, folder: str | os.PathLike) -> Project:

@@ -32,21 +32,41 @@ def positive_number(unit: str):
     return parse
 
 
+def open_project(path: str | None, design: bool = True):
+    """Load ``path`` (or the demo when None) as a :class:`planner.project.Opened`: the project,
+    the fingerprint of the bytes read (None for the demo) and the loader's notices (a file
+    of an older format version is migrated in memory and says so).
+
+    With ``design`` every filter is designed at once (see :func:`load_project`).
+    """
+    # The core is imported when a command runs, not when the parser is built (start-up).
+    from planner import engine, project
+
+    if path is None:
+        opened = project.Opened(project.load_preset(presets.DEMO), None, ())
+    else:
+        opened = project.read(path)
+    if design:
+        engine.design_project(opened.project)
+    return opened
+
+
 def load_project(path: str | None, design: bool = True) -> Project:
     """Load ``path``, or the built-in demo project when ``path`` is None.
 
     With ``design`` (the default) every filter is designed at once
     (:func:`planner.engine.design_project`), so that one that cannot be made
     is refused before the command works; ``design=False`` leaves that to the
-    analysis (the editor, which designs in a worker with progress).
+    analysis (the editor, which designs in a worker with progress). The
+    loader's notices (an older format version, migrated in memory) are
+    printed on stderr, one line each.
     """
-    # The core is imported when a command runs, not when the parser is built (start-up).
-    from planner import engine, project
+    import sys
 
-    proj = project.load_preset(presets.DEMO) if path is None else project.load(path)
-    if design:
-        engine.design_project(proj)
-    return proj
+    opened = open_project(path, design)
+    for line in opened.notices:
+        print(f"crossplan: notice: {line}", file=sys.stderr)
+    return opened.project
 
 
 class ProgressBar:
