@@ -116,7 +116,7 @@ def _run(args) -> int:
         wav.check_finite(info, "input")
         x, fs_in = info.read(), info.fs_hz
         fs = render.same_rate_or_refuse(fs_in, rates)
-        stem = Path(args.input).stem
+        stem = export.short_stem(Path(args.input).stem)
     rx = export.export_rate(proj, fs, args.arith)
     bad = [b for b in rx.bands if not b.arith.ok]
     if bad:
