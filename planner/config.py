@@ -133,3 +133,19 @@ LOW_BOOST_DB = 3.0
 SUBSONIC_FRACTION = 0.5
 #: A break-up peak higher than this (dB) with no cut near it gets a notch suggested.
 BREAKUP_WARN_DB = 3.0
+
+
+# --- measurement (planner.dsp.measure.check_recording) -----------------------------------
+#: A sweep shorter than this many seconds is refused: it puts too little energy in each
+#: frequency for a response above the noise (common practice, no published source; sweeps
+#: of one to several seconds are usual).
+MEASURE_MIN_SWEEP_S = 0.1
+#: A recording whose peak is below this many dBFS is taken as silent and refused: it is
+#: below one step of 16-bit audio (20 log10(2**-15) = -90.3 dBFS).
+MEASURE_SILENT_DBFS = -90.0
+#: Samples this close to full scale (|x| >= 1 - MEASURE_CLIP_MARGIN) count as clipped.
+MEASURE_CLIP_MARGIN = 1.0 / 32768.0
+#: A gate longer than this many ms after the peak keeps the room's reflections in most
+#: rooms (a reflection path 34 m longer than the direct one arrives 100 ms later; common
+#: practice, no published source).
+MEASURE_GATE_REFLECTIONS_MS = 100.0

@@ -18,6 +18,7 @@ the previous version, when there was one and it differs, as
 
 from __future__ import annotations
 
+import errno
 import json
 import math
 import os
@@ -29,7 +30,7 @@ from typing import Any, Callable
 
 __all__ = ["atomic_write", "atomic_write_text", "atomic_write_bytes", "backup_path",
            "stale_temps", "remove_stale_temps", "temp_pattern", "STALE_TEMP_S", "finite",
-           "dumps"]
+           "dumps", "os_error_text", "make_folder"]
 
 #: Age in seconds after which a left-over temporary file of a target is removed by the next
 #: write of that target. A save takes milliseconds, so a temporary file this old belongs to
@@ -118,6 +119,48 @@ def _new_temp(p: Path) -> str:
     raise FileExistsError(f"no free temporary name beside {str(p)!r}")
 
 
+#: Plain words for the file-system errors a command can meet (errno name -> reason).
+_OS_REASONS = {
+    "EISDIR": "is a folder, where a file is expected",
+    "ENOTDIR": "a part of the path is a file, where a folder is expected",
+    "ENOENT": "no such file or folder",
+    "EEXIST": "exists already",
+    "EACCES": "permission denied",
+    "EPERM": "permission denied",
+    "EROFS": "the file system is read-only",
+    "ENOSPC": "no space left on the device",
+    "EDQUOT": "the disk quota is used up",
+    "ENAMETOOLONG": "the name is too long for the file system",
+    "EMFILE": "too many open files",
+}
+
+
+def os_error_text(e: OSError) -> str:
+    """One line for a file-system error: the path(s) and the reason in plain words."""
+    own = e.strerror and e.errno and e.strerror != os.strerror(e.errno)
+    reason = (e.strerror if own else
+              _OS_REASONS.get(errno.errorcode.get(e.errno or 0, ""), e.strerror or str(e)))
+    paths = [str(f) for f in (e.filename, e.filename2) if f is not None]
+    where = " -> ".join(repr(p) for p in paths)
+    return f"{where}: {reason}" if where else reason
+
+
+def make_folder(path: str | os.PathLike) -> Path:
+    """Make the folder ``path`` (and its parents) if missing; an OSError names it and says why.
+
+    A file standing where the folder should be is :class:`NotADirectoryError`
+    (``mkdir`` says only that it exists).
+    """
+    p = Path(path)
+    if p.exists() and not p.is_dir():
+        raise NotADirectoryError(errno.ENOTDIR, "is a file, where a folder is expected", str(p))
+    try:
+        p.mkdir(parents=True, exist_ok=True)
+    except OSError as e:
+        raise type(e)(e.errno, e.strerror, str(p)) from None
+    return p
+
+
 def atomic_write(path: str | os.PathLike, write: Callable[[str], None]) -> None:
     """Make ``path`` by ``write(tmp)`` into a temporary file of the same folder, then rename.
 
@@ -127,22 +170,31 @@ def atomic_write(path: str | os.PathLike, write: Callable[[str], None]) -> None:
     the old file's permissions (0644 for a new one); on any failure the
     temporary file is removed and the error raised. Stale temporary files of
     ``path`` left by a writer that was killed are removed first
-    (:func:`remove_stale_temps`).
+    (:func:`remove_stale_temps`). A file-system error (:class:`OSError`) is
+    raised again naming ``path`` (not the temporary file), as a folder where
+    the file should be (:class:`IsADirectoryError`) when ``path`` is one.
     """
     p = Path(path)
+    if p.is_dir():
+        raise IsADirectoryError(errno.EISDIR, os.strerror(errno.EISDIR), str(p))
     remove_stale_temps(p)
-    tmp = _new_temp(p)
+    try:
+        tmp = _new_temp(p)
+    except OSError as e:
+        raise type(e)(e.errno, e.strerror, str(p)) from None
     try:
         write(tmp)
         with open(tmp, "rb") as fh:
             os.fsync(fh.fileno())
         os.chmod(tmp, p.stat().st_mode & 0o7777 if p.exists() else 0o644)
         os.replace(tmp, p)
-    except BaseException:
+    except BaseException as e:
         try:
             os.unlink(tmp)
         except FileNotFoundError:
             pass
+        if isinstance(e, OSError) and e.filename == tmp and e.errno is not None:
+            raise type(e)(e.errno, e.strerror, str(p)) from None
         raise
     _fsync_folder(_folder(p))
 

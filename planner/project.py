@@ -57,8 +57,13 @@ def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit=""
     v = d[key]
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         raise ProjectError(f"must be a number, not {v!r}", field=key)
-    if not math.isfinite(v):
-        raise ProjectError(f"must be a finite number, not {v!r}", field=key)
+    try:
+        finite = math.isfinite(v)
+    except OverflowError:              # an integer too large for a float
+        finite = False
+    if not finite:
+        text = repr(v) if len(repr(v)) < 40 else f"{repr(v)[:20]}... (too large)"
+        raise ProjectError(f"must be a finite number, not {text}", field=key)
     u = f" {unit}" if unit else ""
     if lo is not None and (v <= lo if lo_open else v < lo):
         raise ProjectError(f"{v:g}{u} must be {'above' if lo_open else 'at least'} {lo:g}{u}",
@@ -367,7 +372,46 @@ def loads(text: str, base_dir: str | os.PathLike | None = None,
                            field="file") from None
     except RecursionError:
         raise ProjectError("not valid JSON: nested too deeply", field="file") from None
+    _check_text(raw)
     return from_dict(raw, base_dir, notices)
+
+
+def _check_text(raw: Any) -> None:
+    """Refuse text that cannot be written back as UTF-8 (a lone surrogate such as ``\\ud800``).
+
+    JSON's ``\\uXXXX`` escapes can spell half of a surrogate pair, which is no
+    character: it could be neither printed nor saved. The error names the
+    first field holding one.
+    """
+    try:
+        json.dumps(raw, ensure_ascii=False).encode("utf-8")
+        return
+    except UnicodeEncodeError:
+        pass
+
+    def bad(s: str) -> bool:
+        try:
+            s.encode("utf-8")
+            return False
+        except UnicodeEncodeError:
+            return True
+
+    def walk(v: Any, path: str) -> None:
+        if isinstance(v, str) and bad(v):
+            shown = v.encode("utf-8", "backslashreplace").decode("utf-8")
+            raise ProjectError(f"'{shown[:60]}' holds a lone surrogate (half of a UTF-16 pair), which is no "
+                               "character; write the character itself", field=path or "file")
+        if isinstance(v, dict):
+            for k, x in v.items():
+                here = f"{path}.{k}" if path else str(k)
+                if bad(k):
+                    walk(k, path or "file")
+                walk(x, here)
+        elif isinstance(v, list):
+            for i, x in enumerate(v):
+                walk(x, f"{path}[{i}]")
+
+    walk(raw, "")
 
 
 def load_preset(name: str) -> Project:

@@ -39,6 +39,7 @@ from planner.dsp.signals import fft_convolve
 from planner.engine.delays import BandDelay, DelayPlan, plan_delays
 from planner.errors import ExportError
 from planner.export import BandExport, RateExport
+from planner.jsonio import make_folder, os_error_text
 
 __all__ = ["render_band", "render", "Rendered", "BLOCK_SAMPLES", "same_rate_or_refuse",
            "out_path"]
@@ -157,9 +158,8 @@ def same_rate_or_refuse(fs_hz: float, rates) -> float:
 
 def out_path(out_dir, name: str) -> Path:
     """``out_dir/name``, making the folder."""
-    p = Path(out_dir)
     try:
-        p.mkdir(parents=True, exist_ok=True)
+        p = make_folder(out_dir)
     except OSError as e:
-        raise ExportError(f"cannot make the folder {str(p)!r}: {e}", field="out") from None
+        raise ExportError(f"cannot make the folder {os_error_text(e)}", field="out") from None
     return p / name

@@ -34,6 +34,7 @@ import sys  # noqa: E402
 
 from planner import __version__
 from planner.errors import CrossplanError
+from planner.jsonio import os_error_text
 
 __all__ = ["main", "console_main", "COMMANDS", "EXIT_OK", "EXIT_FAIL", "EXIT_INVALID"]
 
@@ -88,8 +89,42 @@ def build_parser(command: str | None = None) -> argparse.ArgumentParser:
     return parser
 
 
+def _quiet_encoding_errors() -> None:
+    """Print what cannot be encoded as backslash escapes instead of failing on it."""
+    for stream in (sys.stdout, sys.stderr):
+        reconfigure = getattr(stream, "reconfigure", None)
+        if reconfigure is not None:
+            try:
+                reconfigure(errors="backslashreplace")
+            except (ValueError, OSError):   # a stream that cannot change any more
+                pass
+
+
 def main(argv: list[str] | None = None) -> int:
-    """Run ``crossplan`` with ``argv`` (without the program name); return the exit code."""
+    """Run ``crossplan`` with ``argv`` (without the program name); return the exit code.
+
+    Every error a user can cause ends in one line on stderr and an exit code:
+    :class:`~planner.errors.CrossplanError` and file-system errors
+    (:class:`OSError`: the path and the reason) exit 2, Ctrl-C 130 (also
+    during start-up), a closed pipe 0.
+    """
+    _quiet_encoding_errors()
+    try:
+        return _main(argv)
+    except CrossplanError as e:
+        print(f"crossplan: {e}", file=sys.stderr)
+        return EXIT_INVALID
+    except KeyboardInterrupt:
+        print("crossplan: interrupted", file=sys.stderr)
+        return 130
+    except BrokenPipeError:
+        return EXIT_OK
+    except OSError as e:
+        print(f"crossplan: {os_error_text(e)}", file=sys.stderr)
+        return EXIT_INVALID
+
+
+def _main(argv: list[str] | None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
     names = set(COMMANDS)
     # ``crossplan`` and ``crossplan FILE`` open the editor.
@@ -106,18 +141,14 @@ def main(argv: list[str] | None = None) -> int:
     if args.command is None:
         parser.print_help()
         return EXIT_OK
-    try:
-        return int(importlib.import_module(args._module).run(args))
-    except CrossplanError as e:
-        print(f"crossplan: {e}", file=sys.stderr)
-        return EXIT_INVALID
-    except KeyboardInterrupt:
-        print("crossplan: interrupted", file=sys.stderr)
-        return 130
-    except BrokenPipeError:
-        return EXIT_OK
+    return int(importlib.import_module(args._module).run(args))
 
 
 def console_main() -> None:
     """Entry point of the ``crossplan`` console script."""
-    sys.exit(main())
+    try:
+        code = main()
+    except KeyboardInterrupt:       # between the last check and the exit
+        print("crossplan: interrupted", file=sys.stderr)
+        code = 130
+    sys.exit(code)

@@ -11,6 +11,7 @@ from ``--f1`` and ``--f2``.
 from __future__ import annotations
 
 import json
+import sys
 from pathlib import Path
 
 from planner.errors import CrossplanError
@@ -35,21 +36,69 @@ def add_arguments(p, name):
     p.add_argument("--channel", type=int, default=0, help="recording channel, from 0 (default 0)")
 
 
-def _band(args):
+def _number(v, where: str, what: str) -> float:
+    """``v`` as a float if it is a finite JSON number above 0, else a CrossplanError at ``where``."""
+    import math
+
+    if isinstance(v, bool) or not isinstance(v, (int, float)):
+        raise CrossplanError(f"expected {what}, got {json.dumps(v)[:80]}", field=where)
+    try:
+        f = float(v)
+    except OverflowError:
+        f = math.inf
+    if not math.isfinite(f) or f <= 0:
+        raise CrossplanError(f"expected {what} (finite, above 0), got {str(v)[:40]}",
+                             field=where)
+    return f
+
+
+def _sidecar(side: Path) -> dict:
+    """The sweep's JSON sidecar as a dict, refused with the file's name when it is not one."""
+    try:
+        meta = json.loads(side.read_text(encoding="utf-8"))
+    except UnicodeDecodeError:
+        raise CrossplanError("not UTF-8 text", field=str(side)) from None
+    except ValueError as e:
+        raise CrossplanError(f"not JSON: {e}", field=str(side)) from None
+    except OSError as e:
+        raise CrossplanError(f"cannot read it: {e.strerror or e}", field=str(side)) from None
+    if not isinstance(meta, dict):
+        raise CrossplanError(f"expected an object with f1_hz and f2_hz, got a "
+                             f"{type(meta).__name__ if meta is not None else 'null'}",
+                             field=str(side))
+    return meta
+
+
+def _band(args, fs: float):
+    """The sweep's (f1, f2) in Hz: the flags, else the sidecar; checked against the rate ``fs``."""
     f1, f2 = args.f1, args.f2
     side = Path(args.sweep).with_suffix(".json")
-    if (f1 is None or f2 is None) and side.exists():
-        try:
-            meta = json.loads(side.read_text(encoding="utf-8"))
-            f1 = meta["f1_hz"] if f1 is None else f1
-            f2 = meta["f2_hz"] if f2 is None else f2
-        except (OSError, ValueError, KeyError, TypeError) as e:
-            raise CrossplanError(f"cannot read f1_hz and f2_hz from {str(side)!r}: {e}",
-                                 field="sweep") from None
+    where = {"f1": "f1", "f2": "f2"}
+    if (f1 is None or f2 is None) and side.is_file():
+        meta = _sidecar(side)
+        for key in ("f1_hz", "f2_hz"):
+            if key not in meta and (args.f1 if key == "f1_hz" else args.f2) is None:
+                raise CrossplanError(f"{key}: missing (expected a number in Hz)",
+                                     field=str(side))
+        if f1 is None:
+            f1, where["f1"] = meta["f1_hz"], f"{side}: f1_hz"
+        if f2 is None:
+            f2, where["f2"] = meta["f2_hz"], f"{side}: f2_hz"
+        rate = meta.get("sample_rate")
+        if rate is not None and _number(rate, f"{side}: sample_rate", "a number in Hz") != fs:
+            raise CrossplanError(f"the sidecar says {float(rate):g} Hz but the sweep is at "
+                                 f"{fs:g} Hz", field=f"{side}: sample_rate")
     if f1 is None or f2 is None:
         raise CrossplanError(f"no {side.name} beside the sweep: give --f1 and --f2 (Hz)",
                              field="sweep")
-    return float(f1), float(f2)
+    f1 = _number(f1, where["f1"], "a number in Hz")
+    f2 = _number(f2, where["f2"], "a number in Hz")
+    if f2 <= f1:
+        raise CrossplanError(f"{f2:g} Hz must be above f1 ({f1:g} Hz)", field=where["f2"])
+    if f2 > fs / 2:
+        raise CrossplanError(f"{f2:g} Hz is above Nyquist ({fs / 2:g} Hz) for the sweep's "
+                             f"{fs:g} Hz", field=where["f2"])
+    return f1, f2
 
 
 def _mono(x, channel, field):
@@ -61,22 +110,35 @@ def _mono(x, channel, field):
     return x[:, channel]
 
 
+def _read(path, field):
+    """A WAV file as float64 samples and its rate; its header notes printed as warnings."""
+    # The numerical core is imported when the command runs (start-up time).
+    from planner.audio import wav
+
+    info = wav.open_wav(path)
+    for note in info.notes:
+        print(f"warning: {note}", file=sys.stderr)
+    wav.check_finite(info, field)
+    return info.read(), info.fs_hz
+
+
 def run(args) -> int:
     # The numerical core is imported when the command runs (start-up time).
     import numpy as np
-    from planner.audio.wav import read_wav
     from planner.dsp import measure
 
-    f1, f2 = _band(args)
-    rec, fs = read_wav(args.recording)
-    sweep, fs_s = read_wav(args.sweep)
+    rec, fs = _read(args.recording, "recording")
+    sweep, fs_s = _read(args.sweep, "sweep")
     if fs != fs_s:
         raise CrossplanError(f"the recording is at {fs:g} Hz but the sweep at {fs_s:g} Hz",
                              field="recording")
+    f1, f2 = _band(args, fs_s)
     rec = _mono(rec, args.channel, "channel")
     sweep = _mono(sweep, 0, "sweep")
     if args.points < 2:
         raise CrossplanError(f"must be 2 or more, not {args.points}", field="points")
+    for w in measure.check_recording(rec, sweep, fs, args.pre_ms, args.gate_ms):
+        print(f"warning: {w}", file=sys.stderr)
     fade = min(1.0, args.gate_ms) if args.fade_ms is None else args.fade_ms
     ir = measure.deconvolve_sweep(rec, sweep, fs, f1, f2, method=args.method)
     g = measure.gate(ir, fs, args.pre_ms, args.gate_ms, fade)

@@ -110,9 +110,13 @@ def _run(args) -> int:
             signal_files.append((run.claim(p.with_suffix(".json"), f"the {stem} parameters"),
                                  None, meta))
     else:
-        x, fs_in = wav.read_wav(args.input)
+        info = wav.open_wav(args.input)
+        for note in info.notes:
+            print(f"warning: {note}", file=sys.stderr)
+        wav.check_finite(info, "input")
+        x, fs_in = info.read(), info.fs_hz
         fs = render.same_rate_or_refuse(fs_in, rates)
-        stem = Path(args.input).stem
+        stem = export.short_stem(Path(args.input).stem)
     rx = export.export_rate(proj, fs, args.arith)
     bad = [b for b in rx.bands if not b.arith.ok]
     if bad:

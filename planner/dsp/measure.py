@@ -33,11 +33,13 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import fft as sfft
 
+from planner import config
 from planner.dsp.response_text import Response, format_response_text, parse_response_text
 from planner.dsp.signals import check_band, half_hann, inverse_of_sweep, sweep_rate
 from planner.errors import CrossplanError
 
 __all__ = [
+    "check_recording",
     "deconvolve_sweep",
     "harmonic_delay_s",
     "Gated",
@@ -61,6 +63,66 @@ def _signal_1d(x, field: str) -> np.ndarray:
     if a.ndim != 1 or len(a) < 2 or not np.all(np.isfinite(a)):
         raise CrossplanError("must be a 1-D array of 2 or more finite samples", field=field)
     return a
+
+
+def check_recording(recording, sweep, fs_hz: float, pre_ms: float, gate_ms: float) -> list[str]:
+    """Refuse a recording or sweep nothing can be measured from; warn of doubtful ones.
+
+    Refused (:class:`~planner.errors.CrossplanError`): a sweep shorter than
+    :data:`planner.config.MEASURE_MIN_SWEEP_S`, a recording shorter than the
+    sweep (the deconvolution needs the whole sweep), a silent recording (peak
+    below :data:`planner.config.MEASURE_SILENT_DBFS`). Warned (the returned
+    lines): samples at full scale (clipping adds harmonics and, once they fold
+    back, errors in the linear response), a recording ending before the gate
+    does (the gate is then shorter than asked), and a gate longer than
+    :data:`planner.config.MEASURE_GATE_REFLECTIONS_MS` (reflections kept).
+
+    Parameters
+    ----------
+    recording, sweep : ndarray
+        1-D float samples in [-1, 1].
+    fs_hz : float
+        Sample rate, Hz.
+    pre_ms, gate_ms : float
+        The gate: kept before and after the peak, ms.
+
+    Returns
+    -------
+    list of str
+        Warnings, in plain words (empty when there is nothing to say).
+    """
+    rec = np.asarray(recording, dtype=float)
+    x = np.asarray(sweep, dtype=float)
+    fs = float(fs_hz)
+    min_n = int(np.ceil(config.MEASURE_MIN_SWEEP_S * fs))
+    if len(x) < min_n:
+        raise CrossplanError(f"{len(x)} samples ({len(x) / fs * 1000:.3g} ms) is too short "
+                             f"for a measurement: at least {min_n} samples "
+                             f"({config.MEASURE_MIN_SWEEP_S:g} s) at {fs:g} Hz", field="sweep")
+    if len(rec) < len(x):
+        raise CrossplanError(f"{len(rec)} samples ({len(rec) / fs:.3g} s) is shorter than the "
+                             f"sweep ({len(x)} samples, {len(x) / fs:.3g} s): record the whole "
+                             "sweep and its tail", field="recording")
+    peak = float(np.max(np.abs(rec)))
+    peak_db = 20.0 * np.log10(peak) if peak > 0 else -np.inf
+    if peak_db < config.MEASURE_SILENT_DBFS:
+        shown = "all zero" if peak == 0 else f"peak {peak_db:.1f} dBFS"
+        raise CrossplanError(f"silent ({shown}, below {config.MEASURE_SILENT_DBFS:g} dBFS): "
+                             "check the microphone and the input gain", field="recording")
+    warnings = []
+    clipped = int(np.count_nonzero(np.abs(rec) >= 1.0 - config.MEASURE_CLIP_MARGIN))
+    if clipped:
+        warnings.append(f"recording: {clipped} sample(s) at full scale (clipped?): the "
+                        "harmonics it adds spoil the response; record quieter")
+    tail_ms = (len(rec) - len(x)) / fs * 1000.0
+    if gate_ms > config.MEASURE_GATE_REFLECTIONS_MS:
+        warnings.append(f"gate_ms: {gate_ms:g} ms after the peak keeps the room's reflections "
+                        f"(above {config.MEASURE_GATE_REFLECTIONS_MS:g} ms); the result is a "
+                        "room response, not the speaker's")
+    if gate_ms > tail_ms:
+        warnings.append(f"gate_ms: {gate_ms:g} ms runs past the end of the recording (it "
+                        f"goes on {tail_ms:.0f} ms after the sweep); the gate is cut there")
+    return warnings
 
 
 def harmonic_delay_s(order: int, f1_hz: float, f2_hz: float, duration_s: float) -> float:

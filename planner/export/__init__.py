@@ -43,7 +43,7 @@ References
 .. [3] FIPS PUB 180-4, "Secure Hash Standard", NIST, 2015 (SHA-256).
 """
 
-from planner.export.files import (MANIFEST_FORMAT, MAX_SLUG_CHARS, RESERVED_STEMS, ExportResult, RunFiles, band_file_stems,
+from planner.export.files import (MANIFEST_FORMAT, MAX_SLUG_CHARS, RESERVED_STEMS, ExportResult, RunFiles, band_file_stems, short_stem,
                                   content_hash, rate_text, slug, write_export, write_file,
                                   write_text_file)
 from planner.export.formats import (FORMAT, FORMATS, VERSION, WAV_FLOOR_DB, arith_dict,
@@ -54,7 +54,7 @@ from planner.export.rate import (SECTION_MODES, BandExport, RateExport, export_r
 from planner.export.recheck import (ERROR_FLOOR_DB, MAX_DEVIATION_DB, RANGE_DB, RECHECK_POINTS,
                                     ArithResult, shown_against)
 
-__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "ExportResult", "RunFiles", "band_file_stems", "content_hash",
+__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "ExportResult", "RunFiles", "band_file_stems", "short_stem", "content_hash",
            "rate_text", "slug", "write_export", "write_file", "write_text_file", "FORMAT",
            "FORMATS", "VERSION", "WAV_FLOOR_DB", "arith_dict", "arith_text",
            "band_impulse_response", "to_csv_text", "to_json_dict", "to_text", "SECTION_MODES",

@@ -32,10 +32,10 @@ from planner.errors import ExportError
 from planner.export.formats import (FORMATS, band_impulse_response, denominator_text,
                                     to_csv_text, to_json_dict, to_text)
 from planner.export.rate import RateExport, check_rate, export_rate, rate_value
-from planner.jsonio import atomic_write, atomic_write_text, dumps
+from planner.jsonio import atomic_write, atomic_write_text, dumps, make_folder, os_error_text
 from planner.model import Project
 
-__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "slug", "band_file_stems",
+__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "MAX_STEM_BYTES", "short_stem", "RESERVED_STEMS", "slug", "band_file_stems",
            "RunFiles", "write_file", "write_text_file", "rate_text", "content_hash", "driver_records",
            "ExportResult", "coefficient_text", "write_export"]
 
@@ -66,6 +66,26 @@ def slug(text: str, fallback: str = "project", max_chars: int = MAX_SLUG_CHARS) 
     s = re.sub(r"[^a-z0-9]+", "-", plain.lower()).strip("-")
     s = s[:max(1, int(max_chars))].strip("-")
     return s or fallback
+
+
+#: Longest file stem taken from a user's file name (bytes of UTF-8): with a band's slug, the
+#: dashes and the extension the whole name stays below the 255 bytes most file systems allow.
+MAX_STEM_BYTES = 120
+
+
+def short_stem(stem: str, max_bytes: int = MAX_STEM_BYTES) -> str:
+    """``stem`` itself when it fits in ``max_bytes`` of UTF-8, else its start and a short hash.
+
+    The cut keeps whole characters and ends in ``-`` and the first 8 hex digits
+    of the SHA-256 of the whole stem, so two long stems alike in their start
+    stay apart and the same stem always gives the same name.
+    """
+    raw = stem.encode("utf-8", "surrogateescape")
+    if len(raw) <= max_bytes:
+        return stem
+    digest = hashlib.sha256(raw).hexdigest()[:8]
+    head = raw[:max_bytes - 9].decode("utf-8", "ignore")
+    return f"{head}-{digest}"
 
 
 def band_file_stems(names: Sequence[str], reserved: Sequence[str] = RESERVED_STEMS) -> list[str]:
@@ -155,7 +175,7 @@ def write_file(path: Path, write) -> None:
     try:
         atomic_write(Path(path), write)
     except OSError as e:
-        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
+        raise ExportError(f"cannot write {os_error_text(e)}", field="out") from None
 
 
 def write_text_file(path: Path, text: str) -> None:
@@ -164,7 +184,7 @@ def write_text_file(path: Path, text: str) -> None:
     try:
         atomic_write_text(path, text)
     except OSError as e:
-        raise ExportError(f"cannot write {str(path)!r}: {e.strerror or e}", field="out") from None
+        raise ExportError(f"cannot write {os_error_text(e)}", field="out") from None
 
 
 def rate_text(fs_hz: float) -> str:
@@ -295,9 +315,9 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
             plans.append(None)
     mpath = run.claim(out / f"{base}-manifest.json", "the manifest")
     try:
-        out.mkdir(parents=True, exist_ok=True)
+        make_folder(out)
     except OSError as e:
-        raise ExportError(f"cannot make the folder {str(out)!r}: {e}", field="out") from None
+        raise ExportError(f"cannot make the folder {os_error_text(e)}", field="out") from None
     files: list[Path] = []
     rate_entries, notes = [], []
     for rx, paths, plan in zip(exports, band_files, plans):

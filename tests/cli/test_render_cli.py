@@ -181,3 +181,40 @@ def test_render_guard_stops_a_colliding_run(write_project, tmp_path, capsys, mon
     assert re.search(r"impulse-sum\.wav' would be written twice in one run, for band 'a' and "
                      r"for the sum", err), err
     assert not (tmp_path / "o").exists()
+
+
+def test_render_refuses_nan_input_and_writes_nothing(write_project, tmp_path, capsys):
+    x = np.random.default_rng(3).uniform(-0.5, 0.5, 48000).astype(np.float32)
+    x[1000:1100] = np.nan
+    wavfile.write(tmp_path / "nan.wav", 48000, x)
+    out = tmp_path / "out"
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "nan.wav"),
+                 "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and not out.exists()
+    assert (f"crossplan: input: '{tmp_path / 'nan.wav'}': 100 sample(s) are not finite (NaN "
+            "or infinite), the first at sample 1000 of channel 0") in err
+
+
+def test_render_truncated_header_one_line(write_project, tmp_path, capsys):
+    wavfile.write(tmp_path / "ok.wav", 48000, np.zeros(100, dtype=np.float32))
+    (tmp_path / "cut.wav").write_bytes((tmp_path / "ok.wav").read_bytes()[:30])
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "cut.wav"),
+                 "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "cannot read" in err and "fmt chunk is cut short" in err
+
+
+def test_render_header_longer_than_data_warns_in_its_own_words(write_project, tmp_path, capsys):
+    import struct
+
+    wavfile.write(tmp_path / "ok.wav", 48000, np.zeros(4800, dtype=np.float32))
+    b = bytearray((tmp_path / "ok.wav").read_bytes())
+    i = b.find(b"data")
+    b[i + 4:i + 8] = struct.pack("<I", 10 * len(b))
+    (tmp_path / "long.wav").write_bytes(bytes(b))
+    assert main(["render", str(write_project(two_way())), str(tmp_path / "long.wav"),
+                 "--out", str(tmp_path / "out")]) == 0
+    err = capsys.readouterr().err
+    assert "WavFileWarning" not in err and "warning: " in err and "the data chunk says" in err
+    assert wavfile.read(tmp_path / "out" / "long-sum.wav")[1].shape == (4800,)

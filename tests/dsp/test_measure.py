@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
+from planner.dsp import measure
 from planner.dsp.measure import deconvolve_sweep, gate, harmonic_delay_s, ir_to_response
 from planner.dsp.response_text import format_response_text, parse_response_text
 from planner.dsp.signals import exp_sweep, white_noise
@@ -199,3 +200,17 @@ def test_ir_to_response_above_nyquist_raises():
 def test_measure_argument_errors(call, match):
     with pytest.raises(CrossplanError, match=match):
         call()
+
+
+def test_check_recording_silence_below_one_16bit_step_refused():
+    # -90 dBFS is just below one step of 16-bit audio (2**-15 = -90.3 dBFS); common practice.
+    sweep = np.ones(48000) * 0.1
+    rec = np.full(48000, 10 ** (-95 / 20))
+    with pytest.raises(CrossplanError, match=r"recording: silent \(peak -95.0 dBFS"):
+        measure.check_recording(rec, sweep, 48000, 1.0, 5.0)
+
+
+def test_check_recording_plain_recording_has_no_warning():
+    sweep = np.sin(np.arange(48000) * 0.01) * 0.5
+    rec = np.concatenate([sweep, np.zeros(4800)])
+    assert measure.check_recording(rec, sweep, 48000, 1.0, 5.0) == []
