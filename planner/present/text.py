@@ -11,7 +11,7 @@ from planner import config
 from planner.engine import Report
 from planner.units import format_hz
 
-__all__ = ["text_report", "compare_text", "SAFETY_NOTE"]
+__all__ = ["text_report", "compare_text", "SAFETY_NOTE", "failure_summary"]
 
 
 SAFETY_NOTE = (
@@ -151,6 +151,34 @@ def _result(r: Report) -> str:
     if warned:
         return f"ok: all checks pass ({', '.join(warned)}: warning only, not enforced)"
     return "ok: all checks pass"
+
+
+def failure_summary(r: Report) -> str:
+    """The failing checks of ``r`` in one phrase, with their figures (empty when none fails).
+
+    ``sum +1.42 dB at 2.2 kHz (limit +/-1 dB); crossing woofer/tweeter at
+    2.2 kHz 180.0 deg apart (limit 20 deg)``: for the one final line of
+    ``crossplan export``.
+    """
+    parts = []
+    for c in r.checks:
+        if c.state != "fail":
+            continue
+        f = c.figures
+        if c.name == "sum":
+            parts.append("sum: every band is muted" if f["muted"] else
+                         f"sum {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])} "
+                         f"(limit +/-{f['limit_db']:g} dB)")
+        elif c.name == "crossings":
+            parts.extend(f"crossing {x.bands[0]}/{x.bands[1]} at {format_hz(x.freq_hz)} "
+                         f"{x.phase_diff_deg:+.1f} deg apart (limit {f['limit_deg']:g} deg)"
+                         for x in f["failing"])
+        elif c.name == "headroom":
+            parts.extend(f"headroom {r.bands[i].name} {r.bands[i].peak_gain_db:+.2f} dB "
+                         f"(limit {f['limit_db']:+g} dB)" for i in f["over"])
+        else:
+            parts.append(c.name)
+    return "; ".join(parts)
 
 
 #: Label and IIR column widths of the comparison table.
