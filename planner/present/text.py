@@ -44,10 +44,18 @@ def text_report(r: Report) -> str:
     lines.extend(_acoustic_head(r))
     if not s.figures["muted"]:
         f = s.figures
+        tgt = "" if f.get("target") is None else f" from the target {f['target']}"
+        aside = " (voicing set aside)" if f.get("voicing_set_aside") else ""
         lines.append(f"sum        {_state(s)} {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}"
-                     f"  (limit +/-{f['limit_db']:g} dB, ripple {f['ripple_db']:.2f} dB)")
+                     f"{tgt}{aside}  (limit +/-{f['limit_db']:g} dB, ripple "
+                     f"{f['ripple_db']:.2f} dB)")
     else:
         lines.append(f"sum        {_state(s)} every band is muted")
+    if r.voiced is not None:
+        v = r.voiced
+        lines.append(f"voiced     info {v['max_dev_db']:+.2f} dB at {format_hz(v['at_hz'])} from "
+                     f"{'the target ' + f['target'] if f.get('target') else '0 dB'} with the "
+                     f"voicing ({'; '.join(v['filters'])}); not checked")
     checked = r.checked_crossings
     if not checked:
         lines.append("crossings  --   none above the floor "
@@ -166,8 +174,9 @@ def failure_summary(r: Report) -> str:
             continue
         f = c.figures
         if c.name == "sum":
+            tgt = "" if f.get("target") is None else f" from the target {f['target']}"
             parts.append("sum: every band is muted" if f["muted"] else
-                         f"sum {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])} "
+                         f"sum {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}{tgt} "
                          f"(limit +/-{f['limit_db']:g} dB)")
         elif c.name == "crossings":
             parts.extend(f"crossing {x.bands[0]}/{x.bands[1]} at {format_hz(x.freq_hz)} "
