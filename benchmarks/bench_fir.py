@@ -7,7 +7,9 @@
    of a single design when the length is already known). Prints both times,
    search / single and the remez calls the search made. Then ``crossplan
    compare`` on the ``two-way`` preset (planner.compare.compare_project):
-   its time and its remez calls (counted by wrapping scipy.signal.remez).
+   its time and its remez calls (counted by wrapping scipy.signal.remez);
+   then compare on one band with only a 25 Hz subsonic highpass, against one
+   plain remez call at the length Kaiser's estimate gives.
 2. Responses of a 3-band complementary split of that length at 2048
    log-spaced points: planner.dsp.fir.fir_response (all bands in one call),
    against scipy.signal.freqz(taps, worN=freqs, fs=fs) band by band. Prints
@@ -108,6 +110,31 @@ def main() -> None:
     taps = ", ".join(f"{b.name} {b.fir.taps}" for b in c.bands if b.fir is not None)
     print(f"compare two-way preset: {tc * 1e3:8.1f} ms, {len(rc.calls)} remez calls "
           f"(longest {max(k for k, _ in rc.calls)} taps); FIR equivalents: {taps}")
+
+    # One band with only a 25 Hz second-order subsonic highpass: no other band to tell it
+    # from a crossover, so its 0.77 Hz stop edge makes the spec. Baseline: one plain remez
+    # call at the Kaiser estimate's length (the cost of a single trial there).
+    sub = project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": "sub", "sample_rate": FS,
+        "bands": [{"name": "w", "filters": [{"type": "highpass", "family": "butterworth",
+                                             "order": 2, "freq": 25}]}]})
+    fir.clear_design_cache()
+    with RemezCalls() as rc:
+        t = time.perf_counter()
+        c = compare.compare_project(sub)
+        tc = time.perf_counter() - t
+    b0 = c.bands[0]
+    est = int(b0.message.split("needs about ")[1].split()[0]) if "needs about" in b0.message \
+        else (b0.fir.taps if b0.fir is not None else 0)
+    dp1 = (10 ** (1 / 20) - 1) / (10 ** (1 / 20) + 1)
+    t1 = time.perf_counter()
+    signal.remez(est, [0, 0.7688, 35.05, FS / 2], [0, 1], weight=[dp1 / 1e-3, 1], fs=FS,
+                 maxiter=100)
+    t1 = time.perf_counter() - t1
+    print(f"compare, one band with a 25 Hz subsonic highpass: {tc * 1e3:8.1f} ms, "
+          f"{len(rc.calls)} remez calls, status {b0.status} ({est} taps needed by Kaiser's "
+          f"estimate); one scipy remez at {est} taps {t1 * 1e3:.0f} ms, "
+          f"compare / one remez = {tc / t1:.2f}")
 
     bands = np.array(fir.complementary_split([300.0, 2200.0], FS, n, design="equiripple",
                                              transition_hz=100.0))

@@ -9,7 +9,7 @@ like start at once.
 from __future__ import annotations
 
 __all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
-           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS", "ALIGN_VARIABLES", "ALIGN_DEFAULT",
+           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS", "COMPARE_MAX_TAPS", "ALIGN_VARIABLES", "ALIGN_DEFAULT",
            "FIT_BANKS", "FIT_LIMIT_DB"]
 
 #: Frequency views of ``crossplan plot`` (:mod:`planner.present.plots`).
@@ -31,6 +31,11 @@ COMPARE_ATTEN_DB = 60.0
 IIR_FAMILIES = ("auto", "butterworth", "elliptic")
 #: Longest FIR the fewest-tap searches try unless told otherwise (taps).
 MAX_TAPS = 8191
+#: Longest FIR equivalent ``crossplan compare`` (and the editor's comparison) tries unless
+#: told otherwise (taps; 43 ms of latency at 48 kHz). A band whose equivalent would be
+#: longer by Kaiser's estimate is reported at once, with that estimate, rather than
+#: searched for: every trial at several thousand taps takes about a second.
+COMPARE_MAX_TAPS = 2047
 
 #: What ``crossplan align`` may change (:mod:`planner.solve.alignment`): band
 #: delays, polarities, level trims, crossover frequencies, all-pass frequencies.

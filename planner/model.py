@@ -51,6 +51,10 @@ class Filter:
         ``q``, ``order``, ...).
     bypass : bool
         When true the filter is kept in the chain but not applied.
+    voicing : bool
+        Deliberate EQ (voicing): the filter is applied, but the crossover
+        checks (sum against the target, phase at the crossings) are judged
+        with it set aside, and the voiced sum is reported beside them.
     extra : Mapping
         Unknown keys of the JSON form, kept for saving.
     """
@@ -60,6 +64,7 @@ class Filter:
     params: Mapping[str, Any]
     bypass: bool = False
     extra: Mapping[str, Any] = field(default_factory=dict)
+    voicing: bool = False
 
     def __post_init__(self):
         object.__setattr__(self, "params", _frozen(self.params))
@@ -74,10 +79,11 @@ class Filter:
     def __eq__(self, other):
         if not isinstance(other, Filter):
             return NotImplemented
-        return self.key == other.key and self.bypass == other.bypass
+        return (self.key == other.key and self.bypass == other.bypass
+                and self.voicing == other.voicing)
 
     def __hash__(self):
-        return hash((self.key, self.bypass))
+        return hash((self.key, self.bypass, self.voicing))
 
     def with_params(self, **changes: Any) -> "Filter":
         """A copy with some parameters changed (not checked: see :mod:`planner.project`)."""
@@ -229,6 +235,10 @@ class Analysis:
         Log-spaced grid points (filter frequencies are added to them).
     flatness_db : float
         The sum passes when it stays within +/- this many dB of the target.
+    target : str or None
+        The target curve the sum is held to (:mod:`planner.targets`:
+        ``flat``, ``tilt:DB``, ``shelf:DB@HZ``, ``tilt:DB+shelf:DB@HZ`` or a
+        file named relative to the project's folder); None is flat (0 dB).
     phase_deg : float
         A crossing passes when the bands are at most this many degrees apart.
     crossing_floor_db : float
@@ -254,6 +264,7 @@ class Analysis:
     arith: str | None = None
     enforce_headroom: bool = config.DEFAULT_ENFORCE_HEADROOM
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
+    target: str | None = None
 
     def __post_init__(self):
         object.__setattr__(self, "extra", _frozen(self.extra))
@@ -327,6 +338,20 @@ class Project:
             if b.name == name:
                 return i
         raise KeyError(name)
+
+    @property
+    def has_voicing(self) -> bool:
+        """Whether a filter that is applied (not bypassed) is marked as voicing."""
+        return any(f.voicing and not f.bypass for b in self.bands for f in b.filters)
+
+    def without_voicing(self) -> "Project":
+        """The project with every voicing filter set aside (bypassed): what the crossover
+        checks judge. The project itself when it has none."""
+        if not self.has_voicing:
+            return self
+        bands = tuple(replace(b, filters=tuple(replace(f, bypass=True) if f.voicing else f
+                                               for f in b.filters)) for b in self.bands)
+        return replace(self, bands=bands)
 
     def active(self) -> list[bool]:
         """Which bands take part in the sum (mute and solo applied)."""

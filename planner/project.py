@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Callable, Mapping, NamedTuple
 
-from planner import drivers, presets
+from planner import drivers, presets, targets
 from planner import filters as fk
 from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectChangedError, ProjectError
@@ -42,10 +42,10 @@ _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoust
 _ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
                    "angle_max_deg", "angle_step_deg", "axis_mm", "window_db"}
 _ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
-                  "arith", "enforce_headroom"}
+                  "arith", "enforce_headroom", "target"}
 _BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver",
               "target"}
-_FILTER_BASE = {"type", "family", "bypass"}
+_FILTER_BASE = {"type", "family", "bypass", "voicing"}
 
 
 def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit="",
@@ -105,7 +105,8 @@ def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
     params = fk.check_params(kind, raw, fs_hz)
     known = _FILTER_BASE | {f.name for f in kind.fields}
     extra = {k: v for k, v in raw.items() if k not in known}
-    return Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra)
+    return Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra,
+                  voicing=_bool(raw, "voicing"))
 
 
 def _chain(raw: Mapping, key: str, fs_hz: float) -> tuple[Filter, ...]:
@@ -163,7 +164,22 @@ def _arith(value: Any) -> str | None:
         raise ProjectError(str(e).split(": ", 1)[-1], field="arith") from None
 
 
-def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
+def _target(value: Any, base_dir) -> str | None:
+    """``analysis.target``: absent/null, or a target curve :func:`planner.targets.parse_target`
+    reads (a file is read now, relative to ``base_dir``, so a bad one is refused on loading)."""
+    if value is None:
+        return None
+    if not isinstance(value, str) or not value.strip():
+        raise ProjectError(f"must be a target curve such as 'flat', 'tilt:-0.5' or "
+                           f"'shelf:3@120', or a file name, not {value!r}", field="target")
+    try:
+        targets.parse_target(value, base_dir)
+    except CrossplanError as e:
+        raise ProjectError(str(e).split(": ", 1)[-1], field="target") from None
+    return value.strip()
+
+
+def _analysis(raw: Mapping, fs_hz: float, base_dir=None) -> Analysis:
     d = Analysis()
     f_min = _num(raw, "f_min", d.f_min, lo=0, lo_open=True, unit="Hz")
     f_max = _num(raw, "f_max", min(d.f_max, fs_hz / 2), unit="Hz")
@@ -186,6 +202,7 @@ def _analysis(raw: Mapping, fs_hz: float) -> Analysis:
         arith=_arith(raw.get("arith")),
         enforce_headroom=_bool(raw, "enforce_headroom", d.enforce_headroom),
         extra={k: v for k, v in raw.items() if k not in _ANALYSIS_KEYS},
+        target=_target(raw.get("target"), base_dir),
     )
 
 
@@ -287,7 +304,7 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
         raise ProjectError(f"must be a string, not {name!r}", field="name")
     fs = _num(raw, "sample_rate", lo=1000, hi=1_536_000, unit="Hz")
     try:
-        analysis = _analysis(_obj(raw.get("analysis", {}), ""), fs)
+        analysis = _analysis(_obj(raw.get("analysis", {}), ""), fs, base_dir)
     except CrossplanError as e:
         raise e.at("analysis") from None
     try:
@@ -323,6 +340,8 @@ def _filter_dict(f: Filter) -> dict:
         d[k] = list(v) if isinstance(v, tuple) else v
     if f.bypass:
         d["bypass"] = True
+    if f.voicing:
+        d["voicing"] = True
     d.update(f.extra)
     return d
 
@@ -337,7 +356,8 @@ def to_dict(project: Project) -> dict:
                      "flatness_db": a.flatness_db, "phase_deg": a.phase_deg,
                      "crossing_floor_db": a.crossing_floor_db,
                      "enforce_headroom": a.enforce_headroom,
-                     **({"arith": a.arith} if a.arith is not None else {}), **a.extra},
+                     **({"arith": a.arith} if a.arith is not None else {}),
+                     **({"target": a.target} if a.target is not None else {}), **a.extra},
         "bands": [],
     }
     ac = project.acoustics

@@ -1,6 +1,7 @@
 """IIR versus FIR comparison: specs read from a chain, equivalents, figures, builds."""
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -248,7 +249,7 @@ class TestProject:
         c = compare.compare_project(project.from_dict(d), 1.0, 60.0, max_taps=9)
         assert not c.ok
         assert c.bands[0].status == compare.NOT_MET
-        assert "band low: taps:" in c.bands[0].message
+        assert "band low: max_taps: an equiripple FIR meeting" in c.bands[0].message
         assert not c.fir_sum.complete and c.fir_sum.missing
 
     def test_to_dict_keys(self, lr4):
@@ -383,3 +384,37 @@ def test_builds_sum_acoustically_when_bands_have_drivers():
     c = compare.compare_project(p)
     assert c.iir_sum.max_dev_db == pytest.approx(r.max_dev_db, abs=1e-9)
     assert r.max_dev_db < -10        # 20 Hz, two octaves under an 80 Hz closed box
+
+
+def _subsonic_only():
+    # One band with only a 25 Hz second-order Butterworth highpass: nothing to tell it from
+    # a crossover, so its slow skirt (60 dB down only at 0.77 Hz) sets the spec.
+    return project.from_dict({
+        "format": "crossplan-project", "version": 1, "name": "sub", "sample_rate": FS,
+        "bands": [{"name": "w", "filters": [{"type": "highpass", "family": "butterworth",
+                                             "order": 2, "freq": 25}]}]})
+
+
+def test_an_equivalent_beyond_the_cap_is_reported_at_once_with_kaisers_estimate(monkeypatch):
+    calls = []
+    real = signal.remez
+    monkeypatch.setattr(signal, "remez", lambda *a, **k: calls.append(a[0]) or real(*a, **k))
+    c = compare.compare_project(_subsonic_only())
+    b = c.bands[0]
+    assert b.status == compare.NOT_MET and calls == []   # no trial design at all
+    # Kaiser 1974 (Oppenheim and Schafer 3rd ed. sec. 7.7), computed here from the spec the
+    # message states: N = (-20 log10 sqrt(dp ds) - 13) / (14.6 df) + 1, rounded up to odd.
+    fp, fst = (float(x) for x in re.search(r"pass edge ([\d.]+) Hz, stop edge ([\d.]+) Hz",
+                                           b.message).groups())
+    r = 10 ** (1.0 / 20)
+    dp, ds = (r - 1) / (r + 1), 10 ** (-60.0 / 20)
+    n = math.ceil((-20 * math.log10(math.sqrt(dp * ds)) - 13) / (14.6 * (fp - fst) / FS) + 1)
+    n |= 1
+    assert f"needs about {n} taps by Kaiser's 1974 estimate" in b.message
+    assert n > compare_max_taps() and f"more than the {compare_max_taps()} taps" in b.message
+    assert fst == pytest.approx(0.7688, abs=1e-3)   # 25 / sqrt(10^6 - 1)^(1/2): BW2 at -60 dB
+
+
+def compare_max_taps():
+    from planner.defaults import COMPARE_MAX_TAPS
+    return COMPARE_MAX_TAPS

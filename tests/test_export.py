@@ -551,3 +551,92 @@ def test_manifest_records_the_driver_files_content_hashes(tmp_path):
                                "content_hash": "sha256:" + hashlib.sha256(text.encode()).hexdigest()}
     assert m["drivers"][1] == {"band": "tweeter", "model": "tweeter",
                                "params": {"fc": 900.0, "q": 0.8}}
+
+
+def _sha(path):
+    """SHA-256 of a file's bytes by hashlib (FIPS 180-4), as the manifest writes it."""
+    return "sha256:" + hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def test_a_second_format_keeps_the_first_runs_entries(proj, tmp_path):
+    first = export.write_export(proj, [48000], "json", tmp_path)
+    second = export.write_export(proj, [44100, 48000], "csv", tmp_path)
+    assert first.manifest == second.manifest
+    m = json.loads(second.manifest.read_text())
+    listed = {e["file"]: e for e in m["entries"]}
+    on_disk = {p.name for p in tmp_path.iterdir() if p.name != second.manifest.name}
+    assert set(listed) == on_disk == {f.name for f in first.files + second.files}
+    for name, e in listed.items():
+        assert e["sha256"] == _sha(tmp_path / name)
+        assert e["format"] == ("json" if name.endswith(".json") else "csv")
+    assert {r["id"]: r["file_formats"] for r in m["runs"]} == {1: ["json"], 2: ["csv"]}
+    assert {e["run"] for e in m["entries"] if e["format"] == "json"} == {1}
+    # The earlier run's check results stay with it.
+    assert [c["sample_rate"] for c in m["runs"][0]["checks"]] == [48000]
+
+
+def test_a_run_that_writes_a_file_again_replaces_its_entry(proj, tmp_path):
+    export.write_export(proj, [48000], "json", tmp_path)
+    export.write_export(proj, [48000], "json", tmp_path, arith="float32")
+    m = json.loads((tmp_path / f"{export.slug(proj.name)}-manifest.json").read_text())
+    assert len(m["entries"]) == 1 and m["entries"][0]["arith"] == "float32"
+    assert m["entries"][0]["sha256"] == _sha(tmp_path / m["entries"][0]["file"])
+    assert [r["id"] for r in m["runs"]] == [2]   # run 1 has no file left: dropped
+
+
+def test_a_deleted_file_leaves_the_manifest(proj, tmp_path):
+    a = export.write_export(proj, [48000], "json", tmp_path)
+    a.files[0].unlink()
+    b = export.write_export(proj, [48000], "csv", tmp_path)
+    m = json.loads(b.manifest.read_text())
+    assert [e["file"] for e in m["entries"]] == [b.files[0].name]
+
+
+def test_an_old_manifest_without_entries_is_adopted(proj, tmp_path):
+    a = export.write_export(proj, [48000], "json", tmp_path)
+    m = json.loads(a.manifest.read_text())
+    for k in ("entries", "runs", "run"):
+        del m[k]
+    a.manifest.write_text(json.dumps(m))
+    b = export.write_export(proj, [48000], "text", tmp_path)
+    got = json.loads(b.manifest.read_text())
+    assert {e["file"] for e in got["entries"]} == {a.files[0].name, b.files[0].name}
+
+
+def test_an_unreadable_manifest_is_replaced_with_a_note(proj, tmp_path):
+    (tmp_path / f"{export.slug(proj.name)}-manifest.json").write_text("{not json")
+    b = export.write_export(proj, [48000], "csv", tmp_path)
+    assert any("could not be read" in n for n in b.notes)
+    assert [e["file"] for e in json.loads(b.manifest.read_text())["entries"]] == \
+        [b.files[0].name]
+
+
+def test_several_formats_in_one_run_share_one_check(proj, tmp_path):
+    res = export.write_export(proj, [44100, 48000], "json,csv,text,wav", tmp_path)
+    m = json.loads(res.manifest.read_text())
+    assert m["file_formats"] == ["json", "csv", "text", "wav"]
+    assert len(m["runs"]) == 1 and len(m["runs"][0]["checks"]) == 2   # one check per rate
+    nwav = 2 * len(proj.bands)
+    assert len(m["entries"]) == len(res.files) == 3 * 2 + nwav
+    assert {e["file"] for e in m["entries"]} == {p.name for p in res.files}
+    for e in m["entries"]:
+        assert e["sha256"] == _sha(tmp_path / e["file"])
+    # The JSON and CSV files of one rate hold the same coefficients (read back independently).
+    js = json.loads((tmp_path / m["checks"][1]["band_files_by_format"]["json"][proj.bands[0].name]
+                     ).read_text())
+    rows = list(csv.DictReader((tmp_path / m["checks"][1]["band_files_by_format"]["csv"][
+        proj.bands[0].name]).open()))
+    secs = [[float(r[k]) for k in ("b0", "b1", "b2", "a1", "a2")] for r in rows
+            if r["band"] == proj.bands[0].name and r["item"] == "section"]
+    assert secs == js["bands"][0]["biquads"]
+
+
+def test_repeated_format_names_are_written_once(proj, tmp_path):
+    res = export.write_export(proj, [48000], ["json", "json,csv"], tmp_path)
+    assert res.formats == ["json", "csv"] and len(res.files) == 2
+
+
+def test_unknown_format_among_several_refused(proj, tmp_path):
+    with pytest.raises(ExportError, match=r"format: must be one of json, csv, text, wav, not 'xml'"):
+        export.write_export(proj, [48000], "json,xml", tmp_path / "o")
+    assert not (tmp_path / "o").exists()

@@ -12,7 +12,7 @@ import argparse
 from planner.cli.common import designing, load_project, positive_number
 from planner.defaults import COMPARE_ATTEN_DB as DEFAULT_ATTEN_DB
 from planner.defaults import COMPARE_RIPPLE_DB as DEFAULT_RIPPLE_DB
-from planner.defaults import IIR_FAMILIES, MAX_TAPS
+from planner.defaults import COMPARE_MAX_TAPS, IIR_FAMILIES
 from planner.errors import ProjectError
 from planner.jsonio import dumps
 
@@ -42,7 +42,8 @@ def add_arguments(p, name):
                    help="IIR equivalents of FIR bands: auto (Butterworth up to order 8, "
                         "else elliptic), butterworth or elliptic")
     p.add_argument("--max-taps", type=_taps_value, default=None, metavar="N",
-                   help=f"longest FIR equivalent tried (default {MAX_TAPS})")
+                   help=f"longest FIR equivalent tried (default {COMPARE_MAX_TAPS}); a band needing "
+                        "more by Kaiser's estimate is reported at once, with the estimate")
 
 
 def run(args) -> int:
@@ -52,7 +53,6 @@ def run(args) -> int:
 def _run(args) -> int:
     # The numerical core is imported when the command runs (start-up time).
     from planner import compare
-    from planner.dsp.fir import DEFAULT_MAX_TAPS
     from planner.present.text import compare_text
 
     if not args.atten_db > args.ripple_db:
@@ -60,7 +60,7 @@ def _run(args) -> int:
                            f"({args.ripple_db:g} dB)", field="--atten-db")
     proj = load_project(args.file)
     c = compare.compare_project(proj, args.ripple_db, args.atten_db, args.iir_family,
-                                args.max_taps or DEFAULT_MAX_TAPS)
+                                args.max_taps or COMPARE_MAX_TAPS)
     if args.json:
         print(dumps(c.to_dict()), end="")
     else:

@@ -270,6 +270,18 @@ def fir_equivalent(spec: DerivedSpec, fs_hz: float, max_taps: int = dfir.DEFAULT
         tw = min(pl - sl, sh - ph)
         fspec = dfir.FirSpec("bandpass", (pl, ph), (pl - tw, ph + tw), spec.ripple_db,
                              spec.atten_db)
+    est = dfir.estimate_taps(fspec, fs_hz)
+    if est > max_taps:
+        # Refused before any trial: a search up to max_taps cannot succeed, and each trial at
+        # thousands of taps takes about a second (a subsonic highpass's slow skirt).
+        raise SpecNotMetError(
+            f"an equiripple FIR meeting {fspec.describe()} needs about {est} taps by Kaiser's "
+            f"1974 estimate ({1000.0 * (est - 1) / 2 / fs_hz:.1f} ms of latency at "
+            f"{fs_hz:g} Hz; a transition this narrow often needs more), more than the "
+            f"{max_taps} taps compare tries: give a larger --max-taps (up to "
+            f"{dfir.DEFAULT_MAX_TAPS}) to search for it, which is slow (each trial at that "
+            "length takes a fraction of a second or more), or widen the spec (--atten-db, "
+            "--ripple-db)", field="max_taps")
     d = dfir.min_taps_equiripple(fspec, fs_hz, max_taps=max_taps, progress=progress,
                                  cancel=cancel)
     return d.taps * 10.0 ** (spec.pass_gain_db / 20.0), f"equiripple {d.n_taps} taps"

@@ -45,7 +45,9 @@ class Response:
 def format_response_text(freqs_hz, mag_db, phase_deg=None, header_lines=()) -> str:
     """Write a response as plain text, one frequency per line.
 
-    Header lines come first, each as ``* text``; then lines
+    Header lines come first, each as ``# text`` (``#`` opens a comment in most
+    plain-text data readers; :func:`parse_response_text` also reads ``*``,
+    ``;`` and ``//`` comments of files from elsewhere); then lines
     ``freq_hz  mag_db  phase_deg`` (phase omitted if None), frequency with
     8 significant digits, magnitude to 0.0001 dB, phase to 0.001 deg.
 
@@ -77,7 +79,7 @@ def format_response_text(freqs_hz, mag_db, phase_deg=None, header_lines=()) -> s
     cols = [f, m] if p is None else [f, m, p]
     if not all(np.all(np.isfinite(c)) for c in cols):
         raise CrossplanError("values must be finite numbers, found nan or inf", field="mag_db")
-    lines = [f"* {s}".rstrip() for h in header_lines for s in str(h).splitlines() or [""]]
+    lines = [f"# {s}".rstrip() for h in header_lines for s in str(h).splitlines() or [""]]
     # Column-wise (vectorised) formatting, joined into rows.
     rows = np.char.add(np.char.mod("%.8g", f), np.char.add("  ", np.char.mod("%.4f", m)))
     if p is not None:

@@ -7,10 +7,20 @@ extremes (:mod:`planner.dsp.grid`), so that the reported figures are those
 of the response, not of the grid.
 
 Definitions (:mod:`planner.dsp.analysis`): the flatness is the largest
-deviation of the sum's level ``20 log10 |sum|`` from 0 dB on the grid; a
+deviation of the sum's level ``20 log10 |sum|`` from the target curve
+(``analysis.target``, :mod:`planner.targets`; 0 dB when none) on the grid; a
 crossing is where two active bands' levels in dB are equal, with the phase
 difference (first band in project order minus the second, wrapped to
 (-180, 180] deg) and the level there.
+
+Filters marked ``voicing`` (deliberate EQ) are applied to the bands, but the
+crossover checks (the sum against the target, the phase at the crossings)
+are judged on the project with them set aside
+(:meth:`planner.model.Project.without_voicing`); the voiced sum, voicing
+included, is reported against the target beside them (information). The
+grid is then the union of the grids made for both sums. Headroom, the
+responses for plots and the warnings about filters are those of the bands
+as they run, voicing included.
 """
 
 from __future__ import annotations
@@ -20,6 +30,7 @@ from dataclasses import replace
 import numpy as np
 
 from planner import config
+from planner import filters as fk
 from planner.dsp import analysis as an
 from planner.dsp import grid as dgrid
 from planner.dsp.response import BandResponses, log_derivative
@@ -30,8 +41,15 @@ from planner.engine.result import (BandResult, CheckResult, CrossingResult, Repo
 from planner.engine.warnings import warnings_of
 from planner.errors import CrossplanError
 from planner.model import Band, Project
+from planner.targets import parse_target
 
-__all__ = ["analyse", "start_grid"]
+__all__ = ["analyse", "start_grid", "target_level", "voicing_labels"]
+
+
+def voicing_labels(project: Project) -> list[str]:
+    """``"tweeter: high shelf 3 kHz +3 dB"`` for every applied voicing filter, project order."""
+    return [f"{b.name}: {fk.label(f)}" for b in project.bands for f in b.filters
+            if f.voicing and not f.bypass]
 
 
 def start_grid(project: Project, designs: list[BandDesign] | None = None) -> np.ndarray:
@@ -60,8 +78,30 @@ def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarra
     return f[keep], np.concatenate([h, new_h], axis=1)[:, order][:, keep]
 
 
-def _sample(project: Project, designs: list[BandDesign], active: list[bool], response, point):
+def target_level(project: Project):
+    """The target curve of ``project`` as a function ``freqs_hz -> dB``, or None (flat).
+
+    Raises
+    ------
+    ProjectError
+        ``field='analysis.target'``: the curve cannot be read (a file gone since loading).
+    """
+    t = project.analysis.target
+    if t is None:
+        return None
+    try:
+        return parse_target(t, project.source_dir)
+    except CrossplanError as e:
+        raise e.at("analysis") from None
+
+
+def _sample(project: Project, designs: list[BandDesign], active: list[bool], response, point,
+            target=None):
     """The analysis grid and every band's response on it.
+
+    Where the sum's level is looked at (fast changes, extremes) it is taken
+    relative to ``target`` (a function ``freqs_hz -> dB``; None: 0 dB), so
+    that the grid resolves the deviation the check reports.
 
     The starting grid (:func:`start_grid`) is evaluated; then, for at most
     :data:`~planner.config.GRID_REFINE_PASSES` passes, the cells where the
@@ -75,16 +115,19 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
     h = response(freqs)
     act = np.asarray(active, dtype=bool)
 
-    def sum_db(hh):
-        return an.db(hh[act].sum(axis=0)) if act.any() else np.zeros(hh.shape[1])
+    def tdb(f):
+        return 0.0 if target is None else target(f)
 
-    lv = sum_db(h)
+    def sum_db(hh, f):
+        return (an.db(hh[act].sum(axis=0)) - tdb(f)) if act.any() else np.zeros(hh.shape[1])
+
+    lv = sum_db(h, freqs)
     for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
         new = dgrid.fast_cells(freqs, lv[None, :], np.array([-np.inf]))
         if not len(new):
             break
         freqs, h = _merge(freqs, h, new, response(new))
-        lv = sum_db(h)
+        lv = sum_db(h, freqs)
 
     # Local extremes: candidates are (row, sign, grid index); row -1 is the sum's level (sign
     # +1: maxima, -1: minima), row k >= 0 band k's level (its peak). A local extreme of the
@@ -112,7 +155,7 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
         # need every active band there anyway.
         hv = point.all_bands(f)
         band = np.maximum(row[c], 0)
-        out = np.where(is_sum[c], an.db(hv[act].sum(axis=0)) if act.any() else 0.0,
+        out = np.where(is_sum[c], (an.db(hv[act].sum(axis=0)) - tdb(f)) if act.any() else 0.0,
                        an.db(hv[band, np.arange(len(c))]))
         return sign[c] * out
 
@@ -176,8 +219,21 @@ def analyse(project: Project, points: int | None = None) -> Report:
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
     active = project.active()
+    target = target_level(project)
+    checked = project.without_voicing()
+    voiced = checked is not project
+    cdesigns = designs
+    if voiced:
+        cdesigns = [design_band(b, fs) for b in checked.bands]
     drivers, response, point = _evaluators(project, designs)
-    freqs, h = _sample(project, designs, active, response, point)
+    freqs, h = _sample(project, designs, active, response, point, target)
+    if voiced:
+        cdrivers, cresponse, cpoint = _evaluators(checked, cdesigns)
+        f2, _ = _sample(checked, cdesigns, active, cresponse, cpoint, target)
+        freqs = np.union1d(freqs, f2)
+        h, hc = response(freqs), cresponse(freqs)
+    else:
+        cdrivers, cpoint, hc = drivers, point, h
 
     def dlog():
         out = log_derivative([d.sos for d in designs], freqs, fs,
@@ -185,28 +241,37 @@ def analyse(project: Project, points: int | None = None) -> Report:
         return out if drivers is None else out + drivers.log_derivative(freqs, fs)
 
     resp = BandResponses(freqs, h, fs, dlog)
+    cresp = resp if not voiced else BandResponses(freqs, hc, fs, lambda: None)
     act_idx = [i for i, on in enumerate(active) if on]
     sum_h = resp.sum(active)
+    checked_sum = cresp.sum(active)
+    t_db = None if target is None else np.asarray(target(freqs), dtype=float)
+    rel = 1.0 if t_db is None else 10.0 ** (-t_db / 20.0)
     if act_idx:
-        max_dev, at, ripple = an.flatness(freqs, sum_h)
+        max_dev, at, ripple = an.flatness(freqs, checked_sum * rel)
     else:
         max_dev, at, ripple = float("-inf"), float(freqs[0]), 0.0
     flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+    voiced_fig = None
+    if voiced and act_idx:
+        vd, vat, vr = an.flatness(freqs, sum_h * rel)
+        voiced_fig = {"max_dev_db": float(vd), "at_hz": float(vat), "ripple_db": float(vr),
+                      "filters": voicing_labels(project)}
 
     crossings: list[CrossingResult] = []
     if len(act_idx) >= 2:
-        sub = resp.h[act_idx]
+        sub = cresp.h[act_idx]
         # Each crossing is refined on its own two bands, at its own trial frequencies.
-        point = point_evaluator([designs[i] for i in act_idx], fs)
-        if drivers is not None:
-            point = AcousticPoints(point, drivers, act_idx)
-        for c in an.find_crossings(freqs, sub, evaluate=point):
+        cpoint = point_evaluator([cdesigns[i] for i in act_idx], fs)
+        if cdrivers is not None:
+            cpoint = AcousticPoints(cpoint, cdrivers, act_idx)
+        for c in an.find_crossings(freqs, sub, evaluate=cpoint):
             ia, ib = act_idx[c.a], act_idx[c.b]
-            checked = c.level_db >= a.crossing_floor_db
+            checked_c = c.level_db >= a.crossing_floor_db
             crossings.append(CrossingResult(
                 (project.bands[ia].name, project.bands[ib].name), (ia, ib), c.freq_hz,
-                c.phase_diff_deg, c.level_db, checked,
-                (abs(c.phase_diff_deg) <= a.phase_deg) if checked else True))
+                c.phase_diff_deg, c.level_db, checked_c,
+                (abs(c.phase_diff_deg) <= a.phase_deg) if checked_c else True))
 
     # Headroom is electrical: what the DSP's signal reaches, whatever the driver does.
     electrical = resp.h if drivers is None else evaluate(designs, freqs, fs).h
@@ -223,19 +288,21 @@ def analyse(project: Project, points: int | None = None) -> Report:
              for i, b in enumerate(project.bands)]
     report = Report(project, designs, freqs, resp, active, sum_h, max_dev, at, ripple, flat_ok,
                     crossings, bands, checks=_checks(project, active, max_dev, at, ripple,
-                                                     flat_ok, crossings, bands),
-                    drivers=drivers)
+                                                     flat_ok, crossings, bands, voiced),
+                    drivers=drivers, target_db=t_db, checked_sum_h=checked_sum,
+                    voiced=voiced_fig)
     report.warnings.extend(warnings_of(report))
     return report
 
 
 def _checks(project: Project, active: list[bool], max_dev: float, at: float, ripple: float,
             flat_ok: bool, crossings: list[CrossingResult],
-            bands: list[BandResult]) -> tuple[CheckResult, ...]:
+            bands: list[BandResult], voiced: bool = False) -> tuple[CheckResult, ...]:
     """The verdicts of the sum, crossings and headroom checks (the one place they are made).
 
-    Figures: ``sum``: max_dev_db, at_hz, ripple_db, limit_db, muted (every
-    band muted); ``crossings``: limit_deg, floor_db, checked (how many
+    Figures: ``sum``: max_dev_db, at_hz, ripple_db (from the target), limit_db,
+    muted (every band muted), target (its name, None for flat),
+    voicing_set_aside (whether voicing filters were set aside); ``crossings``: limit_deg, floor_db, checked (how many
     crossings are above the floor), worst (the checked
     :class:`CrossingResult` with the largest phase difference, or None),
     failing (those beyond the limit); ``headroom``: limit_db, worst (index
@@ -246,7 +313,8 @@ def _checks(project: Project, active: list[bool], max_dev: float, at: float, rip
     muted = not any(active)
     checks = [CheckResult("sum", check_state(flat_ok and not muted, True), True,
                           {"max_dev_db": max_dev, "at_hz": at, "ripple_db": ripple,
-                           "limit_db": a.flatness_db, "muted": muted})]
+                           "limit_db": a.flatness_db, "muted": muted, "target": a.target,
+                           "voicing_set_aside": bool(voiced)})]
     checked = [c for c in crossings if c.checked]
     failing = tuple(c for c in checked if not c.ok)
     worst = max(checked, key=lambda c: abs(c.phase_diff_deg)) if checked else None

@@ -158,6 +158,19 @@ class Report:
     #: the project's drivers (:class:`planner.engine.acoustic.Drivers`) when any band has
     #: one: then ``responses`` and ``sum_h`` are the acoustic ones
     drivers: Any = None
+    #: the target curve on the grid (dB), or None for flat (0 dB)
+    target_db: Any = None
+    #: the sum the crossover checks judge: ``sum_h`` with the voicing filters set aside
+    #: (``sum_h`` itself when there are none); None means ``sum_h``
+    checked_sum_h: Any = None
+    #: the voiced sum (voicing filters included) against the target when any filter is
+    #: marked voicing: ``max_dev_db``, ``at_hz``, ``ripple_db``, ``filters`` (labels); or None
+    voiced: Any = None
+
+    @property
+    def target_name(self) -> str | None:
+        """The project's ``analysis.target`` as written, or None (flat)."""
+        return self.project.analysis.target
 
     @property
     def acoustic(self) -> bool:
@@ -248,6 +261,8 @@ class Report:
             "sample_rate": self.project.sample_rate,
             "sum": {"max_dev_db": self.max_dev_db, "at_hz": self.at_hz,
                     "ripple_db": self.ripple_db, "limit_db": a.flatness_db, "ok": self.flat_ok,
+                    "target": a.target,
+                    "voicing_set_aside": self.voiced["filters"] if self.voiced else [],
                     "group_delay_ms": {"min": float(gd.min()) if gd.size else None,
                                        "max": float(gd.max()) if gd.size else None},
                     "latency_samples": self.latency_samples, "latency_ms": self.latency_ms,
@@ -262,6 +277,10 @@ class Report:
             "checks": [{"name": c.name, "state": c.state, "enforced": c.enforced}
                        for c in self.checks],
             "acoustics": self._acoustics_dict(),
+            "voiced": None if self.voiced is None else {
+                "max_dev_db": self.voiced["max_dev_db"], "at_hz": self.voiced["at_hz"],
+                "ripple_db": self.voiced["ripple_db"], "target": a.target,
+                "filters": list(self.voiced["filters"])},
         }
 
     def _acoustics_dict(self) -> dict | None:

@@ -20,8 +20,9 @@ nothing is written that differs from what was checked by more than
 :data:`MAX_DEVIATION_DB` where the response matters.
 
 Files are written per rate (JSON, CSV, text or one WAV impulse response per
-band) and one manifest per export ties them to the project's content hash
-and to the check results at each rate.
+band; several formats in one run share one design and one check) and the
+folder's manifest ties every file of the project's exports present there to
+the project's content hash, the settings and the check results at each rate.
 
 The coefficient convention of every file: each section is
 ``[b0, b1, b2, a1, a2]`` with ``a0 = 1`` and the transfer function
@@ -43,7 +44,8 @@ References
 .. [3] FIPS PUB 180-4, "Secure Hash Standard", NIST, 2015 (SHA-256).
 """
 
-from planner.export.files import (MANIFEST_FORMAT, MAX_SLUG_CHARS, RESERVED_STEMS, ExportResult, RunFiles, band_file_stems, short_stem,
+from planner.export.files import (EXTENSIONS, export_formats, file_sha256, merge_manifest,
+                                  MANIFEST_FORMAT, MAX_SLUG_CHARS, RESERVED_STEMS, ExportResult, RunFiles, band_file_stems, short_stem,
                                   content_hash, rate_text, slug, write_export, write_file,
                                   write_text_file)
 from planner.export.formats import (FORMAT, FORMATS, VERSION, WAV_FLOOR_DB, arith_dict,
@@ -54,7 +56,7 @@ from planner.export.rate import (SECTION_MODES, BandExport, RateExport, export_r
 from planner.export.recheck import (ERROR_FLOOR_DB, MAX_DEVIATION_DB, RANGE_DB, RECHECK_POINTS,
                                     ArithResult, shown_against)
 
-__all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "ExportResult", "RunFiles", "band_file_stems", "short_stem", "content_hash",
+__all__ = ["EXTENSIONS", "export_formats", "file_sha256", "merge_manifest", "MANIFEST_FORMAT", "MAX_SLUG_CHARS", "RESERVED_STEMS", "ExportResult", "RunFiles", "band_file_stems", "short_stem", "content_hash",
            "rate_text", "slug", "write_export", "write_file", "write_text_file", "FORMAT",
            "FORMATS", "VERSION", "WAV_FLOOR_DB", "arith_dict", "arith_text",
            "band_impulse_response", "to_csv_text", "to_json_dict", "to_text", "SECTION_MODES",

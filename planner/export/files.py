@@ -37,7 +37,8 @@ from planner.model import Project
 
 __all__ = ["MANIFEST_FORMAT", "MAX_SLUG_CHARS", "MAX_STEM_BYTES", "short_stem", "RESERVED_STEMS", "slug", "band_file_stems",
            "RunFiles", "write_file", "write_text_file", "rate_text", "content_hash", "driver_records",
-           "ExportResult", "coefficient_text", "write_export"]
+           "ExportResult", "coefficient_text", "write_export", "export_formats", "merge_manifest",
+           "file_sha256", "EXTENSIONS"]
 
 
 MANIFEST_FORMAT = "crossplan-export-manifest"
@@ -227,8 +228,8 @@ def content_hash(project: Project) -> str:
 class ExportResult:
     """What :func:`write_export` did.
 
-    ``band_files`` holds per rate (the order of ``rates``) each band's file,
-    project order; ``delays`` per rate how the WAV impulse responses made
+    ``band_files`` holds per rate (the order of ``rates``) each band's file
+    of the run's first format, project order; ``delays`` per rate how the WAV impulse responses made
     the band delays (:class:`planner.delays.DelayPlan`; ``None`` for the
     coefficient formats, which hold the exact ``delay_samples``); ``notes``
     the lines on fractional delays for the command's output.
@@ -242,6 +243,9 @@ class ExportResult:
     band_files: list[list[Path]] = field(default_factory=list)
     delays: list = field(default_factory=list)
     notes: list[str] = field(default_factory=list)
+    #: the formats of the run, in order, and the files written in each
+    formats: list[str] = field(default_factory=list)
+    files_by_format: dict = field(default_factory=dict)
 
 
 def coefficient_text(rx: RateExport, fmt: str, negate_feedback: bool) -> str:
@@ -252,20 +256,59 @@ def coefficient_text(rx: RateExport, fmt: str, negate_feedback: bool) -> str:
     return to_text(rx, negate_feedback)
 
 
-def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
+def export_formats(fmt) -> list[str]:
+    """The formats of one run: ``"json"``, ``"json,csv"`` or a sequence of names, in order.
+
+    Repeats are dropped (first one kept).
+
+    Raises
+    ------
+    ExportError
+        ``field='format'``: an unknown name, or none at all.
+    """
+    parts = fmt.split(",") if isinstance(fmt, str) else [
+        x for f in fmt for x in str(f).split(",")]
+    out = list(dict.fromkeys(x.strip() for x in parts if x.strip()))
+    if not out:
+        raise ExportError(f"must be one of {', '.join(FORMATS)}, not {fmt!r}", field="format")
+    for f in out:
+        if f not in FORMATS:
+            raise ExportError(f"must be one of {', '.join(FORMATS)}, not {f!r}", field="format")
+    return out
+
+
+#: File extension of each coefficient format.
+EXTENSIONS = {"json": "json", "csv": "csv", "text": "txt", "wav": "wav"}
+
+
+def file_sha256(path) -> str:
+    """``'sha256:<hex>'`` of a file's bytes (FIPS 180-4)."""
+    return "sha256:" + hashlib.sha256(Path(path).read_bytes()).hexdigest()
+
+
+def write_export(project: Project, rates: Sequence[float], fmt, out_dir,
                  arith: str = "float64", negate_feedback: bool = False,
                  pre_attenuate: bool = False, source: str | None = None,
                  sections: str = "per-filter",
                  fractional_delay: str = "apply") -> ExportResult:
-    """Export ``project`` at every rate in one format, with a manifest.
+    """Export ``project`` at every rate in one or more formats, with a manifest.
 
     Files: ``DIR/<project>-<rate>.json|.csv|.txt``, or for ``wav`` one
     ``DIR/<project>-<rate>-<band>.wav`` per band (32-bit float, mono), and
     ``DIR/<project>-manifest.json``; ``<project>`` is :func:`slug` of the
     project's name and ``<band>`` the band's stem from
-    :func:`band_file_stems` (distinct for every band). Nothing is written
-    when the target arithmetic cannot hold the design at some rate
-    (``arith_ok`` false), and no file is written twice (:class:`RunFiles`).
+    :func:`band_file_stems` (distinct for every band). ``fmt`` is one
+    format or several (:func:`export_formats`: ``"json,csv"`` or a list);
+    the design is made and checked once per rate for all of them. Nothing
+    is written when the target arithmetic cannot hold the design at some
+    rate (``arith_ok`` false), and no file is written twice
+    (:class:`RunFiles`).
+
+    The manifest lists every file of this project's exports present in the
+    folder (:func:`merge_manifest`): the entries of earlier runs are kept
+    unless this run wrote the same file, so exporting ``csv`` after ``json``
+    into one folder keeps both sets, each with its format, settings, SHA-256
+    and its run's check results.
 
     ``fractional_delay`` (``"apply"`` or ``"round"``, see
     :mod:`planner.delays`) says how the WAV impulse responses make a
@@ -277,12 +320,12 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
     ExportError
         Unknown format or fractional-delay mode, no rates, a bad rate or
         format name, an output folder that cannot be made, a file that
-        cannot be written.
+        cannot be written (then ``written`` on the error lists the files
+        this run had written before it).
     ProjectError
         A filter that cannot be made at a rate (named).
     """
-    if fmt not in FORMATS:
-        raise ExportError(f"must be one of {', '.join(FORMATS)}, not {fmt!r}", field="format")
+    fmts = export_formats(fmt)
     dl.check_mode(fractional_delay)
     if not rates:
         raise ExportError("give at least one sample rate", field="rate")
@@ -299,67 +342,178 @@ def write_export(project: Project, rates: Sequence[float], fmt: str, out_dir,
     stems = band_file_stems(names)
     run = RunFiles()
     # Every path is named and claimed before anything is written.
-    band_files: list[list[Path]] = []
+    by_fmt: dict[str, list[list[Path]]] = {}
     plans: list = []
+    for f in fmts:
+        by_fmt[f] = []
+        for rx in exports:
+            stem = f"{base}-{rate_text(rx.fs_hz)}"
+            at = f"at {rx.fs_hz:g} Hz"
+            if f == "wav":
+                by_fmt[f].append([run.claim(out / f"{stem}-{st}.wav", f"band {n!r} {at}")
+                                  for n, st in zip(names, stems)])
+            else:
+                p = run.claim(out / f"{stem}.{EXTENSIONS[f]}", f"the {f} coefficients {at}")
+                by_fmt[f].append([p] * len(names))
     for rx in exports:
-        stem = f"{base}-{rate_text(rx.fs_hz)}"
-        at = f"at {rx.fs_hz:g} Hz"
-        if fmt == "wav":
-            band_files.append([run.claim(out / f"{stem}-{st}.wav", f"band {n!r} {at}")
-                               for n, st in zip(names, stems)])
-            plans.append(dl.plan_delays([b.delay_samples for b in rx.bands], fractional_delay))
-        else:
-            ext = {"json": "json", "csv": "csv", "text": "txt"}[fmt]
-            p = run.claim(out / f"{stem}.{ext}", f"the {fmt} coefficients {at}")
-            band_files.append([p] * len(names))
-            plans.append(None)
+        plans.append(dl.plan_delays([b.delay_samples for b in rx.bands], fractional_delay)
+                     if "wav" in fmts else None)
     mpath = run.claim(out / f"{base}-manifest.json", "the manifest")
     try:
         make_folder(out)
     except OSError as e:
         raise ExportError(f"cannot make the folder {os_error_text(e)}", field="out") from None
     files: list[Path] = []
-    rate_entries, notes = [], []
-    for rx, paths, plan in zip(exports, band_files, plans):
-        wav_info = []
-        if fmt == "wav":
-            for b, p, bd in zip(rx.bands, paths, plan.bands):
-                h, _ = band_impulse_response(b, rx.fs_hz, bd)
-                write_file(p, lambda t, h=h: write_wav(t, h, rx.fs_hz))
-                files.append(p)
-                wav_info.append({"file": p.name, "samples": len(h),
-                                 "delay_whole_samples": bd.whole_samples,
-                                 "delay_fraction_applied_samples": bd.fraction_samples,
-                                 "delay_rounded_by_samples": bd.rounded_by_samples})
-            notes.extend(rounding.run_notes(rx.report, plan))
-        else:
-            write_text_file(paths[0], coefficient_text(rx, fmt, negate_feedback))
-            files.append(paths[0])
-            notes.extend(rounding.exact_notes(rx.report))
-        rate_entries.append(_manifest_rate(rx, paths, wav_info, plan))
+    entries: list[dict] = []
+    wav_infos: list[list[dict]] = [[] for _ in exports]
+    notes: list[str] = []
+    try:
+        for f in fmts:
+            for i, (rx, paths, plan) in enumerate(zip(exports, by_fmt[f], plans)):
+                if f == "wav":
+                    for b, p, bd in zip(rx.bands, paths, plan.bands):
+                        h, _ = band_impulse_response(b, rx.fs_hz, bd)
+                        write_file(p, lambda t, h=h: write_wav(t, h, rx.fs_hz))
+                        files.append(p)
+                        entries.append(_entry(p, f, rx, b.name))
+                        wav_infos[i].append({
+                            "file": p.name, "samples": len(h),
+                            "delay_whole_samples": bd.whole_samples,
+                            "delay_fraction_applied_samples": bd.fraction_samples,
+                            "delay_rounded_by_samples": bd.rounded_by_samples})
+                    notes.extend(rounding.run_notes(rx.report, plan))
+                else:
+                    write_text_file(paths[0], coefficient_text(rx, f, negate_feedback))
+                    files.append(paths[0])
+                    entries.append(_entry(paths[0], f, rx, None))
+                    notes.extend(n for n in rounding.exact_notes(rx.report) if n not in notes)
+    except ExportError as e:
+        e.written = list(files)
+        raise
+    rate_entries = [_manifest_rate(rx, [by_fmt[f][i] for f in fmts], fmts, wav_infos[i],
+                                   plans[i] if "wav" in fmts else None)
+                    for i, rx in enumerate(exports)]
+    now = datetime.now(timezone.utc).isoformat(timespec="seconds")
+    settings = {"arith": a.name, "negated_feedback": bool(negate_feedback),
+                "pre_attenuate": bool(pre_attenuate), "sections": sections,
+                "denominator": denominator_text(negate_feedback)}
+    this_run = {
+        "created_utc": now, "crossplan_version": __version__,
+        "project": project.name, "project_file": source,
+        "content_hash": content_hash(project), "file_formats": list(fmts), **settings,
+        "fractional_delay": fractional_delay if "wav" in fmts else "exact",
+        "rates": [rate_value(r) for r in uniq],
+        "checks_ok": bool(checks_ok),
+        "checks": rate_entries,
+    }
     manifest = {
         "format": MANIFEST_FORMAT, "version": 1,
         "project": project.name, "project_file": source,
-        "content_hash": content_hash(project),
+        "content_hash": this_run["content_hash"],
         "crossplan_version": __version__,
-        "created_utc": datetime.now(timezone.utc).isoformat(timespec="seconds"),
-        "file_format": fmt, "arith": a.name, "negated_feedback": bool(negate_feedback),
-        "pre_attenuate": bool(pre_attenuate), "sections": sections,
-        "denominator": denominator_text(negate_feedback),
-        "fractional_delay": fractional_delay if fmt == "wav" else "exact",
-        "rates": [rate_value(r) for r in uniq],
+        "created_utc": now,
+        "file_format": ",".join(fmts), "file_formats": list(fmts), **settings,
+        "fractional_delay": this_run["fractional_delay"],
+        "rates": this_run["rates"],
         "files": [p.name for p in files],
         "drivers": driver_records(project),
         "checks": rate_entries,
     }
+    manifest, mnotes = merge_manifest(mpath, manifest, this_run, entries)
+    notes.extend(mnotes)
     text = dumps(manifest, indent=1)
-    write_text_file(mpath, text)
-    return ExportResult(exports, files, mpath, arith_ok, checks_ok, band_files, plans, notes)
+    try:
+        write_text_file(mpath, text)
+    except ExportError as e:
+        e.written = list(files)
+        raise
+    band_files = by_fmt[fmts[0]]
+    return ExportResult(exports, files, mpath, arith_ok, checks_ok, band_files, plans, notes,
+                        formats=list(fmts), files_by_format={f: [p for ps in by_fmt[f] for p in
+                                                                 dict.fromkeys(ps)]
+                                                             for f in fmts})
 
 
-def _manifest_rate(rx: RateExport, paths: Sequence[Path], wav_info: Sequence[dict],
-                   plan) -> dict:
+def _entry(path: Path, fmt: str, rx: RateExport, band: str | None) -> dict:
+    """The manifest's record of one file this run wrote (its run is filled in by the merge)."""
+    return {"file": path.name, "format": fmt, "sample_rate": rate_value(rx.fs_hz),
+            "band": band, "bytes": path.stat().st_size, "sha256": file_sha256(path),
+            "check_ok": bool(rx.report.ok)}
+
+
+def merge_manifest(path: Path, manifest: dict, this_run: dict,
+                   entries: list[dict]) -> tuple[dict, list[str]]:
+    """The manifest to write: this run's, plus what an earlier one at ``path`` lists still.
+
+    ``manifest["entries"]`` lists every file of the folder's exports of this
+    project: this run's ``entries``, then each entry of the earlier
+    manifest whose file this run did not write and which is still present
+    (its recorded SHA-256 is kept as it was; a file changed since then
+    shows as a mismatch when checked). ``manifest["runs"]`` holds each run
+    that still has a file listed, numbered (``id``), with its settings and
+    check results; every entry names its run (``run``) and carries its
+    settings (``arith``, ``sections``, ``negated_feedback``,
+    ``pre_attenuate``, ``fractional_delay``), the project's ``content_hash``
+    and the file's own ``sha256`` and ``bytes``. The top-level keys
+    other than ``entries`` and ``runs`` describe this run only, as before.
+
+    An earlier manifest that cannot be read, or that is not a crossplan
+    manifest, is replaced; the note returned says so.
+    """
+    notes: list[str] = []
+    old_entries: list[dict] = []
+    old_runs: list[dict] = []
+    if path.exists():
+        try:
+            old = json.loads(path.read_text(encoding="utf-8"))
+            if not isinstance(old, dict) or old.get("format") != MANIFEST_FORMAT:
+                raise ValueError("not a crossplan export manifest")
+            old_entries = [e for e in old.get("entries", []) if isinstance(e, dict)]
+            old_runs = [r for r in old.get("runs", []) if isinstance(r, dict)]
+            if not old_entries and isinstance(old.get("files"), list):
+                # A manifest from before entries were kept: its files, as one run.
+                run0 = {k: old.get(k) for k in ("created_utc", "crossplan_version", "project",
+                                                "project_file", "content_hash", "arith",
+                                                "negated_feedback", "pre_attenuate",
+                                                "sections", "fractional_delay", "rates",
+                                                "checks")}
+                run0["file_formats"] = [old.get("file_format")]
+                run0["id"] = 1
+                old_runs = [run0]
+                old_entries = [{"file": n, "format": old.get("file_format"), "sha256": None,
+                                "run": 1} for n in old["files"] if isinstance(n, str)]
+        except (OSError, ValueError) as e:
+            notes.append(f"the earlier manifest {path.name} could not be read ({e}); "
+                         "it is replaced by this run's")
+            old_entries, old_runs = [], []
+    run_id = 1 + max((int(r.get("id", 0)) for r in old_runs
+                      if isinstance(r.get("id", 0), int)), default=0)
+    mine = {e["file"].lower() for e in entries}
+    kept = [e for e in old_entries if isinstance(e.get("file"), str)
+            and e["file"].lower() not in mine and (path.parent / e["file"]).is_file()]
+    used = {e.get("run") for e in kept}
+    runs = [r for r in old_runs if r.get("id") in used]
+    runs.append({"id": run_id, **this_run})
+    manifest = dict(manifest)
+    manifest["run"] = run_id
+    same = {k: this_run.get(k) for k in ("content_hash", "created_utc", "arith", "sections",
+                                         "negated_feedback", "pre_attenuate")}
+    manifest["entries"] = [{**e, **same, "fractional_delay": (this_run.get("fractional_delay")
+                                                              if e["format"] == "wav"
+                                                              else "exact"), "run": run_id}
+                           for e in entries] + kept
+    manifest["runs"] = runs
+    return manifest, notes
+
+
+def _manifest_rate(rx: RateExport, paths_by_fmt: Sequence[Sequence[Path]],
+                   fmts: Sequence[str], wav_info: Sequence[dict], plan) -> dict:
     """One rate's entry of the manifest: the check, and per band its file and figures.
+
+    ``file`` (per band) and ``band_files`` name the file of the run's first
+    format; ``files`` (per band) and ``band_files_by_format`` every format's.
+    With ``wav`` among the formats, ``delays`` is the WAV files' plan (the
+    coefficient files of the same run still hold the exact delay).
 
     ``delays`` says how the band delays were made at this rate: for the
     WAV format the run's :class:`planner.delays.DelayPlan` (``apply`` or
@@ -368,9 +522,12 @@ def _manifest_rate(rx: RateExport, paths: Sequence[Path], wav_info: Sequence[dic
     ``"exact"``: the files hold ``delay_samples`` as designed.
     """
     names = [b.name for b in rx.bands]
+    paths = paths_by_fmt[0]
     bands = []
     for i, (b, p) in enumerate(zip(rx.bands, paths)):
-        d = {"name": b.name, "file": p.name, "sections": len(b.stored_sos),
+        d = {"name": b.name, "file": p.name,
+             "files": {f: ps[i].name for f, ps in zip(fmts, paths_by_fmt)},
+             "sections": len(b.stored_sos),
              "post_shifts": list(b.shifts),
              "fir_taps": 0 if b.stored_fir is None else len(b.stored_fir),
              "peak_internal_gain_db": b.peak_internal_gain_db,
@@ -392,4 +549,6 @@ def _manifest_rate(rx: RateExport, paths: Sequence[Path], wav_info: Sequence[dic
                               if plan.mode == "round" and plan.fractional else None)
     return {"sample_rate": rate_value(rx.fs_hz), "check": rx.report.to_dict(),
             "arith_ok": rx.arith_ok, "delays": delays, "bands": bands,
-            "band_files": {b.name: p.name for b, p in zip(rx.bands, paths)}}
+            "band_files": {b.name: p.name for b, p in zip(rx.bands, paths)},
+            "band_files_by_format": {f: {b.name: p.name for b, p in zip(rx.bands, ps)}
+                                     for f, ps in zip(fmts, paths_by_fmt)}}

@@ -101,6 +101,25 @@ def coefficient_repr(x: float, arith: qz.Arith | None = None) -> str:
     return repr(float(x))
 
 
+def fixed_integer(x: float, arith: qz.Arith) -> int | None:
+    """The integer a ``qM.N`` word holds for the value ``x`` (``x * 2^N``), or None.
+
+    None for floating point, or when ``x`` is not a whole number of steps
+    ``2^-N`` (it always is for a value the export rounded to that format).
+    """
+    if arith is None or arith.kind != "fixed" or not np.isfinite(x):
+        return None
+    n = float(x) * 2.0 ** arith.frac_bits
+    return int(n) if n.is_integer() else None
+
+
+def _coefficient_text(x: float, arith: qz.Arith | None) -> str:
+    """``coefficient_repr``, and for ``qM.N`` the stored integer: ``0.25  (268435456 / 2^30)``."""
+    t = coefficient_repr(x, arith)
+    k = fixed_integer(x, arith)
+    return t if k is None else f"{t}  ({k} / 2^{arith.frac_bits})"
+
+
 def _section_label(b: BandExport, k: int) -> str:
     """``"filter 2: LR4 lowpass 2.2 kHz"`` for section ``k`` (0-based) in per-filter mode."""
     if b.section_filters is None:
@@ -151,7 +170,17 @@ def to_text(rx: RateExport, negate_feedback: bool = False) -> str:
              "# a section with a post-shift k holds its coefficients / 2^k: shift its "
              "accumulator left by k bits",
              "# band output = gain * scale * polarity * sections (in order) [* fir], "
-             "delayed by delay_samples", ""]
+             "delayed by delay_samples"]
+    if rx.arith.kind == "fixed":
+        lines.append(f"# each coefficient: its exact value, then (the integer word / 2^"
+                     f"{rx.arith.frac_bits}) as a {rx.arith.name} DSP stores it")
+    elif rx.arith.kind == "float32":
+        lines.append("# each coefficient: the shortest decimal that reads back as the same "
+                     "float32 (at most 9 significant digits)")
+    else:
+        lines.append("# each coefficient: the shortest decimal that reads back as the same "
+                     "float64 (at most 17 significant digits)")
+    lines.append("")
     for b in rx.bands:
         lines.append(f"band {b.name}")
         lines.append(f"  gain_db        {coefficient_repr(b.gain_db)}"
@@ -165,13 +194,13 @@ def to_text(rx: RateExport, negate_feedback: bool = False) -> str:
             shift = b.shifts[k] if b.shifts else 0
             lines.append(f"  section {k + 1}" + (f"  ({label})" if label else "")
                          + (f"  post-shift {shift}" if shift else ""))
-            lines.extend(f"    {name} = {coefficient_repr(v, rx.arith)}" for name, v in zip(
+            lines.extend(f"    {name} = {_coefficient_text(v, rx.arith)}" for name, v in zip(
                 ("b0", "b1", "b2", "a1", "a2"), row))
         if b.stored_fir is None:
             lines.append("  fir            none")
         else:
             lines.append(f"  fir            {len(b.stored_fir)} taps")
-            lines.extend(f"    {coefficient_repr(t, rx.arith)}" for t in b.stored_fir)
+            lines.extend(f"    {_coefficient_text(t, rx.arith)}" for t in b.stored_fir)
         lines.append("")
     return "\n".join(lines)
 

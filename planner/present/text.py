@@ -11,7 +11,7 @@ from planner import config
 from planner.engine import Report
 from planner.units import format_hz
 
-__all__ = ["text_report", "compare_text", "SAFETY_NOTE"]
+__all__ = ["text_report", "compare_text", "SAFETY_NOTE", "failure_summary"]
 
 
 SAFETY_NOTE = (
@@ -44,10 +44,18 @@ def text_report(r: Report) -> str:
     lines.extend(_acoustic_head(r))
     if not s.figures["muted"]:
         f = s.figures
+        tgt = "" if f.get("target") is None else f" from the target {f['target']}"
+        aside = " (voicing set aside)" if f.get("voicing_set_aside") else ""
         lines.append(f"sum        {_state(s)} {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}"
-                     f"  (limit +/-{f['limit_db']:g} dB, ripple {f['ripple_db']:.2f} dB)")
+                     f"{tgt}{aside}  (limit +/-{f['limit_db']:g} dB, ripple "
+                     f"{f['ripple_db']:.2f} dB)")
     else:
         lines.append(f"sum        {_state(s)} every band is muted")
+    if r.voiced is not None:
+        v = r.voiced
+        lines.append(f"voiced     info {v['max_dev_db']:+.2f} dB at {format_hz(v['at_hz'])} from "
+                     f"{'the target ' + f['target'] if f.get('target') else '0 dB'} with the "
+                     f"voicing ({'; '.join(v['filters'])}); not checked")
     checked = r.checked_crossings
     if not checked:
         lines.append("crossings  --   none above the floor "
@@ -151,6 +159,35 @@ def _result(r: Report) -> str:
     if warned:
         return f"ok: all checks pass ({', '.join(warned)}: warning only, not enforced)"
     return "ok: all checks pass"
+
+
+def failure_summary(r: Report) -> str:
+    """The failing checks of ``r`` in one phrase, with their figures (empty when none fails).
+
+    ``sum +1.42 dB at 2.2 kHz (limit +/-1 dB); crossing woofer/tweeter at
+    2.2 kHz 180.0 deg apart (limit 20 deg)``: for the one final line of
+    ``crossplan export``.
+    """
+    parts = []
+    for c in r.checks:
+        if c.state != "fail":
+            continue
+        f = c.figures
+        if c.name == "sum":
+            tgt = "" if f.get("target") is None else f" from the target {f['target']}"
+            parts.append("sum: every band is muted" if f["muted"] else
+                         f"sum {f['max_dev_db']:+.2f} dB at {format_hz(f['at_hz'])}{tgt} "
+                         f"(limit +/-{f['limit_db']:g} dB)")
+        elif c.name == "crossings":
+            parts.extend(f"crossing {x.bands[0]}/{x.bands[1]} at {format_hz(x.freq_hz)} "
+                         f"{x.phase_diff_deg:+.1f} deg apart (limit {f['limit_deg']:g} deg)"
+                         for x in f["failing"])
+        elif c.name == "headroom":
+            parts.extend(f"headroom {r.bands[i].name} {r.bands[i].peak_gain_db:+.2f} dB "
+                         f"(limit {f['limit_db']:+g} dB)" for i in f["over"])
+        else:
+            parts.append(c.name)
+    return "; ".join(parts)
 
 
 #: Label and IIR column widths of the comparison table.

@@ -170,7 +170,7 @@ def test_top_level_help_lists_every_command(capsys):
 def test_command_help_shows_its_options(capsys):
     assert main(["compare", "--help"]) == 0
     out = capsys.readouterr().out
-    assert "--iir-family" in out and "default 8191" in out and "(default 60)" in out
+    assert "--iir-family" in out and "default 2047" in out and "(default 60)" in out
 
 
 def test_new_writes_the_preset_text_unchanged(tmp_path, capsys):

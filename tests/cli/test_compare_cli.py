@@ -37,7 +37,7 @@ def test_compare_json_keys(lr4_file, capsys):
 def test_compare_unmet_spec_exit_1_with_the_reason(lr4_file, capsys):
     assert main(["compare", lr4_file, "--max-taps", "9"]) == 1
     out = capsys.readouterr().out
-    assert "spec not met: band low: taps:" in out
+    assert "spec not met: band low: max_taps: an equiripple FIR meeting" in out
 
 
 def test_compare_invalid_file_exit_2(write_project, capsys, example):

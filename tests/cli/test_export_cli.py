@@ -73,11 +73,13 @@ def test_export_nyquist_exit_2_names_band_and_filter(write_project, tmp_path, ca
     assert "Traceback" not in err
 
 
-def test_export_fragile_q1_15_exit_1_names_band_and_section(write_project, tmp_path, capsys):
+def test_export_fragile_q1_15_exit_3_names_band_and_section(write_project, tmp_path, capsys):
     assert main(["export", str(write_project(FRAGILE)), "--arith", "q1.15",
-                 "--out", str(tmp_path / "o")]) == 1
+                 "--out", str(tmp_path / "o")]) == 3
     cap = capsys.readouterr()
     assert "band 'sub' section 1: q1.15 cannot hold the design at 192000 Hz" in cap.err
+    assert cap.err.splitlines()[-1] == ("nothing written: q1.15 cannot hold band 'sub' at "
+                                        "192000 Hz")
     assert "try: " in cap.out and "q2.30 holds this design" in cap.out
     assert not (tmp_path / "o").exists()
 
@@ -105,7 +107,12 @@ def test_export_negate_feedback_and_pre_attenuate_keys(write_project, tmp_path):
 def test_export_check_failure_exit_1_files_written(write_project, tmp_path, capsys):
     # An LR2 pair without inversion cancels at the crossover: the check fails.
     assert main(["export", str(write_project(two_way(2))), "--out", str(tmp_path)]) == 1
-    assert "check FAIL at 48000 Hz" in capsys.readouterr().err
+    last = capsys.readouterr().err.splitlines()[-1]
+    # 20 log10 |H_lp + H_hp| of two LR2 at their shared frequency: |1/2 - 1/2|... the pair
+    # cancels there (Linkwitz and Riley 1976), a deep dip the line names with its limit.
+    assert last.startswith(f"wrote 2 files (json and the manifest) to {tmp_path}; check failed "
+                           "at 48000 Hz: sum ")
+    assert "(limit +/-1 dB)" in last
     assert (tmp_path / "test-2-way-manifest.json").exists()
 
 
@@ -190,13 +197,15 @@ def test_export_fir_wav_is_the_taps(write_project, tmp_path):
         assert np.max(np.abs(h - ref)) < 1e-7   # float32 storage of the taps
 
 
-def test_export_unmet_fir_spec_exit_1(write_project, tmp_path, capsys):
+def test_export_unmet_fir_spec_exit_3_nothing_written(write_project, tmp_path, capsys):
     raw = two_way()
     raw["bands"][0]["filters"][0] = {"type": "lowpass", "family": "fir", "method": "remez",
                                      "freq": 2200, "transition_hz": 100, "atten_db": 80,
                                      "max_taps": 101}
-    assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "out")]) == 1
-    assert "max_taps 101" in capsys.readouterr().err
+    assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "out")]) == 3
+    err = capsys.readouterr().err
+    assert "max_taps 101" in err
+    assert err.splitlines()[-1].startswith("nothing written: an FIR spec cannot be met")
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").glob("*.json"))
 
 
@@ -243,8 +252,45 @@ def test_export_json_holds_the_exact_delay_and_notes_it(write_project, tmp_path,
 
 def test_export_bad_fractional_mode_exit_2(write_project, tmp_path, capsys):
     assert main(["export", str(write_project(two_way())), "--fractional-delay", "floor",
-                 "--out", str(tmp_path)]) == 2
-    assert "invalid choice: 'floor'" in capsys.readouterr().err
+                 "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "invalid choice: 'floor'" in err
+    assert err.splitlines()[-1] == "nothing written: invalid usage (exit 2)"
+    assert not (tmp_path / "o").exists()
+
+
+def test_export_ok_ends_in_one_line_saying_what_it_wrote(write_project, tmp_path, capsys):
+    out = tmp_path / "o"
+    assert main(["export", str(write_project(two_way())), "--rate", "44100", "--rate", "48000",
+                 "--out", str(out)]) == 0
+    last = capsys.readouterr().out.splitlines()[-1]
+    assert last == f"wrote 3 files (json and the manifest) to {out}; every check passes"
+    assert len(list(out.iterdir())) == 3
+
+
+def test_export_nyquist_ends_nothing_written(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way(fc=2000))), "--rate", "4000",
+                 "--out", str(tmp_path / "o")]) == 2
+    last = capsys.readouterr().err.splitlines()[-1]
+    assert last.startswith("nothing written: ") and "Nyquist" in last
+    assert not (tmp_path / "o").exists()
+
+
+def test_export_invalid_project_exit_2_nothing_written(write_project, tmp_path, capsys):
+    raw = two_way()
+    raw["bands"][0]["filters"][0]["freq"] = -5
+    assert main(["export", str(write_project(raw)), "--out", str(tmp_path / "o")]) == 2
+    assert capsys.readouterr().err.splitlines()[-1] == ("nothing written: the project is "
+                                                        "invalid (above)")
+    assert not (tmp_path / "o").exists()
+
+
+def test_export_help_lists_the_exit_codes(capsys):
+    assert main(["export", "--help"]) == 0
+    out = capsys.readouterr().out
+    for line in ("0  files written; every check passes", "1  files written (and the manifest)",
+                 "2  nothing written: invalid input", "3  nothing written: the design cannot"):
+        assert line in out
 
 
 def test_export_wav_names_each_bands_file(write_project, tmp_path, capsys):
@@ -264,3 +310,21 @@ def test_export_wav_names_each_bands_file(write_project, tmp_path, capsys):
         path = line[len("wrote "):-len(f" (band {x}, 48000 Hz)")]
         assert wavfile.read(path)[0] == 48000
     assert len(list(tmp_path.glob("*.wav"))) == 3
+
+
+def test_export_several_formats_one_run(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way())), "--format", "json,csv",
+                 "--format", "text", "--out", str(tmp_path / "o")]) == 0
+    assert sorted(p.name for p in (tmp_path / "o").iterdir()) == [
+        "test-2-way-48000.csv", "test-2-way-48000.json", "test-2-way-48000.txt",
+        "test-2-way-manifest.json"]
+    assert capsys.readouterr().out.splitlines()[-1].startswith(
+        "wrote 4 files (json, csv, text and the manifest)")
+
+
+def test_export_bad_format_in_a_list_exit_2(write_project, tmp_path, capsys):
+    assert main(["export", str(write_project(two_way())), "--format", "json,xml",
+                 "--out", str(tmp_path / "o")]) == 2
+    err = capsys.readouterr().err
+    assert "must be one or more of json, csv, text, wav" in err
+    assert not (tmp_path / "o").exists()

@@ -16,8 +16,15 @@ from planner.errors import CrossplanError
 def test_format_response_text_layout():
     text = format_response_text([1000.0, 2000.0], [-3.0103, 0.5], [-90.0, 12.25],
                                 header_lines=["woofer, 1 m", "gated 7 ms"])
-    assert text == ("* woofer, 1 m\n* gated 7 ms\n"
+    assert text == ("# woofer, 1 m\n# gated 7 ms\n"
                     "1000  -3.0103  -90.000\n2000  0.5000  12.250\n")
+
+
+def test_older_star_comments_still_read():
+    # Files written by earlier versions (and by other tools) mark comments with '*'.
+    r = parse_response_text("* woofer, 1 m\n* gated 7 ms\n1000 -3 -90\n2000 0.5 12.25\n")
+    assert r.header == ["woofer, 1 m", "gated 7 ms"]
+    np.testing.assert_array_equal(r.freqs_hz, [1000.0, 2000.0])
 
 
 def test_format_parse_round_trip():
