@@ -31,7 +31,8 @@ __all__ = [
     "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
     "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
     "set_filter_type", "toggle_bypass", "set_analysis", "set_sample_rate", "nyquist_problems",
-    "DEFAULT_FILTER", "BAND_FLAGS",
+    "DEFAULT_FILTER", "BAND_FLAGS", "add_crossover", "set_crossover", "remove_crossover",
+    "link_filter", "toggle_voicing",
 ]
 
 #: A new filter: a peaking EQ of 0 dB changes nothing until it is edited.
@@ -40,7 +41,7 @@ DEFAULT_FILTER = {"type": "peaking", "freq": 1000.0, "gain_db": 0.0, "q": 1.0}
 BAND_FLAGS = ("invert", "mute", "solo")
 _BAND_SETTINGS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo"}
 _ANALYSIS_SETTINGS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
-                      "arith", "enforce_headroom"}
+                      "arith", "enforce_headroom", "target"}
 _Q_DEFAULT = 0.7071067811865476
 
 
@@ -201,7 +202,9 @@ def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Proj
 
     A value of None removes the parameter (e.g. ``q=None`` to give a shelf a ``slope``).
     On a band of a complementary FIR split, every parameter but ``band`` changes in all the
-    split's bands at once (see :func:`_sharing`).
+    split's bands at once (see :func:`_sharing`). Giving a filter tied to a named crossover
+    a ``freq`` of its own unties it (the other filters of the crossover stay where they
+    are); to move them all, use :func:`set_crossover`.
     """
     def change(d):
         f = _chain(d, band, flt)[flt]
@@ -212,6 +215,8 @@ def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Proj
                 raise ProjectError("use set_filter_type to change the type or family",
                                    field=f"bands[{band}].filters[{flt}].{key}")
             for g in [f] + ([] if key == "band" else siblings):
+                if key == "freq":
+                    g.pop("crossover", None)
                 if value is None:
                     g.pop(key, None)
                 else:
@@ -317,6 +322,70 @@ def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
     if type_ == "bandpass":
         tw = min(tw, 0.5 * (new["freq2"] - f))
     new.update(window="kaiser", transition_hz=float(f"{tw:.3g}"), atten_db=60.0)
+
+
+def toggle_voicing(p: Project, band: int, flt: int) -> Project:
+    """Mark a filter as voicing (deliberate EQ, set aside by the crossover checks), or unmark it."""
+    def change(d):
+        f = _chain(d, band, flt)[flt]
+        if f.get("voicing"):
+            f.pop("voicing")
+        else:
+            f["voicing"] = True
+    return _rebuild(p, change)
+
+
+# -- named crossovers ---------------------------------------------------------------------
+
+def _crossover_entry(d: dict, name: str) -> dict:
+    xo = d.get("crossovers") or {}
+    if name not in xo:
+        have = ", ".join(repr(k) for k in xo) or "none"
+        raise ProjectError(f"no crossover named {name!r} ({have})", field=f"crossovers.{name}")
+    return xo[name]
+
+
+def add_crossover(p: Project, name: str, freq_hz: float) -> Project:
+    """Name a new crossover at ``freq_hz`` (filters are tied to it with :func:`link_filter`)."""
+    def change(d):
+        xo = d.setdefault("crossovers", {})
+        if name in xo:
+            raise ProjectError("is the name of a crossover already", field=f"crossovers.{name}")
+        xo[name] = {"freq": freq_hz}
+    return _rebuild(p, change)
+
+
+def set_crossover(p: Project, name: str, freq_hz: float) -> Project:
+    """Move the named crossover to ``freq_hz``: every filter tied to it follows (one edit)."""
+    def change(d):
+        _crossover_entry(d, name)["freq"] = freq_hz
+    return _rebuild(p, change)
+
+
+def remove_crossover(p: Project, name: str) -> Project:
+    """Drop the named crossover; its filters keep their frequency as their own."""
+    def change(d):
+        _crossover_entry(d, name)
+        del d["crossovers"][name]
+        if not d["crossovers"]:
+            del d["crossovers"]
+        for b in d["bands"]:
+            for f in b.get("filters", []) + b.get("target", []):
+                if f.get("crossover") == name:
+                    del f["crossover"]
+    return _rebuild(p, change)
+
+
+def link_filter(p: Project, band: int, flt: int, name: str | None) -> Project:
+    """Tie a filter to the named crossover (it takes that ``freq``), or untie it (None)."""
+    def change(d):
+        f = _chain(d, band, flt)[flt]
+        if name is None:
+            f.pop("crossover", None)
+        else:
+            _crossover_entry(d, name)
+            f["crossover"] = name
+    return _rebuild(p, change)
 
 
 # -- analysis and rate --------------------------------------------------------------------

@@ -51,6 +51,10 @@ class Filter:
         ``q``, ``order``, ...).
     bypass : bool
         When true the filter is kept in the chain but not applied.
+    crossover : str or None
+        The name of the project's crossover (:attr:`Project.crossovers`) this
+        filter is tied to: its ``freq`` is that crossover's, and moving the
+        crossover moves it. None for a filter with a frequency of its own.
     voicing : bool
         Deliberate EQ (voicing): the filter is applied, but the crossover
         checks (sum against the target, phase at the crossings) are judged
@@ -65,6 +69,7 @@ class Filter:
     bypass: bool = False
     extra: Mapping[str, Any] = field(default_factory=dict)
     voicing: bool = False
+    crossover: str | None = None
 
     def __post_init__(self):
         object.__setattr__(self, "params", _frozen(self.params))
@@ -80,10 +85,10 @@ class Filter:
         if not isinstance(other, Filter):
             return NotImplemented
         return (self.key == other.key and self.bypass == other.bypass
-                and self.voicing == other.voicing)
+                and self.voicing == other.voicing and self.crossover == other.crossover)
 
     def __hash__(self):
-        return hash((self.key, self.bypass, self.voicing))
+        return hash((self.key, self.bypass, self.voicing, self.crossover))
 
     def with_params(self, **changes: Any) -> "Filter":
         """A copy with some parameters changed (not checked: see :mod:`planner.project`)."""
@@ -308,7 +313,13 @@ class Acoustics:
 
 @dataclass(frozen=True)
 class Project:
-    """A whole project: name, sample rate, analysis settings and bands."""
+    """A whole project: name, sample rate, analysis settings and bands.
+
+    ``crossovers`` names the project's crossover points (``{"upper": {"freq":
+    3000.0}}``): each filter whose ``crossover`` names one takes its ``freq``
+    from it, so the filters on either side of a split (and an all-pass tied
+    to it) move together by one value. Each entry keeps its unknown keys.
+    """
 
     name: str
     sample_rate: float
@@ -318,10 +329,19 @@ class Project:
     acoustics: Acoustics = field(default_factory=Acoustics)
     #: the folder driver files are named relative to (not saved)
     source_dir: str | None = field(default=None, compare=False)
+    #: named crossover points: name -> {"freq": Hz, ...} (file order)
+    crossovers: Mapping[str, Mapping[str, Any]] = field(default_factory=dict, hash=False)
 
     def __post_init__(self):
         object.__setattr__(self, "bands", tuple(self.bands))
         object.__setattr__(self, "extra", _frozen(self.extra))
+        object.__setattr__(self, "crossovers", MappingProxyType(
+            {k: _frozen(v) for k, v in dict(self.crossovers or {}).items()}))
+
+    def linked(self, name: str) -> list[tuple[int, int]]:
+        """(band, filter) of every filter tied to the crossover ``name``, project order."""
+        return [(i, j) for i, b in enumerate(self.bands) for j, f in enumerate(b.filters)
+                if f.crossover == name]
 
     @property
     def has_drivers(self) -> bool:

@@ -38,14 +38,15 @@ __all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "rea
 MIGRATIONS: dict[int, Callable[[dict], dict]] = {}
 
 
-_PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands"}
+_PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands",
+                 "crossovers"}
 _ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
                    "angle_max_deg", "angle_step_deg", "axis_mm", "window_db"}
 _ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
                   "arith", "enforce_headroom", "target"}
 _BAND_KEYS = {"name", "gain_db", "delay_ms", "invert", "mute", "solo", "filters", "driver",
               "target"}
-_FILTER_BASE = {"type", "family", "bypass", "voicing"}
+_FILTER_BASE = {"type", "family", "bypass", "voicing", "crossover"}
 
 
 def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit="",
@@ -86,14 +87,28 @@ def _obj(v: Any, field: str) -> Mapping:
     return v
 
 
-def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
+def check_filter(raw: Mapping[str, Any], fs_hz: float,
+                 crossovers: Mapping[str, Mapping] | None = None) -> Filter:
     """Check one filter's JSON form at ``fs_hz`` and return the :class:`Filter`.
 
     Every field is checked; nothing is designed (a filter that cannot be
     made, such as an FIR spec that cannot be met, is refused when it is
-    designed: :func:`planner.engine.design_project`).
+    designed: :func:`planner.engine.design_project`). A filter whose
+    ``crossover`` names one of ``crossovers`` (the project's, already
+    checked) takes that crossover's ``freq``, over any ``freq`` of its own.
     """
     raw = _obj(raw, "")
+    link = raw.get("crossover")
+    if link is not None:
+        if not isinstance(link, str):
+            raise ProjectError(f"must be the name of one of the project's crossovers, not "
+                               f"{link!r}", field="crossover")
+        xo = dict(crossovers or {})
+        if link not in xo:
+            have = ", ".join(repr(k) for k in xo) or "none"
+            raise ProjectError(f"no crossover named {link!r} in the project's crossovers "
+                               f"({have})", field="crossover")
+        raw = {**raw, "freq": xo[link]["freq"]}
     if "type" not in raw:
         raise ProjectError("missing; every filter needs a type", field="type")
     if not isinstance(raw["type"], str):
@@ -102,28 +117,33 @@ def check_filter(raw: Mapping[str, Any], fs_hz: float) -> Filter:
     if family is not None and not isinstance(family, str):
         raise ProjectError(f"must be a string, not {family!r}", field="family")
     kind = fk.lookup(raw["type"], family)
+    if link is not None and "freq" not in {f.name for f in kind.fields}:
+        raise ProjectError(f"a {raw['type']} filter has no freq to take from crossover "
+                           f"{link!r}", field="crossover")
     params = fk.check_params(kind, raw, fs_hz)
     known = _FILTER_BASE | {f.name for f in kind.fields}
     extra = {k: v for k, v in raw.items() if k not in known}
     return Filter(kind.type, kind.family, params, bypass=_bool(raw, "bypass"), extra=extra,
-                  voicing=_bool(raw, "voicing"))
+                  voicing=_bool(raw, "voicing"), crossover=link)
 
 
-def _chain(raw: Mapping, key: str, fs_hz: float) -> tuple[Filter, ...]:
+def _chain(raw: Mapping, key: str, fs_hz: float,
+           crossovers: Mapping[str, Mapping] | None = None) -> tuple[Filter, ...]:
     flist = raw.get(key, [])
     if not isinstance(flist, list):
         raise ProjectError(f"must be a list, not {type(flist).__name__}", field=key)
     chain = []
     for j, f in enumerate(flist):
         try:
-            chain.append(check_filter(f, fs_hz))
+            chain.append(check_filter(f, fs_hz, crossovers))
         except CrossplanError as e:
             raise e.at(f"{key}[{j}]") from None
     return tuple(chain)
 
 
 def check_band(raw: Mapping[str, Any], fs_hz: float, analysis: Analysis | None = None,
-               base_dir: str | os.PathLike | None = None) -> Band:
+               base_dir: str | os.PathLike | None = None,
+               crossovers: Mapping[str, Mapping] | None = None) -> Band:
     """Check one band's JSON form and return the :class:`Band`.
 
     A ``driver`` (:mod:`planner.drivers`) names its measurement file relative
@@ -147,9 +167,9 @@ def check_band(raw: Mapping[str, Any], fs_hz: float, analysis: Analysis | None =
         invert=_bool(raw, "invert"),
         mute=_bool(raw, "mute"),
         solo=_bool(raw, "solo"),
-        filters=_chain(raw, "filters", fs_hz),
+        filters=_chain(raw, "filters", fs_hz, crossovers),
         driver=driver,
-        target=_chain(raw, "target", fs_hz),
+        target=_chain(raw, "target", fs_hz, crossovers),
         extra={k: v for k, v in raw.items() if k not in _BAND_KEYS},
     )
 
@@ -279,6 +299,31 @@ def migrate(raw: Mapping[str, Any], notices: list[str] | None = None) -> dict:
     return out
 
 
+def _crossovers(raw: Any, fs_hz: float) -> dict[str, dict]:
+    """The project's named crossovers: ``{"upper": {"freq": 3000}, ...}``, each checked."""
+    if raw is None:
+        return {}
+    if not isinstance(raw, dict):
+        raise ProjectError(f"must be an object of named crossovers, e.g. "
+                           f"{{\"upper\": {{\"freq\": 3000}}}}, not {type(raw).__name__}",
+                           field="crossovers")
+    out = {}
+    for name, v in raw.items():
+        if not name.strip():
+            raise ProjectError("a crossover needs a non-empty name", field="crossovers")
+        at = f"crossovers.{name}"
+        try:
+            v = _obj(v, "")
+            f = float(_num(v, "freq", lo=0, lo_open=True, unit="Hz"))
+            if f >= fs_hz / 2:
+                raise ProjectError(f"{f:g} Hz is at or above Nyquist ({fs_hz / 2:g} Hz) for "
+                                   f"sample_rate {fs_hz:g}", field="freq")
+        except CrossplanError as e:
+            raise e.at(at) from None
+        out[name] = {**v, "freq": f if f != int(f) else int(f)}
+    return out
+
+
 def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
               notices: list[str] | None = None) -> Project:
     """Check a project's JSON form (already parsed) and return the :class:`Project`.
@@ -311,13 +356,14 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
         acoustics = _acoustics(_obj(raw.get("acoustics", {}), ""))
     except CrossplanError as e:
         raise e.at("acoustics") from None
+    xo = _crossovers(raw.get("crossovers"), fs)
     blist = raw.get("bands")
     if not isinstance(blist, list) or not blist:
         raise ProjectError(f"must be a non-empty list of bands, not {blist!r}", field="bands")
     bands, seen = [], {}
     for i, b in enumerate(blist):
         try:
-            band = check_band(b, fs, analysis, base_dir)
+            band = check_band(b, fs, analysis, base_dir, xo)
         except CrossplanError as e:
             raise e.at(f"bands[{i}]") from None
         if band.name in seen:
@@ -329,7 +375,7 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
                    bands=tuple(bands), analysis=analysis,
                    extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS},
                    acoustics=acoustics,
-                   source_dir=None if base_dir is None else str(base_dir))
+                   source_dir=None if base_dir is None else str(base_dir), crossovers=xo)
 
 
 def _filter_dict(f: Filter) -> dict:
@@ -342,6 +388,8 @@ def _filter_dict(f: Filter) -> dict:
         d["bypass"] = True
     if f.voicing:
         d["voicing"] = True
+    if f.crossover is not None:
+        d["crossover"] = f.crossover
     d.update(f.extra)
     return d
 
@@ -360,6 +408,8 @@ def to_dict(project: Project) -> dict:
                      **({"target": a.target} if a.target is not None else {}), **a.extra},
         "bands": [],
     }
+    if project.crossovers:
+        out["crossovers"] = {k: dict(v) for k, v in project.crossovers.items()}
     ac = project.acoustics
     if ac != Acoustics() or ac.extra:
         out["acoustics"] = {k: getattr(ac, k) for k in sorted(_ACOUSTICS_KEYS)

@@ -212,3 +212,35 @@ def test_check_json_headroom(write_project, capsys):
     assert main(["check", str(write_project(_raised_two_way(True))), "--json"]) == 1
     d = json.loads(capsys.readouterr().out)
     assert d["ok"] is False and d["headroom"]["enforced"] is True
+
+
+def test_edit_moves_a_named_crossover_as_one_edit(write_project, capsys):
+    raw = {"format": "crossplan-project", "version": 1, "name": "x", "sample_rate": 48000,
+           "crossovers": {"xo": {"freq": 2000}},
+           "bands": [{"name": "low", "filters": [{"type": "lowpass", "family": "linkwitz-riley",
+                                                  "order": 4, "crossover": "xo"}]},
+                     {"name": "high", "filters": [{"type": "highpass",
+                                                   "family": "linkwitz-riley", "order": 4,
+                                                   "crossover": "xo"}]}]}
+    path = write_project(raw)
+    assert main(["edit", str(path), "--crossover", "xo=2.5k"]) == 0
+    out = capsys.readouterr().out
+    assert "moved crossover 2000 Hz 'xo' (low / high) to 2.5 kHz: 2 filter(s)" in out
+    assert out.splitlines()[-1] == "check: ok"
+    d = json.loads(path.read_text())
+    assert d["crossovers"] == {"xo": {"freq": 2500.0}}
+    assert [b["filters"][0]["crossover"] for b in d["bands"]] == ["xo", "xo"]
+    assert [b["filters"][0]["freq"] for b in d["bands"]] == [2500.0, 2500.0]
+
+
+def test_edit_names_a_point_by_frequency_and_refuses_a_bad_key(write_project, tmp_path,
+                                                               capsys):
+    path = write_project(two_way())
+    out = tmp_path / "named.json"
+    assert main(["edit", str(path), "--name-crossover", "xo=2k", "--out", str(out)]) == 0
+    d = json.loads(out.read_text())
+    assert d["crossovers"] == {"xo": {"freq": 2000.0}}
+    before = path.read_text()
+    assert main(["edit", str(path), "--crossover", "5k=6k"]) == 2
+    assert "no crossover named or at '5k'" in capsys.readouterr().err
+    assert path.read_text() == before           # nothing saved
