@@ -149,3 +149,24 @@ MEASURE_CLIP_MARGIN = 1.0 / 32768.0
 #: rooms (a reflection path 34 m longer than the direct one arrives 100 ms later; common
 #: practice, no published source).
 MEASURE_GATE_REFLECTIONS_MS = 100.0
+
+
+# --- bounds on the work one project can ask for ------------------------------------------
+#: Most bands a project may have. The check's crossing search looks at every pair of bands
+#: (64 bands: 2016 pairs), so time and memory grow with the square of the count; 64 bands
+#: check in seconds and a few hundred MB (benchmarks/bench_bounds.py).
+MAX_BANDS = 64
+#: The analysis grid's log-spaced points (analysis.points and the --points options): at
+#: least MIN_POINTS, at most MAX_POINTS. The whole grid, with the points the check adds
+#: (filter frequencies, narrow features, fast-change cells, refined extremes), stays
+#: within grid_cap(MAX_POINTS, MAX_BANDS).
+MIN_POINTS = 16
+MAX_POINTS = 65536
+#: Longest FIR each design method may make (taps), so that one design stays under about
+#: 1 GB and a bounded time (figures in benchmarks/bench_bounds.py): a window design is
+#: one sinc times a window (linear in the length); remez (Parks-McClellan, scipy's
+#: implementation) costs about the square of the length on its dense grid (16383 taps:
+#: about 10 s a design, 32767: over 2 min); least squares (scipy.signal.firls) solves an
+#: (N/2) x (N/2) linear system: 8191 taps take about 0.8 GB and 25 s, 16383 would take
+#: about 3 GB.
+FIR_MAX_TAPS = {"window": 32767, "remez": 16383, "lsq": 8191}

@@ -20,7 +20,7 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Callable, Mapping, NamedTuple
 
-from planner import drivers, presets, targets
+from planner import config, drivers, presets, targets
 from planner import filters as fk
 from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectChangedError, ProjectError
@@ -208,7 +208,7 @@ def _analysis(raw: Mapping, fs_hz: float, base_dir=None) -> Analysis:
                            f"{fs_hz:g}", field="f_max")
     if f_max <= f_min:
         raise ProjectError(f"{f_max:g} Hz must be above f_min ({f_min:g} Hz)", field="f_max")
-    points = _num(raw, "points", d.points, lo=16, hi=65536)
+    points = _num(raw, "points", d.points, lo=config.MIN_POINTS, hi=config.MAX_POINTS)
     if int(points) != points:
         raise ProjectError(f"must be a whole number, not {points!r}", field="points")
     return Analysis(
@@ -359,7 +359,12 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
     xo = _crossovers(raw.get("crossovers"), fs)
     blist = raw.get("bands")
     if not isinstance(blist, list) or not blist:
-        raise ProjectError(f"must be a non-empty list of bands, not {blist!r}", field="bands")
+        raise ProjectError(f"must be a non-empty list of bands, not {str(blist)[:60]}",
+                           field="bands")
+    if len(blist) > config.MAX_BANDS:
+        raise ProjectError(f"{len(blist)} bands is more than the {config.MAX_BANDS} a project "
+                           "may have (the check compares every pair of bands, so its time and "
+                           "memory grow with the square of the count)", field="bands")
     bands, seen = [], {}
     for i, b in enumerate(blist):
         try:

@@ -14,6 +14,7 @@ import json
 import sys
 from pathlib import Path
 
+from planner import config
 from planner.errors import CrossplanError
 from planner.jsonio import atomic_write_text
 
@@ -135,8 +136,9 @@ def run(args) -> int:
     f1, f2 = _band(args, fs_s)
     rec = _mono(rec, args.channel, "channel")
     sweep = _mono(sweep, 0, "sweep")
-    if args.points < 2:
-        raise CrossplanError(f"must be 2 or more, not {args.points}", field="points")
+    if not 2 <= args.points <= config.MAX_POINTS:
+        raise CrossplanError(f"must be 2 .. {config.MAX_POINTS} points, not {args.points}",
+                             field="points")
     for w in measure.check_recording(rec, sweep, fs, args.pre_ms, args.gate_ms):
         print(f"warning: {w}", file=sys.stderr)
     fade = min(1.0, args.gate_ms) if args.fade_ms is None else args.fade_ms

@@ -39,11 +39,11 @@ from planner.engine.design import BandDesign, design_band, evaluate, point_evalu
 from planner.engine.result import (BandResult, CheckResult, CrossingResult, Report,
                                    check_state)
 from planner.engine.warnings import warnings_of
-from planner.errors import CrossplanError
+from planner.errors import CrossplanError, ProjectError
 from planner.model import Band, Project
 from planner.targets import parse_target
 
-__all__ = ["analyse", "start_grid", "target_level", "voicing_labels"]
+__all__ = ["analyse", "check_points", "start_grid", "target_level", "voicing_labels"]
 
 
 def voicing_labels(project: Project) -> list[str]:
@@ -199,6 +199,20 @@ def _evaluators(project: Project, designs: list[BandDesign]):
     return drivers, response, AcousticPoints(electrical, drivers)
 
 
+def check_points(points) -> int:
+    """``points`` if it is a whole number of grid points the project file would take.
+
+    The same limits as ``analysis.points`` (:data:`planner.config.MIN_POINTS`,
+    :data:`planner.config.MAX_POINTS`); a ProjectError with field ``points`` otherwise.
+    """
+    if isinstance(points, bool) or not isinstance(points, (int, np.integer)):
+        raise ProjectError(f"must be a whole number of points, not {points!r}", field="points")
+    if not config.MIN_POINTS <= points <= config.MAX_POINTS:
+        raise ProjectError(f"{points} points is outside {config.MIN_POINTS} .. "
+                           f"{config.MAX_POINTS}, the limits of analysis.points", field="points")
+    return int(points)
+
+
 def analyse(project: Project, points: int | None = None) -> Report:
     """Design, evaluate and check every band of ``project`` at its sample rate.
 
@@ -209,6 +223,7 @@ def analyse(project: Project, points: int | None = None) -> Report:
         Grid points instead of ``project.analysis.points``.
     """
     if points is not None:
+        points = check_points(points)
         project = replace(project, analysis=replace(project.analysis, points=int(points)))
     fs = project.sample_rate
     a = project.analysis

@@ -140,6 +140,16 @@ def _odd_taps(taps: int, why: str) -> None:
             f"centre, no forced zero at Nyquist), not {taps}", field="taps")
 
 
+def _within_limit(p: Mapping[str, Any], method: str, field: str) -> None:
+    """Refuse ``p[field]`` taps beyond what ``method`` may design (planner.config.FIR_MAX_TAPS)."""
+    if p.get(field) is None:
+        return
+    try:
+        fir.check_method_taps(method, p[field], field)
+    except CrossplanError as e:
+        raise ProjectError(e.message, field=field) from None
+
+
 def _edges(p: Mapping[str, Any], fs_hz: float):
     """Pass and stop edges (Hz) of a remez/lsq spec from transition_hz or pass_hz/stop_hz."""
     kind, f1 = p["_type"], p["freq"]
@@ -219,6 +229,8 @@ def _check_band(kind: str):
             _check_window(p, kind, fs_hz)
             return
         _refuse(p, ("window", "beta"), f"the {method} method takes no window")
+        _within_limit(p, method, "taps")
+        _within_limit(p, method, "max_taps")
         if p.get("taps") is not None:
             _odd_taps(p["taps"], f"a {method} design")
             _refuse(p, ("max_taps",), "max_taps bounds the search made when taps is omitted")
@@ -458,6 +470,7 @@ def _check_split(p: Mapping[str, Any], fs_hz: float) -> None:
     _odd_taps(p["taps"], "a complementary split (its bands are lowpass differences and a "
                          "delayed impulse at (taps-1)/2)")
     method = p["method"]
+    _within_limit(p, method, "taps")
     if method == "window":
         _refuse(p, ("transition_hz",), "the window split is set by taps and window; "
                 "transition_hz applies to the remez and lsq splits")

@@ -45,7 +45,7 @@ References
 
 from __future__ import annotations
 
-from planner.dsp.fir.checks import KINDS
+from planner.dsp.fir.checks import KINDS, check_method_taps
 from planner.dsp.fir.design import clear_design_cache, equiripple_fir, least_squares_fir
 from planner.dsp.fir.estimates import (estimate_taps, kaiser_beta, kaiser_equiripple_taps,
                                        kaiser_taps)
@@ -65,6 +65,7 @@ from planner.errors import DesignCancelled
 __all__ = [
     "WINDOWS",
     "KINDS",
+    "check_method_taps",
     "DesignCancelled",
     "FirSpec",
     "FirDesign",

@@ -12,9 +12,10 @@ import math
 
 import numpy as np
 
+from planner import config
 from planner.errors import DesignError
 
-__all__ = ["KINDS", "check_fs", "check_freq", "check_upper_edge", "check_kind", "check_taps",
+__all__ = ["KINDS", "METHOD_NAMES", "check_method_taps", "check_fs", "check_freq", "check_upper_edge", "check_kind", "check_taps",
            "check_atten", "check_positive"]
 
 #: Filter kinds accepted by the designs.
@@ -100,3 +101,31 @@ def check_positive(value, field: str, unit: str) -> float:
     if not (v > 0 and math.isfinite(v)):
         raise DesignError(f"must be a positive number of {unit}, not {value!r}", field=field)
     return v
+
+
+#: The project's name of each design method (``window``, ``remez``, ``lsq``) from the
+#: names the dsp functions use; :data:`planner.config.FIR_MAX_TAPS` is keyed by it.
+METHOD_NAMES = {"window": "window", "remez": "remez", "equiripple": "remez",
+                "firls": "lsq", "lsq": "lsq", "least_squares": "lsq"}
+
+_WHY = {"window": "longer windows are not needed by any audio crossover",
+        "remez": "its time grows with the square of the length, about 10 s a design at 16383 "
+                 "taps", "lsq": "a least-squares design solves an (N/2) x (N/2) system, "
+                                "about 0.8 GB and 25 s at 8191 taps"}
+
+
+def check_method_taps(method: str, taps: int, field: str = "taps") -> int:
+    """``taps`` if ``method`` may design that many, else a DesignError naming the limit.
+
+    The limits are :data:`planner.config.FIR_MAX_TAPS` (time and memory of one design).
+    """
+    name = METHOD_NAMES.get(method, method)
+    limit = config.FIR_MAX_TAPS.get(name)
+    if limit is not None and int(taps) > limit:
+        others = ", ".join(f"{m} up to {n}" for m, n in config.FIR_MAX_TAPS.items()
+                           if m != name and n > limit)
+        hint = f"; use fewer taps, or another method ({others})" if others else \
+            "; use fewer taps"
+        raise DesignError(f"{int(taps)} taps is above the limit of {limit} taps for the {name} "
+                          f"method: {_WHY[name]}{hint}", field=field)
+    return int(taps)

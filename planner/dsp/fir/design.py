@@ -17,7 +17,7 @@ from collections import OrderedDict
 import numpy as np
 from scipy import signal
 
-from planner.dsp.fir.checks import (check_freq, check_fs, check_kind, check_positive, check_taps,
+from planner.dsp.fir.checks import (check_method_taps, check_freq, check_fs, check_kind, check_positive, check_taps,
                                     check_upper_edge)
 from planner.dsp.fir.spec import FirSpec, spec_bands, weights
 from planner.errors import DesignError
@@ -83,7 +83,7 @@ def equiripple_fir(spec: FirSpec, fs_hz: float, taps: int, maxiter: int = MAXITE
     .. [3] Parks and McClellan, IEEE Trans. Circuit Theory CT-19(2), 1972.
     """
     spec_bands(spec, fs_hz)
-    n = check_taps(taps, odd=True)
+    n = check_method_taps(REMEZ, check_taps(taps, odd=True))
     entry = cached_design(REMEZ, spec, float(fs_hz), n, int(grid_density), int(maxiter))
     if entry.taps is None:
         raise ValueError(entry.error)
@@ -130,7 +130,7 @@ def least_squares_fir(kind: str, freq_hz: float, fs_hz: float, taps: int, transi
     """
     check_kind(kind)
     fs = check_fs(fs_hz)
-    n = check_taps(taps, odd=True)
+    n = check_method_taps(FIRLS, check_taps(taps, odd=True))
     tw = check_positive(transition_hz, "transition_hz", "Hz")
     sw = check_positive(stop_weight, "stop_weight", "(relative weight)")
     f1 = check_freq(freq_hz, fs, "freq")

@@ -26,6 +26,7 @@ from typing import Callable
 import numpy as np
 
 from planner.defaults import MAX_TAPS
+from planner.dsp.fir.checks import check_method_taps
 from planner.dsp.fir.design import COARSE_DENSITY, FIRLS, FULL_DENSITY, REMEZ, cached_design
 from planner.dsp.fir.estimates import estimate_taps
 from planner.dsp.fir.search import search_min_odd
@@ -118,6 +119,7 @@ def _min_taps(method: str, spec: FirSpec, fs_hz: float, max_taps: int, progress,
                           field="max_taps")
     fs = float(fs_hz)
     max_taps = int(max_taps) if max_taps % 2 else int(max_taps) - 1
+    check_method_taps(method, max_taps, "max_taps")
     est = estimate_taps(spec, fs)
     # Kaiser 1974 [2]: each tap adds about 14.6 df dB of attenuation (df = transition / fs).
     slope0 = 14.6 * tw / fs
