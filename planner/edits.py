@@ -30,7 +30,7 @@ from planner.model import Project
 __all__ = [
     "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
     "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
-    "set_filter_type", "toggle_bypass", "set_analysis", "set_sample_rate", "nyquist_problems",
+    "set_filter_type", "toggle_bypass", "set_analysis", "set_name", "set_sample_rate", "nyquist_problems",
     "DEFAULT_FILTER", "BAND_FLAGS",
 ]
 
@@ -317,6 +317,24 @@ def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
     if type_ == "bandpass":
         tw = min(tw, 0.5 * (new["freq2"] - f))
     new.update(window="kaiser", transition_hz=float(f"{tw:.3g}"), atten_db=60.0)
+
+
+# -- project --------------------------------------------------------------------------------
+
+def set_name(p: Project, name: str) -> Project:
+    """Rename the project (the title, and the stem of every exported file).
+
+    Leading and trailing spaces are dropped; an empty name is refused (the
+    exports would fall back to a stand-in stem).
+    """
+    if not isinstance(name, str):
+        raise ProjectError(f"must be a string, not {name!r}", field="name")
+    if not name.strip():
+        raise ProjectError("must not be empty: the exports are named after it", field="name")
+
+    def change(d):
+        d["name"] = name.strip()
+    return _rebuild(p, change)
 
 
 # -- analysis and rate --------------------------------------------------------------------

@@ -65,7 +65,10 @@ COMMANDS = (
     ("view(-1)", "Previous view", "step back through the plot views"),
     ("cursor(1)", "Cursor up", "move the plot cursor up 1/12 octave"),
     ("cursor(-1)", "Cursor down", "move the plot cursor down 1/12 octave"),
-    ("settings", "Analysis settings", "range, points, limits, sample rate"),
+    ("settings", "Project settings", "project name, analysis range, points, limits, sample rate"),
+    ("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text or "
+                                      "wav) and a manifest, at the project's rate"),
+    ("rename", "Rename project", "change the project's name (the exports are named after it)"),
     ("focus_warnings", "Warnings", "go to the warnings list"),
     ("help", "Help", "keys and safety notes"),
     ("quit", "Quit", "leave (asks first when there are unsaved edits)"),
@@ -135,6 +138,7 @@ class CrossplanApp(App):
         Binding("g", "focus_field('gain_db')", "Edit gain", show=False),
         Binding("w", "focus_warnings", "Warnings", show=False),
         Binding("S", "save_as", "Save as", show=False),
+        Binding("X", "export", "Export", show=False),
         Binding("o,ctrl+o", "open", "Open", show=False),
         Binding("escape", "back", "Back to chain / cancel a design", show=False),
         Binding("ctrl+r", "reanalyse", "Design and check again", show=False),
@@ -477,6 +481,8 @@ class CrossplanApp(App):
         """Turn a typed value into an edit: (new project, label for undo)."""
         p = self.project
         if target == "settings":
+            if name == "name":
+                return edits.set_name(p, text), f"project name {text.strip()!r}"
             if name == "sample_rate":
                 fs = units.parse(text, "Hz", name)
                 return edits.set_sample_rate(p, int(fs) if fs == int(fs) else fs), \
@@ -704,6 +710,12 @@ class CrossplanApp(App):
     def action_settings(self) -> None:
         self.push_screen(SettingsScreen(self.project))
 
+    def action_rename(self) -> None:
+        """The settings with the project's name in focus."""
+        screen = SettingsScreen(self.project)
+        self.push_screen(screen, callback=None)
+        self.call_after_refresh(lambda: screen.query_one("#settings-name").focus())
+
     # -- files ----------------------------------------------------------------------------
 
     def _write(self, path: str) -> bool:
@@ -737,6 +749,45 @@ class CrossplanApp(App):
             if answer != "yes":
                 return False
         return self._write(path)
+
+    @work(exclusive=True, group="export")
+    async def action_export(self) -> None:
+        """Ask for a folder and a format, then export at the project's rate."""
+        p = self.project
+        stem = Path(self.path).stem if self.path else export.slug(p.name)
+        default = str(Path(self.path).parent / f"{stem}-export") if self.path else f"{stem}-export"
+        folder = await self.push_screen_wait(PathScreen(
+            f"Export '{p.name}' at {p.sample_rate:g} Hz to the folder:", default))
+        if not folder:
+            return
+        fmt = await self.push_screen_wait(ChoiceScreen(
+            "Which format? json and csv hold every section; text is for typing into a DSP; "
+            "wav holds each band's impulse response.",
+            [("j", "json", "json"), ("c", "csv", "csv"), ("t", "text", "text"),
+             ("w", "wav", "wav")]))
+        if fmt is None:
+            return
+        self.notify(f"exporting {fmt} to {folder} ...", timeout=2)
+        self._export(p, folder, fmt)
+
+    @work(thread=True, exclusive=True, group="export-run")
+    def _export(self, p: Project, folder: str, fmt: str) -> None:
+        try:
+            res = export.write_export(p, [p.sample_rate], fmt, folder,
+                                      arith=p.analysis.arith or "float64", source=self.path)
+        except (CrossplanError, OSError) as e:
+            self.call_from_thread(self.notify, f"not exported: {e}", severity="error",
+                                  timeout=10)
+            return
+        if not res.arith_ok:
+            msg = (f"nothing exported: {p.analysis.arith} cannot hold a band (see the "
+                   "warnings)")
+            self.call_from_thread(self.notify, msg, severity="error", timeout=10)
+            return
+        names = ", ".join(f.name for f in res.files)
+        state = "" if res.checks_ok else " (the checks FAIL: see the check bar)"
+        self.call_from_thread(self.notify, f"exported to {folder}: {names}{state}",
+                              timeout=10)
 
     @work
     async def action_open(self) -> None:

@@ -152,6 +152,7 @@ class PickScreen(ModalScreen[int | None]):
 
 #: (field, label, unit) of the settings screen; "sample_rate" is the project's rate.
 SETTINGS = (
+    ("name", "project name", ""),
     ("sample_rate", "sample rate", "Hz"),
     ("f_min", "from", "Hz"),
     ("f_max", "to", "Hz"),
@@ -165,7 +166,8 @@ SETTINGS = (
 
 
 class SettingsScreen(ModalScreen[None]):
-    """Analysis range, points, limits and the sample rate; each field applies on Enter.
+    """The project's name, analysis range, points, limits and the sample rate; each field
+    applies on Enter.
 
     The rows post :class:`~planner.tui.widgets.FieldRow.Edited` with target
     ``"settings"`` up to the app, which applies the edit and calls
@@ -182,7 +184,7 @@ class SettingsScreen(ModalScreen[None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="settings-box") as box:
-            box.border_title = "Analysis settings (Enter applies a field, Escape closes)"
+            box.border_title = "Project settings (Enter applies a field, Escape closes)"
             for name, label, unit in SETTINGS:
                 yield FieldRow("settings", name, label, self._text(name, unit))
             yield Static("", classes="refusal", id="settings-refusal", markup=False)
@@ -196,6 +198,8 @@ class SettingsScreen(ModalScreen[None]):
 
     def _text(self, name: str, unit: str) -> str:
         p = self._project
+        if name == "name":
+            return p.name
         value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
         if name == "arith":
             return value or ""

@@ -304,6 +304,8 @@ async def test_settings_refuse_a_rate_that_puts_filters_above_nyquist():
         await pilot.press("e")
         await pilot.pause()
         assert isinstance(app.screen, SettingsScreen)
+        assert app.focused.id == "settings-name"     # the project's name comes first
+        await pilot.press("down")
         assert app.focused.id == "settings-sample_rate"
         await pilot.press(*"8k", "enter")
         await settle(app, pilot)
@@ -465,6 +467,8 @@ async def test_settings_fields_move_with_up_and_down():
         await settle(app, pilot)
         await pilot.press("e")
         await pilot.pause()
+        assert app.focused.id == "settings-name"     # the project's name comes first
+        await pilot.press("down")
         assert app.focused.id == "settings-sample_rate"
         await pilot.press("down", "down")
         assert app.focused.id == "settings-f_max"
