@@ -30,9 +30,9 @@ from planner.model import Project
 __all__ = [
     "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
     "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
-    "set_filter_type", "toggle_bypass", "set_analysis", "set_sample_rate", "nyquist_problems",
-    "DEFAULT_FILTER", "BAND_FLAGS", "add_crossover", "set_crossover", "remove_crossover",
-    "link_filter", "toggle_voicing",
+    "set_filter_type", "toggle_bypass", "set_analysis", "set_name", "set_sample_rate",
+    "nyquist_problems", "DEFAULT_FILTER", "BAND_FLAGS", "add_crossover", "set_crossover",
+    "remove_crossover", "link_filter", "toggle_voicing",
 ]
 
 #: A new filter: a peaking EQ of 0 dB changes nothing until it is edited.
@@ -385,6 +385,24 @@ def link_filter(p: Project, band: int, flt: int, name: str | None) -> Project:
         else:
             _crossover_entry(d, name)
             f["crossover"] = name
+    return _rebuild(p, change)
+
+
+# -- project --------------------------------------------------------------------------------
+
+def set_name(p: Project, name: str) -> Project:
+    """Rename the project (the title, and the stem of every exported file).
+
+    Leading and trailing spaces are dropped; an empty name is refused (the
+    exports would fall back to a stand-in stem).
+    """
+    if not isinstance(name, str):
+        raise ProjectError(f"must be a string, not {name!r}", field="name")
+    if not name.strip():
+        raise ProjectError("must not be empty: the exports are named after it", field="name")
+
+    def change(d):
+        d["name"] = name.strip()
     return _rebuild(p, change)
 
 

@@ -19,7 +19,7 @@ import re
 from planner.errors import ProjectError
 
 __all__ = ["parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
-           "format_hz", "UNITS"]
+           "format_hz", "outside_range_note", "UNITS", "FAR_OUTSIDE_OCT"]
 
 #: Units a field may have, and the unit words accepted for each (lower case).
 UNITS = {
@@ -32,6 +32,14 @@ UNITS = {
 _EXAMPLES = {"Hz": "2k, 2.2 kHz, 350", "dB": "-3, -3 dB, +1.5", "ms": "1.5, 1.5ms, 250us",
              "": "0.7, 4"}
 _WHAT = {"Hz": "a frequency", "dB": "a level in dB", "ms": "a time", "": "a number"}
+
+#: How far (octaves) outside the analysis range a typed frequency must be for a note.
+FAR_OUTSIDE_OCT = 2.0
+
+# A comma with exactly three digits after it ("1,000", "3,500 Hz") reads as a thousands
+# separator in English and as a decimal comma elsewhere; two separators ("1,000.5",
+# "1.000,5", "1,000,000") are a thousands separator. Both are refused rather than guessed.
+_AMBIGUOUS = re.compile(r"^\s*[+-]?(?:\d+,\d{3}(?!\d)|\d*[.,]\d*[.,])")
 
 # number, optional SI prefix, optional unit word; spaces allowed between.
 _RE = re.compile(r"""^\s*(?P<num>[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:e[+-]?\d+)?)
@@ -67,6 +75,8 @@ def parse(text: str, unit: str = "", field: str = "value") -> float:
     s = str(text).strip()
     if not s:
         raise ProjectError(f"empty; type {_WHAT[unit]} (e.g. {_EXAMPLES[unit]})", field=field)
+    if _AMBIGUOUS.match(s):
+        raise ProjectError(_ambiguous(s), field=field)
     m = _RE.match(s)
     if not m:
         raise ProjectError(f"cannot read {s!r} as {_WHAT[unit]} (e.g. {_EXAMPLES[unit]})",
@@ -81,6 +91,41 @@ def parse(text: str, unit: str = "", field: str = "value") -> float:
     if not math.isfinite(value):
         raise ProjectError(f"{s!r} is not a finite number", field=field)
     return value
+
+
+def _ambiguous(s: str) -> str:
+    """Why a number with a thousands-like separator is refused, and what to type instead."""
+    num = re.match(r"\s*[+-]?[\d.,]*", s).group(0).strip()
+    if num.count(",") + num.count(".") > 1:
+        # Guess nothing: the last mark may be the decimal one in either convention.
+        return (f"cannot read {s!r}: it has more than one separator; type the number without "
+                f"a thousands separator, with a point for decimals (e.g. 1000 or 1000.5)")
+    whole = num.replace(",", "")
+    return (f"{s!r} is ambiguous: a comma before three digits may be a thousands separator "
+            f"or a decimal comma; type {whole} (or {num.replace(',', '.')} if you meant that)")
+
+
+def outside_range_note(freq_hz: float, f_min_hz: float, f_max_hz: float,
+                       octaves: float = FAR_OUTSIDE_OCT) -> str | None:
+    """A note when a typed frequency lies far outside the analysis range, else None.
+
+    A value more than ``octaves`` below ``f_min_hz`` or above ``f_max_hz``
+    (``"2 Hz is 3.3 octaves below the analysed range (20 Hz .. 20 kHz)"``)
+    is valid but most likely a slip (``2`` for ``2k``); the caller keeps it
+    and shows the note.
+    """
+    if not (freq_hz > 0 and f_min_hz > 0 and f_max_hz > 0):
+        return None
+    rng = f"{format_hz(f_min_hz)} .. {format_hz(f_max_hz)}"
+    below = math.log2(f_min_hz / freq_hz)
+    above = math.log2(freq_hz / f_max_hz)
+    if below > octaves:
+        guess = (f"; did you mean {format_hz(freq_hz * 1000)}?"
+                 if f_min_hz <= freq_hz * 1000 <= f_max_hz else "")
+        return f"{format_hz(freq_hz)} is {below:.1f} octaves below the analysed range ({rng}){guess}"
+    if above > octaves:
+        return f"{format_hz(freq_hz)} is {above:.1f} octaves above the analysed range ({rng})"
+    return None
 
 
 def _scale(rest: str, unit: str) -> float | None:

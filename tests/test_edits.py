@@ -314,3 +314,24 @@ def test_a_split_band_index_changes_in_that_band_only():
     q = E.set_filter_params(p, 2, 0, band=1)
     assert [b.filters[0].params["band"] for b in q.bands] == [0, 1, 1]
     assert any(w.code == "split-doubled" for w in engine.analyse(q).warnings)
+
+
+# -- project name ----------------------------------------------------------------------------
+
+def test_set_name_renames_and_strips(p):
+    q = E.set_name(p, "  Porch, 2-way ")
+    assert q.name == "Porch, 2-way" and p.name != q.name
+    assert project.to_dict(q)["name"] == "Porch, 2-way"
+
+
+@pytest.mark.parametrize("bad", ["", "   "])
+def test_set_name_refuses_an_empty_name(p, bad):
+    with pytest.raises(ProjectError, match="name: must not be empty"):
+        E.set_name(p, bad)
+
+
+def test_the_exports_are_named_after_the_new_name(p, tmp_path):
+    from planner import export
+    res = export.write_export(E.set_name(p, "Porch monitor"), [48000], "json", tmp_path)
+    assert [f.name for f in res.files] == ["porch-monitor-48000.json"]
+    assert res.manifest.name == "porch-monitor-manifest.json"

@@ -85,3 +85,40 @@ def test_format_then_parse_round_trips(value, unit):
     # format keeps 10 significant digits: the round trip is exact to 1e-9 relative.
     back = units.parse(units.format(value, unit), unit)
     assert math.isclose(back, value, rel_tol=1e-9, abs_tol=1e-300)
+
+
+@pytest.mark.parametrize("text", ["1,000", "3,500", "3,500 Hz", "-1,250 dB", "2,200k"])
+def test_a_comma_before_three_digits_is_refused_as_ambiguous(text):
+    # "1,000" is one thousand in English and one (a decimal comma) elsewhere: guessing
+    # either silently gave 1 Hz for 1000 Hz, so the text is refused with what to type.
+    with pytest.raises(ProjectError, match=r"ambiguous: a comma before three digits .*type -?\d+ "):
+        units.parse(text, "Hz", "freq")
+
+
+@pytest.mark.parametrize("text", ["1,000.5", "1.000,5", "1,000,000", "1.2.3"])
+def test_two_separators_are_refused(text):
+    with pytest.raises(ProjectError, match="more than one separator"):
+        units.parse(text, "Hz", "freq")
+
+
+@pytest.mark.parametrize("text, value", [("1,5", 1.5), ("2,25k", 2250.0), ("1,0001", 1.0001),
+                                         ("1.000", 1.0)])
+def test_a_decimal_comma_that_is_not_ambiguous_still_reads(text, value):
+    assert units.parse(text, "Hz") == pytest.approx(value, rel=1e-12)  # float rounding only
+
+
+def test_a_frequency_far_below_the_range_gets_a_note_and_a_guess():
+    note = units.outside_range_note(2.0, 20.0, 20000.0)
+    # log2(20 / 2) = 3.32 octaves below f_min (plain arithmetic).
+    assert note == ("2 Hz is 3.3 octaves below the analysed range (20 Hz .. 20 kHz); "
+                    "did you mean 2 kHz?")
+
+
+def test_a_frequency_within_two_octaves_of_the_range_gets_no_note():
+    assert units.outside_range_note(15.0, 20.0, 20000.0) is None   # a subsonic highpass
+    assert units.outside_range_note(5.0, 20.0, 20000.0) is None    # exactly 2 octaves
+    assert units.outside_range_note(40000.0, 20.0, 20000.0) is None
+
+
+def test_a_frequency_far_above_the_range_gets_a_note():
+    assert "octaves above" in units.outside_range_note(90000.0, 20.0, 20000.0)

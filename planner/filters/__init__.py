@@ -15,7 +15,8 @@ from planner.filters.registry import (FilterDesign, FilterKind, KindWarning, che
                                       register)
 # Importing the kinds registers them, in this order (forms and pick lists follow it).
 from planner.filters import iir, eq, raw, fir, driver  # noqa: E402,F401,I001
+from planner.filters.names import family_choices, read_family, read_type, type_choices  # noqa: E402,I001
 
 __all__ = ["FieldSpec", "check_field", "FilterDesign", "FilterKind", "KindWarning",
            "check_params", "design", "families_of", "kind_of", "kinds", "label", "lookup",
-           "register"]
+           "register", "read_type", "read_family", "type_choices", "family_choices"]

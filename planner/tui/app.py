@@ -28,7 +28,7 @@ from planner.model import Project
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
-                                 SettingsScreen)
+                                 PickScreen, SettingsScreen)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
@@ -65,7 +65,10 @@ COMMANDS = (
     ("view(-1)", "Previous view", "step back through the plot views"),
     ("cursor(1)", "Cursor up", "move the plot cursor up 1/12 octave"),
     ("cursor(-1)", "Cursor down", "move the plot cursor down 1/12 octave"),
-    ("settings", "Analysis settings", "range, points, limits, sample rate"),
+    ("settings", "Project settings", "project name, analysis range, points, limits, sample rate"),
+    ("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text or "
+                                      "wav) and a manifest, at the project's rate"),
+    ("rename", "Rename project", "change the project's name (the exports are named after it)"),
     ("focus_warnings", "Warnings", "go to the warnings list"),
     ("help", "Help", "keys and safety notes"),
     ("quit", "Quit", "leave (asks first when there are unsaved edits)"),
@@ -131,10 +134,11 @@ class CrossplanApp(App):
         Binding("comma", "cursor(-1)", "Cursor down", show=False),
         Binding("V", "view(-1)", "Previous view", show=False),
         Binding("f", "focus_field('freq')", "Edit freq", show=False),
-        Binding("t", "focus_field('type')", "Edit type", show=False),
+        Binding("t", "pick('type')", "Pick type", show=False),
         Binding("g", "focus_field('gain_db')", "Edit gain", show=False),
         Binding("w", "focus_warnings", "Warnings", show=False),
         Binding("S", "save_as", "Save as", show=False),
+        Binding("X", "export", "Export", show=False),
         Binding("o,ctrl+o", "open", "Open", show=False),
         Binding("escape", "back", "Back to chain / cancel a design", show=False),
         Binding("ctrl+r", "reanalyse", "Design and check again", show=False),
@@ -425,15 +429,60 @@ class CrossplanApp(App):
             return
         old = self.project
         await self.commit(new, label)
+        for note in _range_notes(new, event.target, event.field, self.band_i, self.filter_i):
+            self.notify(f"note: {note}", severity="warning", timeout=8)
         if event.target == "settings" and new.analysis.f_max < old.analysis.f_max \
                 and event.field == "sample_rate":
             self.notify(f"'to' lowered to the new Nyquist frequency, "
                         f"{units.format(new.analysis.f_max, 'Hz', 6)}")
 
+    @on(FieldRow.Pick)
+    def _pick_wanted(self, event: FieldRow.Pick) -> None:
+        event.stop()
+        if event.row.target == "filter":
+            self.action_pick(event.field)
+
+    @work(exclusive=True, group="pick")
+    async def action_pick(self, name: str = "type", then_chain: bool = False) -> None:
+        """Pick the selected filter's type or family from a list (one edit)."""
+        f = self._selected_filter()
+        if f is None:
+            self.notify("no filter selected: a adds one", timeout=3)
+            return
+        i, j = self.band_i, self.filter_i
+        if name == "family":
+            choices = fk.family_choices(f.type)
+            if not choices:
+                self.notify(f"a {f.type.replace('_', ' ')} has no family", timeout=3)
+                return
+            order = f.params.get("order")
+            cur = next((k for k, (_, fam, o) in enumerate(choices)
+                        if fam == f.family and o in (None, order)), None)
+            k = await self.push_screen_wait(PickScreen(f"Family of filter {j + 1}",
+                                                       [c[0] for c in choices], cur))
+            if k is not None:
+                _, fam, o = choices[k]
+                await self._try(lambda p: _with_family(p, i, j, f.type, fam, o),
+                                f"{self.project.bands[i].name} filter {j + 1} family")
+        else:
+            choices = fk.type_choices()
+            cur = next((k for k, (_, t) in enumerate(choices) if t == f.type), None)
+            k = await self.push_screen_wait(PickScreen(f"Type of filter {j + 1}",
+                                                       [c[0] for c in choices], cur))
+            if k is not None and choices[k][1] != f.type:
+                await self._try(lambda p: edits.set_filter_type(p, i, j, choices[k][1]),
+                                f"{self.project.bands[i].name} filter {j + 1} type")
+        if then_chain or k is None:
+            self.query_one(ChainList).focus()
+        else:
+            self.query_one(FilterForm).focus_field(name)
+
     def _apply_field(self, target: str, name: str, text: str) -> tuple[Project, str]:
         """Turn a typed value into an edit: (new project, label for undo)."""
         p = self.project
         if target == "settings":
+            if name == "name":
+                return edits.set_name(p, text), f"project name {text.strip()!r}"
             if name == "sample_rate":
                 fs = units.parse(text, "Hz", name)
                 return edits.set_sample_rate(p, int(fs) if fs == int(fs) else fs), \
@@ -464,9 +513,10 @@ class CrossplanApp(App):
         flt = band.filters[j]
         label = f"{band.name} filter {j + 1} {name}"
         if name == "type":
-            return edits.set_filter_type(p, i, j, text.strip().lower()), label
+            return edits.set_filter_type(p, i, j, fk.read_type(text)), label
         if name == "family":
-            return edits.set_filter_type(p, i, j, flt.type, text.strip().lower()), label
+            family, order = fk.read_family(flt.type, text)
+            return _with_family(p, i, j, flt.type, family, order), label
         spec = next((s for s in fk.kind_of(flt).fields if s.name == name), None)
         if spec is None:
             raise ProjectError("is not a field of this filter", field=name)
@@ -510,7 +560,10 @@ class CrossplanApp(App):
         def sel(p):
             self.filter_i = j
         if await self._try(lambda p: edits.add_filter(p, i, index=j), "add filter", sel):
-            self.query_one(FilterForm).focus_field("type")
+            # The chain keeps the focus (single-letter keys stay commands); the new
+            # filter's type is picked from a list first.
+            self.query_one(ChainList).focus()
+            self.action_pick("type", then_chain=True)
 
     async def action_remove(self, scope: str | None = None) -> None:
         """Remove the selected band or filter."""
@@ -657,6 +710,12 @@ class CrossplanApp(App):
     def action_settings(self) -> None:
         self.push_screen(SettingsScreen(self.project))
 
+    def action_rename(self) -> None:
+        """The settings with the project's name in focus."""
+        screen = SettingsScreen(self.project)
+        self.push_screen(screen, callback=None)
+        self.call_after_refresh(lambda: screen.query_one("#settings-name").focus())
+
     # -- files ----------------------------------------------------------------------------
 
     def _write(self, path: str) -> bool:
@@ -690,6 +749,45 @@ class CrossplanApp(App):
             if answer != "yes":
                 return False
         return self._write(path)
+
+    @work(exclusive=True, group="export")
+    async def action_export(self) -> None:
+        """Ask for a folder and a format, then export at the project's rate."""
+        p = self.project
+        stem = Path(self.path).stem if self.path else export.slug(p.name)
+        default = str(Path(self.path).parent / f"{stem}-export") if self.path else f"{stem}-export"
+        folder = await self.push_screen_wait(PathScreen(
+            f"Export '{p.name}' at {p.sample_rate:g} Hz to the folder:", default))
+        if not folder:
+            return
+        fmt = await self.push_screen_wait(ChoiceScreen(
+            "Which format? json and csv hold every section; text is for typing into a DSP; "
+            "wav holds each band's impulse response.",
+            [("j", "json", "json"), ("c", "csv", "csv"), ("t", "text", "text"),
+             ("w", "wav", "wav")]))
+        if fmt is None:
+            return
+        self.notify(f"exporting {fmt} to {folder} ...", timeout=2)
+        self._export(p, folder, fmt)
+
+    @work(thread=True, exclusive=True, group="export-run")
+    def _export(self, p: Project, folder: str, fmt: str) -> None:
+        try:
+            res = export.write_export(p, [p.sample_rate], fmt, folder,
+                                      arith=p.analysis.arith or "float64", source=self.path)
+        except (CrossplanError, OSError) as e:
+            self.call_from_thread(self.notify, f"not exported: {e}", severity="error",
+                                  timeout=10)
+            return
+        if not res.arith_ok:
+            msg = (f"nothing exported: {p.analysis.arith} cannot hold a band (see the "
+                   "warnings)")
+            self.call_from_thread(self.notify, msg, severity="error", timeout=10)
+            return
+        names = ", ".join(f.name for f in res.files)
+        state = "" if res.checks_ok else " (the checks FAIL: see the check bar)"
+        self.call_from_thread(self.notify, f"exported to {folder}: {names}{state}",
+                              timeout=10)
 
     @work
     async def action_open(self) -> None:
@@ -768,6 +866,31 @@ def _parse_field(spec, text: str):
     if spec.rule == "int" and v == int(v):
         return int(v)
     return v
+
+
+def _with_family(p: Project, i: int, j: int, type_: str, family: str,
+                 order: int | None) -> Project:
+    """Filter ``j`` of band ``i`` made ``family`` (and ``order``, when given): one edit."""
+    new = edits.set_filter_type(p, i, j, type_, family)
+    if order is not None:
+        new = edits.set_filter_params(new, i, j, order=order)
+    return new
+
+
+def _range_notes(p: Project, target: str, name: str, i: int, j: int | None) -> list[str]:
+    """Notes on a just-typed frequency far outside the analysis range (valid, but likely a slip)."""
+    if target != "filter" or j is None:
+        return []
+    flt = p.bands[i].filters[j]
+    spec = next((s for s in fk.kind_of(flt).fields if s.name == name), None)
+    if spec is None or spec.unit != "Hz" and spec.rule != "freq":
+        return []
+    v = flt.params.get(name)
+    values = v if isinstance(v, (list, tuple)) else [v]
+    a = p.analysis
+    notes = [units.outside_range_note(float(x), a.f_min, a.f_max) for x in values
+             if isinstance(x, (int, float))]
+    return [n for n in notes if n]
 
 
 def help_text(app: App) -> str:

@@ -8,7 +8,9 @@ from textual.app import ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen, Screen
-from textual.widgets import Button, Input, Label, Static
+from textual.widgets import Button, Input, Label, OptionList, Static
+from textual.widgets.option_list import Option
+from rich.text import Text
 
 from planner import compare, config, progress, units
 from planner.errors import CrossplanError, DesignCancelled
@@ -16,7 +18,8 @@ from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "SettingsScreen", "CompareScreen"]
+__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SettingsScreen",
+           "CompareScreen"]
 
 
 class HelpScreen(ModalScreen[None]):
@@ -96,8 +99,60 @@ class PathScreen(ModalScreen[str | None]):
         self.dismiss(None)
 
 
+class PickScreen(ModalScreen[int | None]):
+    """Pick one of a list (a filter's type or family): arrows and Enter pick, a letter jumps
+    to the next entry starting with it, Escape keeps what there was (answers None).
+
+    Answers the index of the entry picked. Letters never reach the editor's
+    single-letter keys while the list is open.
+    """
+
+    BINDINGS = [Binding("escape", "cancel", "Keep as is")]
+
+    def __init__(self, title: str, entries: list[str], current: int | None = None) -> None:
+        super().__init__()
+        self._title = title
+        self._entries = entries
+        self._current = current
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="pick-box") as box:
+            box.border_title = self._title
+            yield OptionList(*[Option(Text(e)) for e in self._entries], id="pick-list")
+            yield Label("Enter picks, a letter jumps, Esc keeps",
+                        classes="hint")
+
+    def on_mount(self) -> None:
+        ol = self.query_one(OptionList)
+        ol.highlighted = self._current if self._current is not None else 0
+        ol.focus()
+
+    def on_key(self, event) -> None:
+        ch = event.character
+        if ch and len(ch) == 1 and ch.isprintable() and not ch.isspace():
+            event.stop()
+            event.prevent_default()
+            ol = self.query_one(OptionList)
+            n = len(self._entries)
+            start = (ol.highlighted or 0) + 1
+            for k in range(n):
+                i = (start + k) % n
+                if self._entries[i].lower().startswith(ch.lower()):
+                    ol.highlighted = i
+                    break
+
+    @on(OptionList.OptionSelected)
+    def _picked(self, event: OptionList.OptionSelected) -> None:
+        event.stop()
+        self.dismiss(event.option_index)
+
+    def action_cancel(self) -> None:
+        self.dismiss(None)
+
+
 #: (field, label, unit) of the settings screen; "sample_rate" is the project's rate.
 SETTINGS = (
+    ("name", "project name", ""),
     ("sample_rate", "sample rate", "Hz"),
     ("f_min", "from", "Hz"),
     ("f_max", "to", "Hz"),
@@ -111,7 +166,8 @@ SETTINGS = (
 
 
 class SettingsScreen(ModalScreen[None]):
-    """Analysis range, points, limits and the sample rate; each field applies on Enter.
+    """The project's name, analysis range, points, limits and the sample rate; each field
+    applies on Enter.
 
     The rows post :class:`~planner.tui.widgets.FieldRow.Edited` with target
     ``"settings"`` up to the app, which applies the edit and calls
@@ -128,7 +184,7 @@ class SettingsScreen(ModalScreen[None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="settings-box") as box:
-            box.border_title = "Analysis settings (Enter applies a field, Escape closes)"
+            box.border_title = "Project settings (Enter applies a field, Escape closes)"
             for name, label, unit in SETTINGS:
                 yield FieldRow("settings", name, label, self._text(name, unit))
             yield Static("", classes="refusal", id="settings-refusal", markup=False)
@@ -142,6 +198,8 @@ class SettingsScreen(ModalScreen[None]):
 
     def _text(self, name: str, unit: str) -> str:
         p = self._project
+        if name == "name":
+            return p.name
         value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
         if name == "arith":
             return value or ""

@@ -116,11 +116,20 @@ class FieldRow(Horizontal):
             self.field = row.field_name
             self.text = text
 
+    class Pick(Message):
+        """Enter on a pick-list field whose value is unchanged: the app offers the list."""
+
+        def __init__(self, row: "FieldRow") -> None:
+            super().__init__()
+            self.row = row
+            self.field = row.field_name
+
     def __init__(self, target: str, name: str, label: str, value: str, suggest=(),
-                 help_: str = "") -> None:
+                 help_: str = "", pickable: bool = False) -> None:
         super().__init__(classes="field")
         self.target = target
         self.field_name = name
+        self.pickable = pickable
         self._label = label
         self._value = value
         self._suggest = list(suggest)
@@ -162,6 +171,8 @@ class FieldRow(Horizontal):
         event.stop()
         if event.value.strip() == self._value.strip():
             self.input.remove_class("-refused")
+            if self.pickable:
+                self.post_message(self.Pick(self))
             return
         self.post_message(self.Edited(self, event.value))
 
@@ -241,12 +252,14 @@ class FilterForm(_Form):
             await self.set_rows((), [])
             return
         self.border_title = f"Filter {index + 1}" + (" (bypassed)" if flt.bypass else "")
-        types = sorted({k.type for k in kinds()})
-        rows = [FieldRow("filter", "type", "type", flt.type, types, "filter type")]
+        types = [shown for shown, _ in fk.type_choices()]
+        rows = [FieldRow("filter", "type", "type", flt.type.replace("_", " "), types,
+                         "filter type; Enter on it (or t) lists them", pickable=True)]
         fams = [f for f in families_of(flt.type) if f]
         if fams:
             rows.append(FieldRow("filter", "family", "family", flt.family or "", fams,
-                                 "one of: " + ", ".join(fams)))
+                                 "one of: " + ", ".join(fams) + " (or LR4, BW2, ...); Enter "
+                                 "on it lists them", pickable=True))
         specs: list[FieldSpec] = list(fk.kind_of(flt).fields)
         for s in specs:
             choices = [str(c) for c in s.choices]

@@ -226,7 +226,7 @@ async def test_add_duplicate_move_and_remove_bands():
         assert len(app.project.bands) == 3
 
 
-async def test_add_filter_then_change_its_type_by_typing():
+async def test_add_filter_then_pick_its_type():
     app = make_app()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
@@ -234,8 +234,8 @@ async def test_add_filter_then_change_its_type_by_typing():
         await pilot.press("a")                 # new 0 dB peaking EQ after filter 1
         await settle(app, pilot)
         assert app.project.bands[0].filters[1].type == "peaking"
-        assert app.focused.id == "filter-type"
-        await pilot.press(*"notch", "enter")
+        assert app.focused.id == "pick-list"   # the type list, not a text field
+        await pilot.press("n", "enter")
         await settle(app, pilot)
         f = app.project.bands[0].filters[1]
         assert f.type == "notch" and f.params["freq"] == 1000.0
@@ -304,6 +304,8 @@ async def test_settings_refuse_a_rate_that_puts_filters_above_nyquist():
         await pilot.press("e")
         await pilot.pause()
         assert isinstance(app.screen, SettingsScreen)
+        assert app.focused.id == "settings-name"     # the project's name comes first
+        await pilot.press("down")
         assert app.focused.id == "settings-sample_rate"
         await pilot.press(*"8k", "enter")
         await settle(app, pilot)
@@ -465,6 +467,8 @@ async def test_settings_fields_move_with_up_and_down():
         await settle(app, pilot)
         await pilot.press("e")
         await pilot.pause()
+        assert app.focused.id == "settings-name"     # the project's name comes first
+        await pilot.press("down")
         assert app.focused.id == "settings-sample_rate"
         await pilot.press("down", "down")
         assert app.focused.id == "settings-f_max"

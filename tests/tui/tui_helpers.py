@@ -9,5 +9,7 @@ def screen_text(app) -> str:
 async def settle(app, pilot) -> None:
     """Let messages run and the analysis worker finish (other workers may be waiting on a screen)."""
     await pilot.pause()
-    await app.workers.wait_for_complete([w for w in app.workers if w.group == "analysis"])
+    jobs = [w for w in app.workers if w.group == "analysis"]
+    if jobs:   # an empty list would wait for every worker (one may wait on a modal screen)
+        await app.workers.wait_for_complete(jobs)
     await pilot.pause()
