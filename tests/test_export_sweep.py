@@ -130,15 +130,17 @@ def _tolerance(flt, fs):
 @pytest.mark.parametrize("family", ["butterworth", "bessel", "linkwitz-riley", "cookbook"])
 @pytest.mark.parametrize("kind", ["lowpass", "highpass"])
 def test_float64_export_reproduces_scipy_design(kind, family, fs, mode):
-    filters = _filters(family, kind, fs)
-    rx = export.export_rate(_project(fs, filters), fs, "float64", sections=mode)
-    data = json.loads(json.dumps(export.to_json_dict(rx)))
+    every = _filters(family, kind, fs)
     freqs = np.geomspace(5, 0.499 * fs, 400)
-    for flt, band, b in zip(filters, data["bands"], rx.bands):
-        assert b.arith.ok, (flt, b.arith.reason)
-        ref = _h_sos(_reference(flt, fs), fs, freqs)
-        # Relative 1e-9 where scipy's design is above -100 dB (see _tolerance).
-        assert _worst_relative(_band_h(band, fs, freqs), ref) < _tolerance(flt, fs), flt
+    for start in range(0, len(every), 64):           # a project holds at most 64 bands
+        filters = every[start:start + 64]
+        rx = export.export_rate(_project(fs, filters), fs, "float64", sections=mode)
+        data = json.loads(json.dumps(export.to_json_dict(rx)))
+        for flt, band, b in zip(filters, data["bands"], rx.bands, strict=True):
+            assert b.arith.ok, (flt, b.arith.reason)
+            ref = _h_sos(_reference(flt, fs), fs, freqs)
+            # Relative 1e-9 where scipy's design is above -100 dB (see _tolerance).
+            assert _worst_relative(_band_h(band, fs, freqs), ref) < _tolerance(flt, fs), flt
 
 
 @pytest.mark.parametrize("arith", ["float32", "q1.31", "q2.30", "q1.23", "q1.15"])
