@@ -57,8 +57,13 @@ def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit=""
     v = d[key]
     if isinstance(v, bool) or not isinstance(v, (int, float)):
         raise ProjectError(f"must be a number, not {v!r}", field=key)
-    if not math.isfinite(v):
-        raise ProjectError(f"must be a finite number, not {v!r}", field=key)
+    try:
+        finite = math.isfinite(v)
+    except OverflowError:              # an integer too large for a float
+        finite = False
+    if not finite:
+        text = repr(v) if len(repr(v)) < 40 else f"{repr(v)[:20]}... (too large)"
+        raise ProjectError(f"must be a finite number, not {text}", field=key)
     u = f" {unit}" if unit else ""
     if lo is not None and (v <= lo if lo_open else v < lo):
         raise ProjectError(f"{v:g}{u} must be {'above' if lo_open else 'at least'} {lo:g}{u}",
