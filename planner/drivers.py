@@ -171,7 +171,7 @@ def check_driver(raw: Any, fs_hz: float, analysis: Analysis,
     if (model is None) == (name is None):
         raise ProjectError("give either model (" + ", ".join(MODELS) + ") or file (a "
                            "measurement, relative to the project file)", field="model")
-    if model is not None and model not in MODELS:
+    if model is not None and (not isinstance(model, str) or model not in MODELS):
         raise ProjectError(f"must be one of {', '.join(MODELS)}, not {model!r}", field="model")
     if name is not None and (not isinstance(name, str) or not name.strip()):
         raise ProjectError(f"must be a file name, not {name!r}", field="file")

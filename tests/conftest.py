@@ -4,6 +4,12 @@ import copy
 import json
 
 import pytest
+from hypothesis import settings
+
+# ``--hypothesis-profile=long``: the property tests that follow the profile (the end-to-end
+# fuzz of tests/test_fuzz_pipeline.py) run 10,000 examples of each kind; without it they run
+# a few dozen, so that CI stays fast.
+settings.register_profile("long", max_examples=10_000, deadline=None)
 
 EXAMPLE = {
     "format": "crossplan-project", "version": 1,

@@ -206,3 +206,61 @@ def test_analysis_enforce_headroom_must_be_true_or_false(example):
     with pytest.raises(ProjectError,
                        match=r"^analysis\.enforce_headroom: must be true or false, not 'yes'"):
         project.from_dict(example)
+
+
+def test_save_keeps_a_backup_of_the_previous_version(example, tmp_path):
+    path = tmp_path / "p.json"
+    p = project.from_dict(example)
+    project.save(p, path)
+    first = path.read_bytes()
+    project.save(p.with_band(0, p.bands[0].__class__(name="other")), path)
+    assert (tmp_path / "p.json.bak").read_bytes() == first
+
+
+def test_save_refuses_a_file_changed_since_it_was_read(example, tmp_path):
+    from planner.errors import CrossplanError, ProjectChangedError
+
+    path = tmp_path / "p.json"
+    project.save(project.from_dict(example), path)
+    opened = project.read(path)
+    other = json.loads(path.read_text())
+    other["name"] = "saved by someone else"
+    path.write_text(json.dumps(other))
+    with pytest.raises(ProjectChangedError, match=r"^file: '.*p\.json' changed on disk since "
+                                                  r"it was loaded \(\d+ -> \d+ bytes"):
+        project.save(opened.project, path, expect=opened.fingerprint)
+    assert json.loads(path.read_text())["name"] == "saved by someone else"
+    assert issubclass(ProjectChangedError, CrossplanError)
+    project.save(opened.project, path, expect=opened.fingerprint, force=True)
+    assert project.load(path) == opened.project
+
+
+def test_save_refuses_a_file_removed_since_it_was_read(example, tmp_path):
+    from planner.errors import ProjectChangedError
+
+    path = tmp_path / "p.json"
+    project.save(project.from_dict(example), path)
+    opened = project.read(path)
+    path.unlink()
+    with pytest.raises(ProjectChangedError, match=r"^file: '.*p\.json' is gone; not saved"):
+        project.save(opened.project, path, expect=opened.fingerprint)
+
+
+def test_save_with_the_fingerprint_it_returned_goes_through(example, tmp_path):
+    path = tmp_path / "p.json"
+    p = project.from_dict(example)
+    fp = project.save(p, path)
+    assert fp == project.fingerprint(path)
+    fp2 = project.save(p.with_band(0, p.bands[0].__class__(name="x")), path, expect=fp)
+    assert fp2.sha256 != fp.sha256
+
+
+def test_same_bytes_written_again_is_not_a_change(example, tmp_path):
+    # Another session saving the very same content loses nothing: no refusal.
+    path = tmp_path / "p.json"
+    p = project.from_dict(example)
+    fp = project.save(p, path)
+    data = path.read_bytes()
+    path.write_bytes(data)
+    os.utime(path, ns=(fp.mtime_ns + 10**9, fp.mtime_ns + 10**9))
+    project.save(p, path, expect=fp)

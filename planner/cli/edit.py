@@ -21,7 +21,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from planner.cli.common import load_project
+from planner.cli.common import load_project, open_project
 from planner.errors import ProjectError
 
 
@@ -99,8 +99,11 @@ def run(args) -> int:
         except ImportError as e:  # textual missing or broken
             reason = f"the terminal editor cannot start ({e})"
     # The editor designs in its worker, with a progress bar; the report designs here.
-    proj = load_project(args.file, design=reason is not None)
+    opened = open_project(args.file, design=reason is not None)
+    proj = opened.project
     if reason is not None:
+        for line in opened.notices:
+            print(f"crossplan: notice: {line}", file=sys.stderr)
         # The numerical core is imported when the command runs (start-up time).
         from planner import engine
         from planner.present.text import text_report
@@ -112,4 +115,4 @@ def run(args) -> int:
         print(text_report(r))
         print(plot_report(r, "magnitude", 80, 22))
         return 0 if r.ok else 1
-    return run_editor(proj, args.file)
+    return run_editor(proj, args.file, opened.fingerprint, opened.notices)

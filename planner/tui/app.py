@@ -27,6 +27,7 @@ from planner.history import History
 from planner.model import Project
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
+from planner.tui.autosave import FileGuard
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
                                  PickScreen, SettingsScreen)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
@@ -145,10 +146,13 @@ class CrossplanApp(App):
         Binding("C", "compare", "Compare IIR and FIR", show=False),
     ]
 
-    def __init__(self, project: Project, path: str | None = None) -> None:
+    def __init__(self, project: Project, path: str | None = None, fingerprint=None,
+                 notices: tuple[str, ...] = ()) -> None:
         super().__init__()
         self.history = History(project)
         self.path = path
+        self.files = FileGuard(self, fingerprint)   # changed-on-disk check and autosave
+        self._notices = tuple(notices)
         self.band_i = 0
         self.filter_i: int | None = 0 if project.bands[0].filters else None
         self.view = views.VIEWS[0]
@@ -183,6 +187,8 @@ class CrossplanApp(App):
     async def on_mount(self) -> None:
         await self.show_project()
         self.query_one(ChainList).focus()
+        self.files.notices(self._notices)
+        self.run_worker(self.files.offer_restore(), exclusive=False)
 
     # -- state ----------------------------------------------------------------------------
 
@@ -223,6 +229,7 @@ class CrossplanApp(App):
         for screen in self.screen_stack:
             if isinstance(screen, SettingsScreen):
                 screen.show(p)
+        self.files.edited()
         self.request_analysis()
 
     def _show_title(self) -> None:
@@ -718,24 +725,16 @@ class CrossplanApp(App):
 
     # -- files ----------------------------------------------------------------------------
 
-    def _write(self, path: str) -> bool:
-        try:
-            pj.save(self.project, path)
-        except OSError as e:
-            self.notify(f"not saved: {e}", severity="error", timeout=6)
-            return False
-        self.path = path
-        self.history.mark_saved()
-        self._show_title()
-        self.notify(f"saved {path}", timeout=3)
-        return True
+    async def _write(self, path: str) -> bool:
+        """Save (from a worker: asks when the file changed on disk since it was read)."""
+        return await self.files.write(path)
 
     async def action_save(self) -> None:
         """Save to the project's file (asks for one the first time)."""
         if self.path is None:
             self.action_save_as()   # a worker: it asks for the path
         else:
-            self._write(self.path)
+            self.files.save(self.path)
 
     @work
     async def action_save_as(self) -> bool:
@@ -748,7 +747,7 @@ class CrossplanApp(App):
                 f"{path} exists. Overwrite it?", [("y", "yes", "Overwrite")]))
             if answer != "yes":
                 return False
-        return self._write(path)
+        return await self._write(path)
 
     @work(exclusive=True, group="export")
     async def action_export(self) -> None:
@@ -798,15 +797,19 @@ class CrossplanApp(App):
         if not path:
             return
         try:
-            proj = pj.load(path)   # designed by the analysis worker
+            opened = pj.read(path)   # designed by the analysis worker
         except CrossplanError as e:
             self.notify(f"not opened: {e}", severity="error", timeout=8)
             return
+        proj = opened.project
+        self.files.closing()     # the edits of the file left were saved or discarded
         self.history.reset(proj)
         self.path = path
+        self.files.opened(path, opened)
         self.band_i, self.filter_i, self.report = 0, 0, None
         self.cursor_hz = self._default_cursor(proj)
         await self.show_project()
+        await self.files.offer_restore()
 
     async def _settle_unsaved(self, what: str) -> bool:
         """Ask what to do with unsaved edits; True when it is fine to go on."""
@@ -818,8 +821,8 @@ class CrossplanApp(App):
         if answer == "save":
             if self.path is None:
                 path = await self.push_screen_wait(PathScreen("Save the project as:"))
-                return bool(path) and self._write(path)
-            return self._write(self.path)
+                return bool(path) and await self._write(path)
+            return await self._write(self.path)
         return False
 
     @work
@@ -827,6 +830,7 @@ class CrossplanApp(App):
         """Quit; with unsaved edits, ask first (save, discard or keep editing)."""
         if self.history.dirty and not await self._settle_unsaved("quit"):
             return
+        self.files.closing()     # saved or discarded on purpose: no autosave to offer
         self.exit(0)
 
 
@@ -932,7 +936,12 @@ def help_text(app: App) -> str:
     return "\n".join(lines)
 
 
-def run_editor(project: Project, path: str | None) -> int:
-    """Run the editor on ``project`` (from ``path``, or None for the demo); return an exit code."""
-    result = CrossplanApp(project, path).run()
+def run_editor(project: Project, path: str | None, fingerprint=None,
+               notices: tuple[str, ...] = ()) -> int:
+    """Run the editor on ``project`` (from ``path``, or None for the demo); return an exit code.
+
+    ``fingerprint`` is the file's as it was read (:func:`planner.project.read`), so that a
+    save notices a change made meanwhile; ``notices`` are the loader's, shown on start.
+    """
+    result = CrossplanApp(project, path, fingerprint, notices).run()
     return int(result or 0)
