@@ -9,7 +9,8 @@ same size), and the ratio crossplan / baseline is printed for time. The cases:
   8th-order Butterworth lowpasses (every pair crosses), and 64 bands of 32
   peaking filters each; baseline ``scipy.signal.sosfreqz`` of every band on the
   project's grid size;
-- the same 64 lowpasses at analysis.points 65536 (config.MAX_POINTS);
+- the same 64-band projects at the most points 64 bands may have
+  (config.max_points(64) = 4161), and 2 bands at config.MAX_POINTS;
 - FIR searches at each method's longest design (config.FIR_MAX_TAPS): least
   squares and remez asked for a 5 Hz transition they cannot meet within the
   limit, and specs that need close to the limit; a 32767-tap window design;
@@ -101,8 +102,12 @@ def main() -> None:
         ("64 bands, overlapping BW8 lowpasses", _project("lp", lowpass64()),
          baseline_sosfreqz(64, 1024, 4)),
         ("64 bands x 32 peaking", _project("pk", peaking64()), baseline_sosfreqz(64, 1024, 32)),
-        ("64 lowpasses at 65536 points", _project("lpmax", lowpass64(), 65536),
-         baseline_sosfreqz(64, 65536, 4)),
+        ("64 lowpasses at 4161 points (max for 64 bands)", _project("lpmax", lowpass64(), 4161),
+         baseline_sosfreqz(64, 4161, 4)),
+        ("64 bands x 32 peaking at 4161 points", _project("pkmax", peaking64(), 4161),
+         baseline_sosfreqz(64, 4161, 32)),
+        ("2 bands at 65536 points (max)", _project("twomax", fir_band("window", taps=255),
+                                                   65536), baseline_sosfreqz(2, 65536, 4)),
         ("lsq, 5 Hz transition, max_taps 8191 (not met)",
          _project("lsq", fir_band("lsq", transition_hz=5, max_taps=8191)),
          ["-c", f"from scipy import signal\nsignal.firls(8191, [0, 2397.5, 2402.5, {FS // 2}],"

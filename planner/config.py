@@ -162,6 +162,18 @@ MAX_BANDS = 64
 #: within grid_cap(MAX_POINTS, MAX_BANDS).
 MIN_POINTS = 16
 MAX_POINTS = 65536
+#: ... and, with many bands, at most MAX_PAIR_POINTS // (band pairs) points: the crossing
+#: search looks at every pair of bands at every point, and the crossings it finds (most of
+#: them deep in stop bands) grow with both. 64 bands (2016 pairs) may have 4161 points:
+#: 64 overlapping lowpasses at 4096 points took 10 s and 0.55 GB, at 16384 points 46 s
+#: and 1.8 GB (benchmarks/bench_bounds.py); 16 bands or fewer keep MAX_POINTS.
+MAX_PAIR_POINTS = 1 << 23
+
+
+def max_points(n_bands: int) -> int:
+    """Most analysis.points a project of ``n_bands`` bands may have (MAX_POINTS, MAX_PAIR_POINTS)."""
+    pairs = max(1, int(n_bands) * (int(n_bands) - 1) // 2)
+    return max(MIN_POINTS, min(MAX_POINTS, MAX_PAIR_POINTS // pairs))
 #: Longest FIR each design method may make (taps), so that one design stays under about
 #: 1 GB and a bounded time (figures in benchmarks/bench_bounds.py): a window design is
 #: one sinc times a window (linear in the length); remez (Parks-McClellan, scipy's

@@ -376,6 +376,11 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
                                "band names must be unique", field=f"bands[{i}].name")
         seen[band.name] = i
         bands.append(band)
+    limit = config.max_points(len(bands))
+    if analysis.points > limit:
+        raise ProjectError(f"{analysis.points} points is more than the {limit} a project of "
+                           f"{len(bands)} bands may have (the crossing search looks at every "
+                           "pair of bands at every point)", field="analysis.points")
     return Project(name=name, sample_rate=float(fs) if fs != int(fs) else int(fs),
                    bands=tuple(bands), analysis=analysis,
                    extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS},

@@ -136,3 +136,22 @@ def test_compare_max_taps_beyond_remez_limit_is_one_line(write_project, capsys):
     assert "Traceback" not in err
     assert rc == 2 and "max_taps: 32767 taps is above the limit of 16383 taps for the remez" \
         in err
+
+
+def test_many_bands_take_fewer_points():
+    # 2016 pairs of 64 bands: 2**23 // 2016 = 4161 points at most (config.MAX_PAIR_POINTS).
+    d = two_way()
+    d["bands"] = _bands(64)
+    d["analysis"]["points"] = 4162
+    with pytest.raises(ProjectError, match=r"analysis.points: 4162 points is more than the 4161 "
+                                           r"a project of 64 bands may have"):
+        project.from_dict(d)
+    d["analysis"]["points"] = 4161
+    project.from_dict(d)
+
+
+def test_cli_points_for_many_bands_take_the_same_limit():
+    d = two_way()
+    d["bands"] = _bands(64)
+    with pytest.raises(ProjectError, match=r"points: 5000 points is outside 16 .. 4161"):
+        engine.analyse(project.from_dict(d), points=5000)

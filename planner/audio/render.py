@@ -3,8 +3,10 @@
 Each band is run exactly as a DSP would run its export (see
 :mod:`planner.export`): the stored sections by :func:`scipy.signal.sosfilt`
 in float64 (the filter state carried from block to block), an FIR by
-overlap-add fast convolution (:func:`planner.dsp.signals.fft_convolve`, one
-block at a time), then gain, polarity and the delay. A delay with a
+overlap-add fast convolution (the taps' spectrum computed once, one block at
+a time), then gain, polarity and the delay (:class:`BandRun`). Files stream
+(:func:`render_to_files`): one block of the input is read, run through every
+band and written, then the next. A delay with a
 fraction of a sample runs as :mod:`planner.engine.delays` says: by default
 (``apply``) the fraction is a fractional-delay FIR
 (:mod:`planner.dsp.fracdelay`, convolved in like the band's own taps) and
@@ -30,40 +32,100 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Iterable, Iterator
 
 import numpy as np
+from scipy import fft as sfft
 from scipy import signal
 
-from planner.dsp.signals import fft_convolve
+from planner.audio.wav import WavWriter
 from planner.engine.delays import BandDelay, DelayPlan, plan_delays
 from planner.errors import ExportError
 from planner.export import BandExport, RateExport
 from planner.jsonio import make_folder, os_error_text
 
-__all__ = ["render_band", "render", "Rendered", "BLOCK_SAMPLES", "same_rate_or_refuse",
-           "out_path"]
+__all__ = ["render_band", "render", "render_to_files", "Rendered", "BandRun", "BLOCK_SAMPLES",
+           "same_rate_or_refuse", "out_path"]
 
 
-#: Samples per block between progress reports.
+#: Samples per block: the unit of streaming (every band runs one block, then the next) and
+#: of progress reports.
 BLOCK_SAMPLES = 1 << 16
 
 
 Progress = Callable[[int, int], None]
 
 
+class BandRun:
+    """One exported band run block by block, its state carried from one block to the next.
+
+    Sections by :func:`scipy.signal.sosfilt` with the state ``zi`` carried; an FIR
+    (the band's taps convolved with the fractional-delay filter of ``delay``, if
+    any) by overlap-add with the taps' spectrum computed once: each block is
+    convolved by FFT and the last ``len(fir) - 1`` samples of the result are
+    added into the next block's start [1]_; then gain, polarity and a delay line
+    of ``delay.whole_samples`` samples. Feeding the blocks of a signal in order
+    gives, to float rounding, its one-shot filtering (``sosfilt`` over the whole
+    signal, ``numpy.convolve`` cut to the input's length, then the delay).
+
+    Parameters
+    ----------
+    band : BandExport
+    delay : BandDelay
+        From the run's :func:`planner.engine.delays.plan_delays`.
+    block : int
+        The longest block :meth:`process` will be given (sizes the FFT).
+    """
+
+    def __init__(self, band: BandExport, delay: BandDelay, block: int = BLOCK_SAMPLES):
+        self.sos = band.run_sos if len(band.run_sos) else None
+        fir = band.run_fir
+        if delay.taps is not None:
+            fir = delay.taps if fir is None else np.convolve(fir, delay.taps)
+        self.fir = None if fir is None else np.asarray(fir, dtype=np.float64)
+        self.gain = float(band.linear_gain)
+        self.whole = int(delay.whole_samples)
+        self.block = max(1, int(block))
+        self._zi = None
+        self._tail = None
+        self._line = None
+        self._spectrum = None
+        if self.fir is not None:
+            self._nfft = sfft.next_fast_len(self.block + len(self.fir) - 1, real=True)
+            self._spectrum = sfft.rfft(self.fir, self._nfft)
+
+    def process(self, blk: np.ndarray) -> np.ndarray:
+        """The band's output for the next block (``(n,)`` or ``(n, channels)``, n <= block)."""
+        y = np.asarray(blk, dtype=np.float64)
+        n = y.shape[0]
+        if n > self.block:
+            raise ValueError(f"a block of {n} samples is longer than {self.block}")
+        if self.sos is not None:
+            if self._zi is None:
+                self._zi = np.zeros((len(self.sos), 2) + y.shape[1:])
+            y, self._zi = signal.sosfilt(self.sos, y, axis=0, zi=self._zi)
+        if self.fir is not None:
+            spec = self._spectrum if y.ndim == 1 else self._spectrum[:, None]
+            full = sfft.irfft(sfft.rfft(y, self._nfft, axis=0) * spec, self._nfft,
+                              axis=0)[:n + len(self.fir) - 1]
+            if self._tail is not None:
+                full[:len(self._tail)] += self._tail
+            y, self._tail = full[:n], full[n:]
+        y = y * self.gain
+        if self.whole:
+            if self._line is None:
+                self._line = np.zeros((self.whole,) + y.shape[1:])
+            z = np.concatenate([self._line, y])
+            y, self._line = z[:n], z[n:]
+        return y
+
+
 def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = None,
                 delay: BandDelay | None = None) -> np.ndarray:
     """Run ``x`` (shape ``(n,)`` or ``(n, channels)``) through one exported band.
 
-    Sections by :func:`scipy.signal.sosfilt` in blocks of
-    :data:`BLOCK_SAMPLES` with the state carried, an FIR (the band's taps
-    convolved with the fractional-delay filter of ``delay``, if any) by
-    overlap-add (each block convolved by
-    :func:`planner.dsp.signals.fft_convolve` and its tail added into the
-    next), then gain, polarity and ``delay.whole_samples`` samples of delay
-    line. The output has the input's length. ``progress(done, total)`` is
-    called after each block.
+    :class:`BandRun` over blocks of :data:`BLOCK_SAMPLES`; the output has the
+    input's length. ``progress(done, total)`` is called after each block.
 
     ``delay`` comes from the run's :func:`planner.engine.delays.plan_delays`
     (default: the band alone, in ``apply`` mode).
@@ -72,36 +134,12 @@ def render_band(x: np.ndarray, band: BandExport, progress: Progress | None = Non
         delay = plan_delays([band.delay_samples], "apply").bands[0]
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[0]
-    sos, fir = band.run_sos, band.run_fir
-    if delay.taps is not None:
-        fir = delay.taps if fir is None else np.convolve(fir, delay.taps)
+    run = BandRun(band, delay)
     y = np.empty_like(x)
-    zi = None
-    if len(sos):
-        zi = np.zeros((len(sos), 2) + x.shape[1:])
-    tail = None
     for start in range(0, n, BLOCK_SAMPLES):
-        blk = x[start:start + BLOCK_SAMPLES]
-        if zi is not None:
-            blk, zi = signal.sosfilt(sos, blk, axis=0, zi=zi)
-        if fir is not None:
-            if blk.ndim == 1:
-                full = fft_convolve(blk, fir)
-            else:
-                full = np.column_stack([fft_convolve(blk[:, c], fir) for c in range(blk.shape[1])])
-            if tail is not None:
-                k = min(len(tail), len(full))
-                full[:k] += tail[:k]
-                if len(tail) > k:
-                    full = np.concatenate([full, tail[k:]])
-            blk, tail = full[:len(blk)], full[len(blk):]
-        y[start:start + len(blk)] = blk
+        y[start:start + BLOCK_SAMPLES] = run.process(x[start:start + BLOCK_SAMPLES])
         if progress is not None:
             progress(min(start + BLOCK_SAMPLES, n), n)
-    y *= band.linear_gain
-    whole = delay.whole_samples
-    if whole:
-        y = np.concatenate([np.zeros((min(whole, n),) + x.shape[1:]), y[:max(n - whole, 0)]])
     return y
 
 
@@ -124,6 +162,35 @@ class Rendered:
     delays: DelayPlan
 
 
+def _blocks(x: np.ndarray, block: int) -> Iterator[np.ndarray]:
+    for start in range(0, x.shape[0], block):
+        yield x[start:start + block]
+
+
+def _run_blocks(blocks: Iterable[np.ndarray], n: int, rx: RateExport, plan: DelayPlan,
+                emit: Callable[[int, int, np.ndarray], None], progress: Progress | None,
+                block: int) -> None:
+    """Every band of ``rx`` over ``blocks`` in order; ``emit(k, start, y)`` per band and block.
+
+    ``k`` is the band's index, or ``-1`` for the sum of the active bands.
+    """
+    runs = [BandRun(b, bd, block) for b, bd in zip(rx.bands, plan.bands)]
+    nb = len(runs)
+    start = 0
+    for blk in blocks:
+        blk = np.asarray(blk, dtype=np.float64)
+        s = None
+        for k, (b, run) in enumerate(zip(rx.bands, runs)):
+            y = run.process(blk)
+            emit(k, start, y)
+            if b.active:
+                s = y.copy() if s is None else s + y
+            if progress is not None:
+                progress(start * nb + (k + 1) * len(blk), n * nb)
+        emit(-1, start, np.zeros_like(blk) if s is None else s)
+        start += len(blk)
+
+
 def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
            fractional_delay: str = "apply") -> Rendered:
     """Run ``x`` through every band of an export; the sum takes the active (mute/solo) bands.
@@ -131,20 +198,88 @@ def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
     ``fractional_delay`` (``"apply"`` or ``"round"``) says how delays with a
     fraction of a sample are made (:func:`planner.engine.delays.plan_delays`, one
     plan for all the bands, so that they stay aligned).
-    ``progress(done, total)`` counts samples over all bands together.
+    ``progress(done, total)`` counts samples over all bands together. Every
+    output is held in memory: :func:`render_to_files` streams instead.
     """
-    n = np.asarray(x).shape[0]
-    total = n * len(rx.bands)
+    x = np.asarray(x, dtype=np.float64)
+    n = x.shape[0]
     plan = plan_delays([b.delay_samples for b in rx.bands], fractional_delay)
-    outs = {}
-    for i, (b, bd) in enumerate(zip(rx.bands, plan.bands)):
-        cb = None if progress is None else (lambda d, t, i=i: progress(i * n + d, total))
-        outs[b.name] = render_band(x, b, cb, bd)
-    s = np.zeros_like(np.asarray(x, dtype=np.float64))
-    for b in rx.bands:
-        if b.active:
-            s = s + outs[b.name]
-    return Rendered(outs, s, plan)
+    outs = [np.empty_like(x) for _ in rx.bands]
+    total = np.zeros_like(x)
+
+    def emit(k, start, y):
+        (total if k < 0 else outs[k])[start:start + len(y)] = y
+
+    _run_blocks(_blocks(x, BLOCK_SAMPLES), n, rx, plan, emit, progress, BLOCK_SAMPLES)
+    return Rendered({b.name: y for b, y in zip(rx.bands, outs)}, total, plan)
+
+
+def render_to_files(blocks: Iterable[np.ndarray], n: int, channels: int, rx: RateExport,
+                    band_paths, sum_path, progress: Progress | None = None,
+                    fractional_delay: str = "apply",
+                    block: int = BLOCK_SAMPLES) -> DelayPlan:
+    """Stream blocks of audio through every band into one 32-bit float WAV per band and the sum.
+
+    Only one block of the input and of each output is held at a time. Each
+    file is written to a temporary file in its folder and renamed over its
+    path once every file is complete, so an error or Ctrl-C leaves no
+    truncated WAV (the temporary files are removed) and no old file is
+    replaced by a part of a new one.
+
+    Parameters
+    ----------
+    blocks : iterable of ndarray
+        The input in order, each block at most ``block`` samples
+        (``(m,)`` mono or ``(m, channels)``), ``n`` samples in all.
+    n, channels : int
+    rx : RateExport
+    band_paths : sequence of path
+        One output file per band of ``rx``.
+    sum_path : path
+        The sum of the active bands.
+    progress : callable, optional
+        ``progress(done, total)``, samples over all bands together.
+    fractional_delay : {"apply", "round"}
+    block : int
+
+    Returns
+    -------
+    DelayPlan
+        How the band delays were made.
+
+    Raises
+    ------
+    ExportError
+        ``field='wav'``: outputs too long for a WAV file (4 GiB); ``field='out'``:
+        a file that cannot be written, with the reason.
+    """
+    if n * channels * 4 + 44 > 0xFFFFFFFF:
+        raise ExportError(f"{n} samples x {channels} channel(s) of 32-bit float is more than "
+                          "a WAV file can hold (4 GiB); cut the input into parts", field="wav")
+    plan = plan_delays([b.delay_samples for b in rx.bands], fractional_delay)
+    paths = [Path(p) for p in band_paths] + [Path(sum_path)]
+    writers = []
+    try:
+        for p in paths:
+            writers.append(WavWriter(p, rx.fs_hz, channels))
+
+        def emit(k, start, y):
+            writers[k].write(y)
+
+        _run_blocks(blocks, n, rx, plan, emit, progress, block)
+        for w in writers:
+            w.finish()
+        for w in writers:
+            w.commit()
+    except OSError as e:
+        for w in writers:
+            w.abort()
+        raise ExportError(f"cannot write {os_error_text(e)}", field="out") from None
+    except BaseException:
+        for w in writers:
+            w.abort()
+        raise
+    return plan
 
 
 def same_rate_or_refuse(fs_hz: float, rates) -> float:

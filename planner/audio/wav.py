@@ -12,7 +12,8 @@ that are not finite (NaN or infinite floats) are refused by
 :func:`check_finite` with their count and where the first one is.
 
 Whole files are written with :mod:`scipy.io.wavfile`; long outputs stream
-through :class:`WavWriter`.
+through :class:`WavWriter` (a temporary file renamed over the target when
+complete).
 
 References
 ----------
@@ -24,9 +25,12 @@ References
 
 from __future__ import annotations
 
+import errno
 import os
 import struct
+import tempfile
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Iterator
 
 import numpy as np
@@ -271,12 +275,18 @@ def write_wav(path, samples, fs_hz: float) -> None:
 
 
 class WavWriter:
-    """A 32-bit float WAV written block by block (the sizes are filled in by :meth:`close`).
+    """A 32-bit float WAV written block by block, atomically.
+
+    The frames go to a temporary file in the target's folder; :meth:`finish`
+    fills in the chunk sizes and flushes it to disk, :meth:`commit` renames it
+    over ``path`` (an atomic step), :meth:`abort` removes it. So ``path`` is
+    either the old file or the whole new one, never a truncated WAV.
+    :meth:`close` is :meth:`finish` then :meth:`commit`.
 
     Parameters
     ----------
     path : str or path
-        The file to write (callers write a temporary file and rename it).
+        The file to make.
     fs_hz : float
         Whole-Hz sample rate.
     channels : int
@@ -286,9 +296,18 @@ class WavWriter:
         if not float(fs_hz).is_integer():
             raise ExportError(f"{fs_hz!r} Hz: a WAV file holds whole-Hz rates only",
                               field="rate")
+        self.path = Path(path)
         self.channels = int(channels)
         self.frames = 0
-        self._fh = open(path, "wb")
+        if self.path.is_dir():
+            raise IsADirectoryError(errno.EISDIR, os.strerror(errno.EISDIR), str(self.path))
+        folder = self.path.parent if str(self.path.parent) else Path(".")
+        try:
+            fd, self.tmp = tempfile.mkstemp(prefix=f".{self.path.name}.", suffix=".tmp",
+                                            dir=folder)
+        except OSError as e:
+            raise type(e)(e.errno, e.strerror, str(self.path)) from None
+        self._fh = os.fdopen(fd, "wb")
         fs = int(fs_hz)
         self._fh.write(b"RIFF\0\0\0\0WAVE")
         self._fh.write(struct.pack("<4sIHHIIHH", b"fmt ", 16, _FLOAT, self.channels, fs,
@@ -301,15 +320,45 @@ class WavWriter:
         self._fh.write(a.tobytes())
         self.frames += a.shape[0]
 
-    def close(self) -> None:
-        """Fill in the chunk sizes and close the file."""
+    def finish(self) -> None:
+        """Fill in the chunk sizes, flush the temporary file to disk and close it."""
         nbytes = self.frames * self.channels * 4
         if nbytes + 36 > 0xFFFFFFFF:
-            self._fh.close()
             raise ExportError(f"{self.frames} frames are more than a WAV file can hold "
                               "(4 GiB)", field="wav")
         self._fh.seek(4)
         self._fh.write(struct.pack("<I", 36 + nbytes))
         self._fh.seek(40)
         self._fh.write(struct.pack("<I", nbytes))
+        self._fh.flush()
+        os.fsync(self._fh.fileno())
         self._fh.close()
+
+    def commit(self) -> None:
+        """Rename the finished temporary file over ``path`` (keeping an old file's mode)."""
+        try:
+            mode = self.path.stat().st_mode & 0o7777 if self.path.exists() else 0o644
+            os.chmod(self.tmp, mode)
+            os.replace(self.tmp, self.path)
+        except OSError as e:
+            raise type(e)(e.errno, e.strerror, str(self.path)) from None
+
+    def abort(self) -> None:
+        """Close and remove the temporary file (nothing is left of this write)."""
+        try:
+            self._fh.close()
+        except OSError:
+            pass
+        try:
+            os.unlink(self.tmp)
+        except FileNotFoundError:
+            pass
+
+    def close(self) -> None:
+        """:meth:`finish`, then :meth:`commit`; on failure the temporary file is removed."""
+        try:
+            self.finish()
+            self.commit()
+        except BaseException:
+            self.abort()
+            raise

@@ -113,9 +113,8 @@ def _run(args) -> int:
         info = wav.open_wav(args.input)
         for note in info.notes:
             print(f"warning: {note}", file=sys.stderr)
+        fs = render.same_rate_or_refuse(info.fs_hz, rates)
         wav.check_finite(info, "input")
-        x, fs_in = info.read(), info.fs_hz
-        fs = render.same_rate_or_refuse(fs_in, rates)
         stem = export.short_stem(Path(args.input).stem)
     rx = export.export_rate(proj, fs, args.arith)
     bad = [b for b in rx.bands if not b.arith.ok]
@@ -136,20 +135,26 @@ def _run(args) -> int:
         else:
             export.write_text_file(p, json.dumps(meta, indent=1) + "\n")
         written.append((p, ""))
-    show = (not args.quiet and sys.stderr.isatty() and len(x) > PROGRESS_AFTER_S * fs)
+    if testing:
+        n, channels = len(x), 1
+        blocks = (x[i:i + render.BLOCK_SAMPLES] for i in range(0, n, render.BLOCK_SAMPLES))
+    else:
+        # The input streams: one block is read, run through every band and written at a time.
+        n, channels, blocks = info.frames, info.channels, info.blocks(render.BLOCK_SAMPLES)
+    show = (not args.quiet and sys.stderr.isatty() and n > PROGRESS_AFTER_S * fs)
     bar = ProgressBar(sys.stderr) if show else None
-    res = render.render(x, rx, None if bar is None else
-                        (lambda done, total: bar.update(done / total, "rendering")),
-                        args.fractional_delay)
-    if bar is not None:
-        bar.clear()
-    for name, p in zip(names, band_paths):
-        export.write_file(p, lambda t, y=res.bands[name]: wav.write_wav(t, y, fs))
-        written.append((p, f" (band {name})"))
-    export.write_file(sum_path, lambda t: wav.write_wav(t, res.sum, fs))
+    try:
+        plan = render.render_to_files(
+            blocks, n, channels, rx, band_paths, sum_path,
+            None if bar is None else (lambda done, total: bar.update(done / total, "rendering")),
+            args.fractional_delay)
+    finally:
+        if bar is not None:
+            bar.clear()
+    written += [(p, f" (band {name})") for name, p in zip(names, band_paths)]
     written.append((sum_path, " (sum of the active bands)"))
     for p, what in written:
         print(f"wrote {p}{what}")
-    for line in rounding.run_notes(rx.report, res.delays):
+    for line in rounding.run_notes(rx.report, plan):
         print(f"note: {line}")
     return 0

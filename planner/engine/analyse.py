@@ -199,17 +199,19 @@ def _evaluators(project: Project, designs: list[BandDesign]):
     return drivers, response, AcousticPoints(electrical, drivers)
 
 
-def check_points(points) -> int:
+def check_points(points, n_bands: int = 2) -> int:
     """``points`` if it is a whole number of grid points the project file would take.
 
-    The same limits as ``analysis.points`` (:data:`planner.config.MIN_POINTS`,
-    :data:`planner.config.MAX_POINTS`); a ProjectError with field ``points`` otherwise.
+    The same limits as ``analysis.points`` for ``n_bands`` bands
+    (:data:`planner.config.MIN_POINTS`, :func:`planner.config.max_points`); a
+    ProjectError with field ``points`` otherwise.
     """
     if isinstance(points, bool) or not isinstance(points, (int, np.integer)):
         raise ProjectError(f"must be a whole number of points, not {points!r}", field="points")
-    if not config.MIN_POINTS <= points <= config.MAX_POINTS:
-        raise ProjectError(f"{points} points is outside {config.MIN_POINTS} .. "
-                           f"{config.MAX_POINTS}, the limits of analysis.points", field="points")
+    top = config.max_points(n_bands)
+    if not config.MIN_POINTS <= points <= top:
+        raise ProjectError(f"{points} points is outside {config.MIN_POINTS} .. {top}, the "
+                           f"limits of analysis.points for {n_bands} bands", field="points")
     return int(points)
 
 
@@ -223,7 +225,7 @@ def analyse(project: Project, points: int | None = None) -> Report:
         Grid points instead of ``project.analysis.points``.
     """
     if points is not None:
-        points = check_points(points)
+        points = check_points(points, len(project.bands))
         project = replace(project, analysis=replace(project.analysis, points=int(points)))
     fs = project.sample_rate
     a = project.analysis
