@@ -212,3 +212,11 @@ def test_check_json_headroom(write_project, capsys):
     assert main(["check", str(write_project(_raised_two_way(True))), "--json"]) == 1
     d = json.loads(capsys.readouterr().out)
     assert d["ok"] is False and d["headroom"]["enforced"] is True
+
+
+def test_plot_to_a_pipe_has_no_colour_codes(write_project, capsys, monkeypatch):
+    # Output captured (not a terminal) and NO_COLOR unset: still plain text.
+    monkeypatch.delenv("NO_COLOR", raising=False)
+    assert main(["plot", str(write_project(two_way(4))), "--width", "70", "--height", "18"]) == 0
+    out = capsys.readouterr().out
+    assert "\x1b[" not in out and "1k" in out
