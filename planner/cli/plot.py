@@ -50,6 +50,6 @@ def _run(args) -> int:
             tr = tr.step()
         print(plot_time(tr, proj.name, width, height, color=color, span_ms=args.span_ms))
         return 0
-    r = engine.analyse(proj)
+    r = engine.analyse(proj, group_delay=args.view == "delay")
     print(plot_report(r, args.view, width, height, color=color))
     return 0
