@@ -1,11 +1,17 @@
-"""Time one editor refresh: edit -> analyse -> plot text, for a 4-band project at 2048 points.
+"""Time one editor refresh: edit -> analyse -> plot text, and a real keypress in the editor.
 
 What the editor does after a typed value: make the new project
 (planner.edits, checked like a file), analyse it (designs are cached; only
-the edited filter is redesigned), build the plot data and draw the plot with
-plotext at the plot's size. Baseline, in the same process: the band responses
-alone with scipy.signal.sosfreqz called band by band on the same grid.
-(and turn it into Rich text, as the widget does). Prints milliseconds and the ratio refresh / baseline.
+the edited filter is redesigned), build the plot data, draw the plot at the
+plot's size (planner.present.plots) and turn it into Rich text as the plot
+widget does. Baseline, in the same process: the band responses alone with
+scipy.signal.sosfreqz called band by band on the same grid. Prints
+milliseconds and the ratio refresh / baseline.
+
+Then the editor itself, headless (Textual's run_test at 120x40): a key that
+moves a crossover by 1/12 octave is pressed, and the time is taken until the
+plot widget has drawn the new analysis (the check bar is updated just before
+it). Median and range of several presses.
 
 Run:  python benchmarks/bench_tui.py
 """
@@ -21,7 +27,10 @@ for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
 import sys
 from pathlib import Path
 
-from rich.text import Text
+import asyncio
+import statistics
+import time
+
 from scipy import signal
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
@@ -31,8 +40,9 @@ from bench_check import best as best_s, four_band_project  # noqa: E402
 
 from planner import edits, engine, project  # noqa: E402
 from planner.engine.analyse import start_grid
-from planner.present.plots import freq_plot  # noqa: E402
+from planner.present.plots import freq_canvas  # noqa: E402
 from planner.tui import views  # noqa: E402
+from planner.tui.widgets import canvas_text  # noqa: E402
 
 
 def best(fn, repeat=20):
@@ -57,10 +67,10 @@ def main() -> None:
             p = edits.set_filter_params(state["p"], 1, 1, freq=f)
             r = engine.analyse(p)
             d = views.plot_data(r, "magnitude", 1, 900.0)
-            s = freq_plot(d.series, width=width, height=height, ylabel=d.unit, ylim=d.ylim,
-                          title=d.title, color=True, marks_hz=(*d.marks_hz, d.cursor_hz),
-                          hline=d.hline)
-            Text.from_ansi(s, no_wrap=True)   # what the plot widget returns from render()
+            c = freq_canvas(d.series, width=width, height=height, ylabel=d.unit, ylim=d.ylim,
+                            title=d.title, color=True, marks_hz=(*d.marks_hz, d.cursor_hz),
+                            hline=d.hline)
+            canvas_text(c)   # the runs as Rich text (the widget makes strips of the same runs)
         return run
 
     def edit_only():
@@ -78,6 +88,64 @@ def main() -> None:
         t = best(refresh(w, h))
         print(f"edit -> analyse -> plot text at {w}x{h}:{' ' * (10 - len(f'{w}x{h}'))}"
               f"{t:7.2f} ms  (ratio to baseline {t / t_base:.2f}x; budget 100 ms)")
+
+
+    times = asyncio.run(keypresses(proj, 15))
+    print(f"editor at 120x40, key -> check bar and plot drawn: median {statistics.median(times):.1f}"
+          f" ms, range {min(times):.1f}-{max(times):.1f} ms over {len(times)} presses "
+          f"(ratio to baseline {statistics.median(times) / t_base:.2f}x)")
+
+
+async def keypresses(proj, n: int) -> list[float]:
+    """Milliseconds from a key press (crossover up/down 1/12 octave) until the plot drew it."""
+    from planner.tui.app import CrossplanApp
+    from planner.tui.widgets import PlotView
+
+    app = CrossplanApp(proj, None)
+    drawn: list = []
+    real_render = PlotView.render_lines
+
+    def render_lines(self, crop):
+        out = real_render(self, crop)
+        drawn.append((self.data, time.perf_counter()))
+        return out
+
+    PlotView.render_lines = render_lines
+    try:
+        async with app.run_test(size=(120, 40)) as pilot:
+            await _settle(app, pilot)
+            app.query_one("#bands").focus()
+            await pilot.press("down")                 # band "low"
+            app.query_one("#chain").focus()
+            await pilot.press("down")                 # its LR8 lowpass at 900 Hz
+            await _settle(app, pilot)
+            times = []
+            for i in range(n):
+                drawn.clear()
+                t0 = time.perf_counter()
+                await pilot.press("right" if i % 2 == 0 else "left")
+                project_after = app.project
+                while time.perf_counter() - t0 < 10.0:
+                    r = app.report
+                    if r is not None and r.project is project_after:
+                        data = app.query_one(PlotView).data
+                        hit = [t for d, t in drawn if d is data]
+                        if hit:
+                            times.append((hit[0] - t0) * 1000.0)
+                            break
+                    await asyncio.sleep(0.0002)
+                else:
+                    raise RuntimeError("the plot did not draw the new analysis within 10 s")
+                await _settle(app, pilot)
+    finally:
+        PlotView.render_lines = real_render
+    return times
+
+
+async def _settle(app, pilot) -> None:
+    await pilot.pause()
+    await app.workers.wait_for_complete([w for w in app.workers if w.group == "analysis"])
+    await pilot.pause()
 
 
 if __name__ == "__main__":

@@ -242,3 +242,36 @@ def test_headroom_limit_lives_in_config_only(monkeypatch):
     assert r.check("headroom").state == "ok" and r.ok
     assert r.to_dict()["headroom"]["limit_db"] == 0.5
     assert not any(w.code == "headroom" for w in r.warnings)
+
+
+@pytest.mark.parametrize("name", ["two-way", "fir-three-way"])
+def test_group_delay_in_the_same_pass_matches_scipy(name):
+    # analyse(group_delay=True) evaluates the derivative with the responses; each band's
+    # group delay is checked against scipy.signal.group_delay of its own sections or taps
+    # (reference library), away from the bands' deep stop bands where both are rounding.
+    from scipy import signal
+
+    r = engine.analyse(load_preset(name), group_delay=True)
+    fs = r.project.sample_rate
+    gd = r.responses.group_delay_samples()
+    for k, d in enumerate(r.designs):
+        level = 20 * np.log10(np.abs(r.responses.h[k]))
+        f = r.freqs_hz[level > level.max() - 40]
+        if d.fir is not None:
+            ref = signal.group_delay((d.fir, [1.0]), w=f, fs=fs)[1]
+        else:
+            ref = sum(signal.group_delay((s[:3], s[3:]), w=f, fs=fs)[1] for s in d.sos)
+        ref = ref + d.delay_samples
+        got = gd[k][np.isin(r.freqs_hz, f)]
+        # 1e-5 relative (and 1e-6 samples): scipy's polynomial formula loses digits where
+        # poles sit near z = 1 (the subsonic highpass: 2e-6 relative measured at 20 Hz).
+        np.testing.assert_allclose(got, ref, rtol=1e-5, atol=1e-6)
+
+
+def test_group_delay_in_the_same_pass_changes_no_figure():
+    # The same grid, responses and report whichever pass evaluates the derivative.
+    p = load_preset("two-way")
+    a, b = engine.analyse(p), engine.analyse(p, group_delay=True)
+    np.testing.assert_array_equal(a.freqs_hz, b.freqs_hz)
+    np.testing.assert_array_equal(a.responses.h, b.responses.h)
+    assert a.to_dict() == b.to_dict()

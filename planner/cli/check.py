@@ -33,7 +33,7 @@ def _run(args) -> int:
     from planner.present.text import text_report
 
     proj = load_project(args.file)
-    r = engine.analyse(proj, points=args.points)
+    r = engine.analyse(proj, points=args.points, group_delay=True)   # the report shows it
     rx = None
     arith = args.arith if args.arith is not None else proj.analysis.arith
     if arith is not None:

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import shutil
+import sys
 
 from planner.cli.common import designing, load_project, positive_number
 from planner.defaults import PLOT_VIEWS as VIEWS
@@ -38,7 +39,8 @@ def _run(args) -> int:
     cols = shutil.get_terminal_size((80, 24)).columns
     width = args.width or cols
     height = args.height or 24
-    color = False if args.no_color else None
+    # Colour only on a terminal (and unless NO_COLOR is set): no escape codes in a file or pipe.
+    color = False if args.no_color or not sys.stdout.isatty() else None
     if args.view in TIME_VIEWS:
         # The numerical core is imported when the command runs (start-up time).
         from planner import timeresp
@@ -48,6 +50,6 @@ def _run(args) -> int:
             tr = tr.step()
         print(plot_time(tr, proj.name, width, height, color=color, span_ms=args.span_ms))
         return 0
-    r = engine.analyse(proj)
+    r = engine.analyse(proj, group_delay=args.view == "delay")
     print(plot_report(r, args.view, width, height, color=color))
     return 0

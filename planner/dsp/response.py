@@ -200,7 +200,8 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
                    gains_db: Sequence[float] | None = None,
                    delays_samples: Sequence[float] | None = None,
                    invert: Sequence[bool] | None = None,
-                   firs: Sequence[np.ndarray | None] | None = None) -> BandResponses:
+                   firs: Sequence[np.ndarray | None] | None = None,
+                   derivative: bool = False) -> BandResponses:
     """Evaluate every band's chain on ``freqs_hz`` in one pass.
 
     Parameters
@@ -216,6 +217,11 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
         exact), polarity.
     firs : sequence of ndarray or None, optional
         FIR taps applied after the sections, per band.
+    derivative : bool
+        Also evaluate the logarithmic derivative (for group delay) in the same
+        pass over the sections, instead of a second pass when it is first
+        asked for. The responses are the same either way (the chain is
+        multiplied in the same order).
 
     Returns
     -------
@@ -225,7 +231,10 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
     nb = len(sos_list)
     w = _omega(freqs_hz, fs_hz)
     stacked = stack_sos(sos_list)
-    h = sos_response(stacked, w)
+    if derivative:
+        h, dsos = sos_response(stacked, w, derivative=True)
+    else:
+        h = sos_response(stacked, w)
     g = 10.0 ** (np.asarray(gains_db if gains_db is not None else np.zeros(nb), float) / 20.0)
     if invert is not None:
         g = g * np.where(np.asarray(invert, bool), -1.0, 1.0)
@@ -237,6 +246,15 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
     # FIR taps: bands with taps of the same length are evaluated together by
     # the block method of planner.dsp.fir (one matrix product per length).
     groups = _fir_groups(firs)
+    if derivative:
+        dl = dsos - 1j * d[:, None]
+        for idx in groups.values():
+            hf, dh = fir_response_and_derivative(np.stack([firs[i] for i in idx]), freqs_hz,
+                                                 fs_hz)
+            h[idx] *= hf
+            with np.errstate(divide="ignore", invalid="ignore"):
+                dl[idx] += dh / hf
+        return BandResponses(freqs_hz, h, fs_hz, lambda: dl)
     for idx in groups.values():
         h[idx] *= fir_response(np.stack([firs[i] for i in idx]), freqs_hz, fs_hz)
 

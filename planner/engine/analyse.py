@@ -102,6 +102,9 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
     Where the sum's level is looked at (fast changes, extremes) it is taken
     relative to ``target`` (a function ``freqs_hz -> dB``; None: 0 dB), so
     that the grid resolves the deviation the check reports.
+    ``response(f)`` gives the bands' responses at ``f`` (n_bands rows), and
+    may append more rows (their logarithmic derivatives) that are carried
+    along through every merge; the grid is chosen from the first n_bands.
 
     The starting grid (:func:`start_grid`) is evaluated; then, for at most
     :data:`~planner.config.GRID_REFINE_PASSES` passes, the cells where the
@@ -114,12 +117,13 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
     freqs = start_grid(project, designs)
     h = response(freqs)
     act = np.asarray(active, dtype=bool)
+    nb = len(designs)
 
     def tdb(f):
         return 0.0 if target is None else target(f)
 
     def sum_db(hh, f):
-        return (an.db(hh[act].sum(axis=0)) - tdb(f)) if act.any() else np.zeros(hh.shape[1])
+        return (an.db(hh[:nb][act].sum(axis=0)) - tdb(f)) if act.any() else np.zeros(hh.shape[1])
 
     lv = sum_db(h, freqs)
     for _ in range(config.GRID_REFINE_PASSES if act.any() else 0):
@@ -140,7 +144,7 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
             idx = dgrid.local_extremes(sg * lv, config.GRID_EXTREMES)
             near = sg * lv[idx] >= sg * lv[idx[0]] - config.GRID_EXTREME_MARGIN_DB
             cands += [(-1, sg, int(i)) for i in idx[near]]
-    peaks = np.argmax(np.abs(h), axis=1)
+    peaks = np.argmax(np.abs(h[:nb]), axis=1)
     cands += [(k, 1.0, int(peaks[k])) for k in range(len(designs))]
     row = np.array([c[0] for c in cands])
     sign = np.array([c[1] for c in cands])
@@ -179,22 +183,30 @@ def _targets(project: Project, freqs: np.ndarray) -> list:
     return out
 
 
-def _evaluators(project: Project, designs: list[BandDesign]):
+def _evaluators(project: Project, designs: list[BandDesign], group_delay: bool = False):
     """(drivers or None, responses on a grid, point evaluator): electrical, or acoustic when
-    a band has a driver (:mod:`planner.engine.acoustic`)."""
+    a band has a driver (:mod:`planner.engine.acoustic`). With ``group_delay`` the grid
+    responses carry the bands' electrical logarithmic derivatives as extra rows, evaluated
+    in the same pass over the sections."""
     fs = project.sample_rate
     electrical = point_evaluator(designs, fs)
+    nb = len(designs)
 
     def el_response(f):
-        return evaluate(designs, f, fs).h
+        if not group_delay:
+            return evaluate(designs, f, fs).h
+        r = evaluate(designs, f, fs, derivative=True)
+        return np.concatenate([r.h, r.dlog])
 
     if not project.has_drivers:
         return None, el_response, electrical
     f0 = start_grid(project, designs)
-    drivers = Drivers.of(project, f0, el_response(f0))
+    drivers = Drivers.of(project, f0, evaluate(designs, f0, fs).h)
 
     def response(f):
-        return el_response(f) * drivers.all_bands(f)
+        out = el_response(f)
+        out[:nb] *= drivers.all_bands(f)
+        return out
 
     return drivers, response, AcousticPoints(electrical, drivers)
 
@@ -215,7 +227,7 @@ def check_points(points, n_bands: int = 2) -> int:
     return int(points)
 
 
-def analyse(project: Project, points: int | None = None) -> Report:
+def analyse(project: Project, points: int | None = None, group_delay: bool = False) -> Report:
     """Design, evaluate and check every band of ``project`` at its sample rate.
 
     Parameters
@@ -223,6 +235,11 @@ def analyse(project: Project, points: int | None = None) -> Report:
     project : Project
     points : int, optional
         Grid points instead of ``project.analysis.points``.
+    group_delay : bool
+        The group delay will be asked for (the text report and JSON show the
+        sum's): evaluate the derivative it needs in the same pass as the
+        responses. Without it, the derivative is evaluated on first use, in
+        a second pass; the figures are the same either way.
     """
     if points is not None:
         points = check_points(points, len(project.bands))
@@ -242,19 +259,23 @@ def analyse(project: Project, points: int | None = None) -> Report:
     cdesigns = designs
     if voiced:
         cdesigns = [design_band(b, fs) for b in checked.bands]
-    drivers, response, point = _evaluators(project, designs)
+    drivers, response, point = _evaluators(project, designs, group_delay)
     freqs, h = _sample(project, designs, active, response, point, target)
     if voiced:
         cdrivers, cresponse, cpoint = _evaluators(checked, cdesigns)
         f2, _ = _sample(checked, cdesigns, active, cresponse, cpoint, target)
         freqs = np.union1d(freqs, f2)
         h, hc = response(freqs), cresponse(freqs)
-    else:
+    # With group_delay the rows past the bands are their logarithmic derivatives.
+    h, dl_el = h[:len(designs)], (h[len(designs):] if group_delay else None)
+    if not voiced:
         cdrivers, cpoint, hc = drivers, point, h
 
     def dlog():
-        out = log_derivative([d.sos for d in designs], freqs, fs,
-                             [d.delay_samples for d in designs], [d.fir for d in designs])
+        out = dl_el
+        if out is None:
+            out = log_derivative([d.sos for d in designs], freqs, fs,
+                                 [d.delay_samples for d in designs], [d.fir for d in designs])
         return out if drivers is None else out + drivers.log_derivative(freqs, fs)
 
     resp = BandResponses(freqs, h, fs, dlog)

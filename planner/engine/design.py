@@ -113,13 +113,15 @@ def design_project(project: Project) -> None:
             raise e.at(f"bands[{i}]") from None
 
 
-def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float) -> BandResponses:
-    """Responses of designed bands on a grid (see :func:`planner.dsp.response.band_responses`)."""
+def evaluate(designs: list[BandDesign], freqs_hz: np.ndarray, fs_hz: float,
+             derivative: bool = False) -> BandResponses:
+    """Responses of designed bands on a grid (see :func:`planner.dsp.response.band_responses`;
+    ``derivative``: the logarithmic derivative in the same pass)."""
     return band_responses([d.sos for d in designs], freqs_hz, fs_hz,
                           gains_db=[d.gain_db for d in designs],
                           delays_samples=[d.delay_samples for d in designs],
                           invert=[d.invert for d in designs],
-                          firs=[d.fir for d in designs])
+                          firs=[d.fir for d in designs], derivative=derivative)
 
 
 def point_evaluator(designs: list[BandDesign], fs_hz: float) -> PointEvaluator:

@@ -1,3 +1,3 @@
 """Presenting results: plain text (:mod:`~planner.present.text`), the series of each plot
-view (:mod:`~planner.present.views`) and their drawing in the terminal with plotext
-(:mod:`~planner.present.plots`)."""
+view (:mod:`~planner.present.views`) and their drawing in the terminal in braille
+characters (:mod:`~planner.present.plots`)."""

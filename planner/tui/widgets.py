@@ -5,12 +5,15 @@ from __future__ import annotations
 
 from typing import Any
 
-from rich.text import Text
+from rich.segment import Segment
+from rich.style import Style
+from rich.text import Span, Text
 from textual import on
 from textual.app import ComposeResult
 from textual.containers import Horizontal, Vertical
 from textual.message import Message
 from textual.reactive import reactive
+from textual.strip import Strip
 from textual.suggester import SuggestFromList
 from textual.widget import Widget
 from textual.widgets import Input, Label, OptionList, Static
@@ -19,7 +22,7 @@ from textual.widgets.option_list import Option
 from planner import filters as fk, units
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
-from planner.present.plots import freq_plot, time_plot
+from planner.present.plots import Canvas, freq_canvas, time_canvas
 from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
@@ -283,16 +286,37 @@ def _short(name: str) -> str:
 
 # -- plot -----------------------------------------------------------------------------------
 
+def canvas_text(canvas: Canvas) -> Text:
+    """A drawn plot as Rich text: its runs become spans (no escape codes to re-parse)."""
+    parts, spans, pos = [], [], 0
+    for i, line in enumerate(canvas.lines):
+        if i:
+            parts.append("\n")
+            pos += 1
+        for text, style in line:
+            if style:
+                spans.append(Span(pos, pos + len(text), style))
+            parts.append(text)
+            pos += len(text)
+    return Text("".join(parts), spans=spans, no_wrap=True)
+
+
 class PlotView(Widget):
-    """A plotext plot of :class:`PlotData`, drawn at the widget's own size on each render."""
+    """A plot of :class:`PlotData`, drawn at the widget's own size.
+
+    Textual asks for it line by line (``render_line``): the drawn plot's runs
+    are turned into strips of segments once per data and size, so a repaint
+    that changes neither (a layout pass after an edit elsewhere) costs nothing.
+    """
 
     data: reactive[PlotData | None] = reactive(None)
 
     def __init__(self, color: bool, **kw) -> None:
         super().__init__(**kw)
         self.color = color
+        self._drawn: tuple = (None, None, None)      # (data, size, strips)
 
-    def render(self) -> Text:
+    def _canvas(self) -> Canvas | Text:
         d = self.data
         w, h = self.size.width, self.size.height
         if d is None:
@@ -300,13 +324,43 @@ class PlotView(Widget):
         if w < 20 or h < 6:
             return Text("(too small for a plot)")
         if d.time:
-            s = time_plot(d.series, width=w, height=h, xlabel="ms", ylabel=d.unit,
-                          title=d.title, color=self.color)
-            return Text.from_ansi(s, no_wrap=True)
+            return time_canvas(d.series, width=w, height=h, xlabel="ms", ylabel=d.unit,
+                               title=d.title, color=self.color)
         marks = (*d.marks_hz, d.cursor_hz)
-        s = freq_plot(d.series, width=w, height=h, ylabel=d.unit, ylim=d.ylim, title=d.title,
-                      color=self.color, marks_hz=marks, hline=d.hline)
-        return Text.from_ansi(s, no_wrap=True)
+        return freq_canvas(d.series, width=w, height=h, ylabel=d.unit, ylim=d.ylim,
+                           title=d.title, color=self.color, marks_hz=marks, hline=d.hline)
+
+    def render(self) -> Text:
+        """The plot as Rich text (what ``render_line`` draws, in one piece)."""
+        c = self._canvas()
+        return c if isinstance(c, Text) else canvas_text(c)
+
+    def render_line(self, y: int) -> Strip:
+        data, size, strips = self._drawn
+        if data is not self.data or size != self.size:
+            strips = self._strips()
+            self._drawn = (self.data, self.size, strips)
+        if 0 <= y < len(strips):
+            return strips[y]
+        return Strip.blank(self.size.width, self.rich_style)
+
+    def _strips(self) -> list[Strip]:
+        w = self.size.width
+        base = self.rich_style
+        c = self._canvas()
+        if isinstance(c, Text):
+            return [Strip([Segment(c.plain, base)]).adjust_cell_length(w, base)]
+        styles: dict[str | None, Style] = {None: base}
+        out = []
+        for line in c.lines:
+            segs = []
+            for text, name in line:
+                st = styles.get(name)
+                if st is None:
+                    st = styles[name] = base + Style.parse(name)
+                segs.append(Segment(text, st))
+            out.append(Strip(segs).adjust_cell_length(w, base))
+        return out
 
 
 class Readout(Static):

@@ -244,3 +244,11 @@ def test_edit_names_a_point_by_frequency_and_refuses_a_bad_key(write_project, tm
     assert main(["edit", str(path), "--crossover", "5k=6k"]) == 2
     assert "no crossover named or at '5k'" in capsys.readouterr().err
     assert path.read_text() == before           # nothing saved
+
+
+def test_plot_to_a_pipe_has_no_colour_codes(write_project, capsys, monkeypatch):
+    # Output captured (not a terminal) and NO_COLOR unset: still plain text.
+    monkeypatch.delenv("NO_COLOR", raising=False)
+    assert main(["plot", str(write_project(two_way(4))), "--width", "70", "--height", "18"]) == 0
+    out = capsys.readouterr().out
+    assert "\x1b[" not in out and "1k" in out
