@@ -11,6 +11,7 @@ check bar, the warnings and the plot.
 from __future__ import annotations
 
 import time
+from dataclasses import dataclass
 from functools import partial
 from pathlib import Path
 
@@ -33,47 +34,88 @@ from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathSc
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
-__all__ = ["CrossplanApp", "run_editor", "COMMANDS"]
+__all__ = ["CrossplanApp", "run_editor", "ACTIONS", "Command"]
 
-#: Every action, for the command palette and the help: (action, title, help).
-COMMANDS = (
-    ("save", "Save", "write the project to its file (atomically)"),
-    ("save_as", "Save as", "write the project to a new file"),
-    ("open", "Open", "open a project file"),
-    ("undo", "Undo", "undo the last edit"),
-    ("redo", "Redo", "redo the edit undone last"),
-    ("add('band')", "Add band", "add an empty band after the selected one"),
-    ("add('filter')", "Add filter", "add a filter (0 dB peaking EQ) after the selected one"),
-    ("remove('band')", "Remove band", "remove the selected band"),
-    ("remove('filter')", "Remove filter", "remove the selected filter"),
-    ("duplicate('band')", "Duplicate band", "copy the selected band with its chain"),
-    ("duplicate('filter')", "Duplicate filter", "copy the selected filter"),
-    ("move('band',-1)", "Move band up", "move the selected band up"),
-    ("move('band',1)", "Move band down", "move the selected band down"),
-    ("move('filter',-1)", "Move filter up", "move the selected filter earlier in the chain"),
-    ("move('filter',1)", "Move filter down", "move the selected filter later in the chain"),
-    ("toggle('invert')", "Invert band", "flip the polarity of the selected band"),
-    ("toggle('mute')", "Mute band", "leave the selected band out of the sum, or back in"),
-    ("toggle('solo')", "Solo band", "sum only soloed bands"),
-    ("bypass", "Bypass filter", "keep the filter in the chain but do not apply it"),
-    ("nudge_freq(1)", "Frequency up", "selected filter frequency up 1/12 octave"),
-    ("nudge_freq(-1)", "Frequency down", "selected filter frequency down 1/12 octave"),
-    ("nudge_gain(1)", "Gain up", "filter (or band) gain up 0.5 dB"),
-    ("nudge_gain(-1)", "Gain down", "filter (or band) gain down 0.5 dB"),
-    ("nudge_q(1)", "Q up", "selected filter Q up 10 %"),
-    ("nudge_q(-1)", "Q down", "selected filter Q down 10 %"),
-    ("view(1)", "Next view", "magnitude, phase, group delay, phase/level difference"),
-    ("view(-1)", "Previous view", "step back through the plot views"),
-    ("cursor(1)", "Cursor up", "move the plot cursor up 1/12 octave"),
-    ("cursor(-1)", "Cursor down", "move the plot cursor down 1/12 octave"),
-    ("settings", "Project settings", "project name, analysis range, points, limits, sample rate"),
-    ("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text or "
-                                      "wav) and a manifest, at the project's rate"),
-    ("rename", "Rename project", "change the project's name (the exports are named after it)"),
-    ("focus_warnings", "Warnings", "go to the warnings list"),
-    ("help", "Help", "keys and safety notes"),
-    ("quit", "Quit", "leave (asks first when there are unsaved edits)"),
+@dataclass(frozen=True)
+class Command:
+    """One editor action: what the key bindings, the footer, the command palette and the
+    help all read (:data:`ACTIONS` is the one table of them).
+
+    ``keys``: Textual key names, comma-separated ("" for the palette only);
+    ``footer``: the footer's short label (None: not in the footer); ``priority``:
+    the keys work inside a text field too; ``also``: more keys, not priority ones
+    (``q`` quits, but types a "q" inside a field).
+    """
+
+    action: str
+    title: str
+    help: str
+    keys: str = ""
+    footer: str | None = None
+    priority: bool = False
+    also: str = ""
+
+
+C = Command
+#: Every action, in the footer's order first. BINDINGS, the palette and the help are made
+#: from it. Inside a text field only the priority keys and the non-letter ones work, so the
+#: footer then shows save, undo, back, help and quit.
+ACTIONS = (
+    C("save", "Save", "write the project to its file (atomically)", "ctrl+s", "Save", True),
+    C("undo", "Undo", "undo the last edit", "ctrl+z", "Undo", True),
+    C("add", "Add", "add a band or filter after the selected one (the list in focus)", "a",
+      "Add"),
+    C("remove", "Remove", "remove the selected band or filter", "x,delete", "Del"),
+    C("view(1)", "Next view", "magnitude, phase, group delay, phase/level difference at a "
+      "crossing, impulse, step", "v", "View"),
+    C("settings", "Project settings", "project name, analysis range, points, limits, "
+      "sample rate", "e", "Setup"),
+    C("back", "Back", "back to the chain; cancels a long design (and undoes its edit)",
+      "escape", "Back"),
+    C("help", "Help", "keys and safety notes", "question_mark,f1", "Help"),
+    C("quit", "Quit", "leave (asks first when there are unsaved edits)", "ctrl+q", "Quit",
+      True, also="q"),
+    C("redo", "Redo", "redo the edit undone last", "ctrl+y", priority=True),
+    C("duplicate", "Duplicate", "copy the selected band or filter just after it", "c"),
+    C("move(None,-1)", "Move up", "move the selected band or filter up", "left_square_bracket"),
+    C("move(None,1)", "Move down", "move the selected band or filter down",
+      "right_square_bracket"),
+    C("add('band')", "Add band", "add an empty band after the selected one"),
+    C("add('filter')", "Add filter", "add a filter after the selected one (then pick its type)"),
+    C("remove('band')", "Remove band", "remove the selected band"),
+    C("remove('filter')", "Remove filter", "remove the selected filter"),
+    C("toggle('invert')", "Invert band", "flip the polarity of the selected band", "i"),
+    C("toggle('mute')", "Mute band", "leave the selected band out of the sum, or back in", "m"),
+    C("toggle('solo')", "Solo band", "sum only soloed bands", "s"),
+    C("bypass", "Bypass filter", "keep the filter in the chain but do not apply it", "b"),
+    C("nudge_freq(-1)", "Frequency down", "selected filter frequency down 1/12 octave", "left"),
+    C("nudge_freq(1)", "Frequency up", "selected filter frequency up 1/12 octave", "right"),
+    C("nudge_freq(-4)", "Frequency down 1/3 octave", "selected filter frequency down 1/3 "
+      "octave", "shift+left"),
+    C("nudge_freq(4)", "Frequency up 1/3 octave", "selected filter frequency up 1/3 octave",
+      "shift+right"),
+    C("nudge_gain(1)", "Gain up", "filter (or band) gain up 0.5 dB", "plus,equals_sign"),
+    C("nudge_gain(-1)", "Gain down", "filter (or band) gain down 0.5 dB", "minus"),
+    C("nudge_q(1)", "Q up", "selected filter Q up 10 %", "greater_than_sign"),
+    C("nudge_q(-1)", "Q down", "selected filter Q down 10 %", "less_than_sign"),
+    C("cursor(1)", "Cursor up", "move the plot cursor up 1/12 octave", "full_stop"),
+    C("cursor(-1)", "Cursor down", "move the plot cursor down 1/12 octave", "comma"),
+    C("view(-1)", "Previous view", "step back through the plot views", "V"),
+    C("focus_field('freq')", "Edit frequency", "jump to the selected filter's frequency", "f"),
+    C("pick('type')", "Pick type", "pick the selected filter's type from a list", "t"),
+    C("pick('family')", "Pick family", "pick the selected filter's family and order (LR4, "
+      "BW2, ...) from a list"),
+    C("focus_field('gain_db')", "Edit gain", "jump to the filter's (or band's) gain", "g"),
+    C("focus_warnings", "Warnings", "go to the warnings list", "w"),
+    C("reanalyse", "Re-analyse", "design every filter and check the project again", "ctrl+r"),
+    C("compare", "Compare IIR and FIR", "IIR versus FIR for every band (its own screen)", "C"),
+    C("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text "
+      "or wav) and a manifest, at the project's rate", "E"),
+    C("rename", "Rename project", "change the project's name (the exports are named after it)"),
+    C("save_as", "Save as", "write the project to a new file", "S"),
+    C("open", "Open", "open a project file", "o,ctrl+o"),
 )
+del C
 
 _STEP_OCT = 1 / 12
 _GAIN_STEP_DB = 0.5
@@ -86,16 +128,16 @@ class EditorCommands(Provider):
     """The command palette's list: every editor action, by its title."""
 
     async def discover(self) -> Hits:
-        for action, title, help_ in COMMANDS:
-            yield DiscoveryHit(title, partial(self.app.run_action, action), help=help_)
+        for c in ACTIONS:
+            yield DiscoveryHit(c.title, partial(self.app.run_action, c.action), help=c.help)
 
     async def search(self, query: str) -> Hits:
         matcher = self.matcher(query)
-        for action, title, help_ in COMMANDS:
-            score = matcher.match(title)
+        for c in ACTIONS:
+            score = matcher.match(c.title)
             if score > 0:
-                yield Hit(score, matcher.highlight(title), partial(self.app.run_action, action),
-                          help=help_)
+                yield Hit(score, matcher.highlight(c.title),
+                          partial(self.app.run_action, c.action), help=c.help)
 
 
 class CrossplanApp(App):
@@ -105,46 +147,11 @@ class CrossplanApp(App):
     TITLE = "crossplan"
     COMMANDS = App.COMMANDS | {EditorCommands}
 
-    BINDINGS = [
-        Binding("ctrl+s", "save", "Save", priority=True),
-        Binding("ctrl+z", "undo", "Undo", priority=True),
-        Binding("ctrl+y", "redo", "Redo", show=False, priority=True),
-        Binding("a", "add", "Add"),
-        Binding("x,delete", "remove", "Remove"),
-        Binding("i", "toggle('invert')", "Invert"),
-        Binding("v", "view(1)", "View"),
-        Binding("e", "settings", "Settings"),
-        Binding("question_mark,f1", "help", "Help"),
-        Binding("q", "quit", "Quit"),
-        Binding("ctrl+q", "quit", "Quit", show=False, priority=True),
-        Binding("c", "duplicate", "Duplicate", show=False),
-        Binding("left_square_bracket", "move(None,-1)", "Move up", show=False),
-        Binding("right_square_bracket", "move(None,1)", "Move down", show=False),
-        Binding("m", "toggle('mute')", "Mute", show=False),
-        Binding("s", "toggle('solo')", "Solo", show=False),
-        Binding("b", "bypass", "Bypass filter", show=False),
-        Binding("left", "nudge_freq(-1)", "Freq down", show=False),
-        Binding("right", "nudge_freq(1)", "Freq up", show=False),
-        Binding("shift+left", "nudge_freq(-4)", "Freq down 1/3 oct", show=False),
-        Binding("shift+right", "nudge_freq(4)", "Freq up 1/3 oct", show=False),
-        Binding("plus,equals_sign", "nudge_gain(1)", "Gain up", show=False),
-        Binding("minus", "nudge_gain(-1)", "Gain down", show=False),
-        Binding("greater_than_sign", "nudge_q(1)", "Q up", show=False),
-        Binding("less_than_sign", "nudge_q(-1)", "Q down", show=False),
-        Binding("full_stop", "cursor(1)", "Cursor up", show=False),
-        Binding("comma", "cursor(-1)", "Cursor down", show=False),
-        Binding("V", "view(-1)", "Previous view", show=False),
-        Binding("f", "focus_field('freq')", "Edit freq", show=False),
-        Binding("t", "pick('type')", "Pick type", show=False),
-        Binding("g", "focus_field('gain_db')", "Edit gain", show=False),
-        Binding("w", "focus_warnings", "Warnings", show=False),
-        Binding("S", "save_as", "Save as", show=False),
-        Binding("X", "export", "Export", show=False),
-        Binding("o,ctrl+o", "open", "Open", show=False),
-        Binding("escape", "back", "Back to chain / cancel a design", show=False),
-        Binding("ctrl+r", "reanalyse", "Design and check again", show=False),
-        Binding("C", "compare", "Compare IIR and FIR", show=False),
-    ]
+    BINDINGS = [b for c in ACTIONS for b in (
+        ([Binding(c.keys, c.action, c.footer or c.title, show=c.footer is not None,
+                  priority=c.priority)] if c.keys else [])
+        + ([Binding(c.also, c.action, c.footer or c.title, show=c.footer is not None)]
+           if c.also else []))]
 
     def __init__(self, project: Project, path: str | None = None, fingerprint=None,
                  notices: tuple[str, ...] = ()) -> None:
@@ -900,13 +907,10 @@ def _range_notes(p: Project, target: str, name: str, i: int, j: int | None) -> l
 def help_text(app: App) -> str:
     """The help screen: keys from the bindings, how edits work, and the safety cautions."""
     lines = ["SAFETY", "  " + SAFETY_NOTE, "", "KEYS (also in the command palette, ctrl+p)", ""]
-    seen = set()
-    for b in CrossplanApp.BINDINGS:
-        keys = ", ".join(app.get_key_display(Binding(k, "")) for k in b.key.split(","))
-        if b.description in seen:
-            continue
-        seen.add(b.description)
-        lines.append(f"  {keys:<18} {b.description}")
+    for c in ACTIONS:
+        keys = ", ".join(app.get_key_display(Binding(k, ""))
+                         for k in filter(None, (c.keys + "," + c.also).split(",")))
+        lines.append(f"  {keys or '(palette)':<18} {c.title} - {c.help}")
     lines += [
         "  tab / shift+tab    next / previous panel or field",
         "  up / down          select a band or filter",

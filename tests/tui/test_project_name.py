@@ -49,7 +49,7 @@ async def test_the_export_from_the_editor_is_named_after_the_project(tmp_path):
         await settle(app, pilot)
         await rename(app, pilot, "Porch monitor")
         await pilot.press("escape")
-        await pilot.press("X")
+        await pilot.press("E")
         await pilot.pause()
         app.screen.query_one("#path-input").value = str(tmp_path / "out")
         await pilot.press("enter")
