@@ -105,8 +105,8 @@ def main(argv: list[str] | None = None) -> int:
 
     Every error a user can cause ends in one line on stderr and an exit code:
     :class:`~planner.errors.CrossplanError` and file-system errors
-    (:class:`OSError`: the path and the reason) exit 2, Ctrl-C 130 (also
-    during start-up), a closed pipe 0.
+    (:class:`OSError`: the path and the reason) exit 2, so does running out
+    of memory, Ctrl-C 130 (also during start-up), a closed pipe 0.
     """
     _quiet_encoding_errors()
     try:
@@ -121,6 +121,10 @@ def main(argv: list[str] | None = None) -> int:
         return EXIT_OK
     except OSError as e:
         print(f"crossplan: {os_error_text(e)}", file=sys.stderr)
+        return EXIT_INVALID
+    except MemoryError:
+        print("crossplan: out of memory: the input or the work asked for is too large for "
+              "this machine", file=sys.stderr)
         return EXIT_INVALID
 
 

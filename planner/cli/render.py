@@ -21,6 +21,8 @@ from planner.errors import CrossplanError
 
 #: Default level of the test signals, dBFS (peak for sweep and impulse, RMS for noise).
 DEFAULT_LEVEL_DB = -20.0
+#: Longest test signal, s: it is made in memory (10 min at 192 kHz: 0.9 GB of float64).
+MAX_SIGNAL_S = 600.0
 #: Inputs longer than this many seconds get a progress bar (on a terminal).
 PROGRESS_AFTER_S = 5.0
 
@@ -60,9 +62,17 @@ def _test_signal(args, fs):
     # The numerical core is imported when the command runs (start-up time).
     from planner.dsp import signals
 
-    amp = 10.0 ** (args.level_db / 20.0)
+    import math
+
+    if not math.isfinite(args.level_db):
+        raise CrossplanError(f"must be a finite number of dBFS, not {args.level_db:g}",
+                             field="level_db")
     if args.level_db > 0:
         raise CrossplanError(f"{args.level_db:g} dBFS is above full scale", field="level_db")
+    amp = 10.0 ** (args.level_db / 20.0)
+    if args.seconds is not None and args.seconds > MAX_SIGNAL_S:
+        raise CrossplanError(f"{args.seconds:g} s is longer than the {MAX_SIGNAL_S:g} s a test "
+                             "signal may last (it is made in memory)", field="seconds")
     if args.sweep:
         secs = 5.0 if args.seconds is None else args.seconds
         f2 = args.f2 if args.f2 is not None else min(20000.0, 0.45 * fs)

@@ -223,3 +223,14 @@ def test_non_ascii_band_names_get_distinct_files(write_project, tmp_path, capsys
     d["bands"][0]["name"], d["bands"][1]["name"] = "低音", "高音"
     assert main(["export", str(write_project(d)), "--format", "wav", "--out", str(tmp_path)]) == 0
     assert len({p.name for p in tmp_path.glob("*.wav")}) == 2
+
+
+def test_out_of_memory_is_one_line(write_project, monkeypatch, capsys):
+    from planner import engine
+
+    def too_big(*a, **k):
+        raise MemoryError
+
+    monkeypatch.setattr(engine, "analyse", too_big)
+    err = _one_line_error(capsys, "check", write_project(two_way()))
+    assert err.startswith("crossplan: out of memory")

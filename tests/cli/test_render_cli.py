@@ -218,3 +218,17 @@ def test_render_header_longer_than_data_warns_in_its_own_words(write_project, tm
     err = capsys.readouterr().err
     assert "WavFileWarning" not in err and "warning: " in err and "the data chunk says" in err
     assert wavfile.read(tmp_path / "out" / "long-sum.wav")[1].shape == (4800,)
+
+
+def test_render_refuses_a_nan_level(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--sweep", "--level-db", "nan",
+                 "--out", str(tmp_path / "o")]) == 2
+    assert "level_db: must be a finite number of dBFS, not nan" in capsys.readouterr().err
+    assert not (tmp_path / "o").exists()
+
+
+def test_render_refuses_a_test_signal_too_long_for_memory(write_project, tmp_path, capsys):
+    assert main(["render", str(write_project(two_way())), "--noise", "--seconds", "1e9",
+                 "--out", str(tmp_path / "o")]) == 2
+    assert "seconds: 1e+09 s is longer than the 600 s a test signal may last" in \
+        capsys.readouterr().err
