@@ -99,6 +99,7 @@ class Canvas:
         return "\n".join(out)
 
     def text(self, color: bool) -> str:
+        """:meth:`ansi` with colour, else :meth:`plain`."""
         return self.ansi() if color else self.plain()
 
 
