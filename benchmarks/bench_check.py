@@ -17,10 +17,14 @@ import os
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
+import sys
 import time
 
 import numpy as np
 from scipy import signal
+
+# The checkout this script sits in, before any installed copy.
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from planner import engine, project
 

@@ -23,10 +23,15 @@ import os
 for _var in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
     os.environ.setdefault(_var, "1")
 
+import sys
 import time
+from pathlib import Path
 
 import numpy as np
 from scipy import optimize, signal
+
+# The checkout this script sits in, before any installed copy.
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from planner import engine
 from planner import project as pj
