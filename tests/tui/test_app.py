@@ -548,7 +548,7 @@ async def test_compare_screen_shows_iir_and_fir_side_by_side():
 
 
 async def test_escape_stops_a_running_comparison():
-    # An LR8 2-way at 150 Hz, 96 kHz: its FIR equivalents are searched (both below the
+    # An LR8 2-way at 120 Hz, 96 kHz: its FIR equivalents are searched (both below the
     # 2047 taps compare searches by default), which takes seconds.
     import asyncio
 
@@ -557,16 +557,19 @@ async def test_escape_stops_a_running_comparison():
     from tests.conftest import two_way
 
     fir.clear_design_cache()             # a search run before would be cached
-    app = CrossplanApp(project.from_dict(two_way(order=8, fc=150.0, fs=96000)), None)
+    app = CrossplanApp(project.from_dict(two_way(order=8, fc=120.0, fs=96000)), None)
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
-        await pilot.press("C")
+        # The pilot's press waits for the app to be idle, which the progress updates of the
+        # search put off to its end: press without waiting, and watch the screen meanwhile.
+        pressed = asyncio.ensure_future(pilot.press("C"))
         for _ in range(200):
             await asyncio.sleep(0.05)
             if "designing [" in screen_text(app):
                 break
         assert isinstance(app.screen, CompareScreen) and app.screen.running
         await pilot.press("escape")
+        await pressed
         await app.workers.wait_for_complete([w for w in app.workers if w.group == "compare"])
         await pilot.pause()
         assert not app.screen.running and app.screen.comparison is None
