@@ -14,6 +14,7 @@ References
 from __future__ import annotations
 
 import re
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -91,6 +92,62 @@ _SPLIT = re.compile(r"[,;\t ]+")
 _COMMENT = ("*", "#", ";", "//")
 
 
+def _fast_parse(text: str) -> Response | None:
+    """The common case at array speed, or None to leave the text to the line-by-line reader.
+
+    Comment, blank and at most one title line before the data, then only data lines (blank
+    lines at the end) with 2 or 3 columns each, the same on every line; numbers parsed at
+    once (``numpy.fromstring``) and checked as arrays. Anything else, or any value the rules
+    refuse, gives None, so that :func:`parse_response_text` names the line and the rule.
+    """
+    lines = text.splitlines()
+    header, title, start = [], False, None
+    for i, raw in enumerate(lines):
+        line = raw.strip().lstrip("\ufeff")
+        if not line:
+            continue
+        mark = next((c for c in _COMMENT if line.startswith(c)), None)
+        if mark:
+            header.append(line[len(mark):].strip())
+            continue
+        try:
+            [float(t) for t in _SPLIT.split(line)[:3] if t]
+            numbers = True
+        except ValueError:
+            numbers = False
+        if not numbers:
+            if title:
+                return None
+            title = True
+            header.append(line)
+            continue
+        start = i
+        break
+    if start is None:
+        return None
+    body = "\n".join(lines[start:]).replace(",", " ").replace(";", " ").replace("\t", " ")
+    rows = body.split("\n")
+    while rows and not rows[-1].strip():
+        rows.pop()
+    counts = set(map(len, map(str.split, rows)))
+    if len(counts) != 1 or not counts <= {2, 3}:
+        return None                      # blank or comment lines inside, ragged columns, ...
+    ncol = counts.pop()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")   # a token that is not a number stops the fast path
+        try:
+            a = np.fromstring(body, dtype=float, sep=" ")
+        except (ValueError, DeprecationWarning):
+            return None
+    if a.size != ncol * len(rows):
+        return None
+    a = a.reshape(len(rows), ncol)
+    f = a[:, 0]
+    if not np.all(np.isfinite(a)) or f[0] <= 0 or np.any(np.diff(f) <= 0):
+        return None
+    return Response(f.copy(), a[:, 1].copy(), a[:, 2].copy() if ncol == 3 else None, header)
+
+
 def parse_response_text(text: str) -> Response:
     """Read a response written as text, tolerantly.
 
@@ -121,6 +178,9 @@ def parse_response_text(text: str) -> Response:
     """
     if not isinstance(text, str):
         raise CrossplanError(f"must be text, not {type(text).__name__}", field="text")
+    fast = _fast_parse(text)
+    if fast is not None:
+        return fast
     header, rows, ncol, title_seen = [], [], None, False
     for no, raw in enumerate(text.splitlines(), start=1):
         line = raw.strip().lstrip("\ufeff")

@@ -78,3 +78,56 @@ def test_parse_empty_raises():
 def test_parse_nonpositive_frequency_raises():
     with pytest.raises(CrossplanError, match=r"line 1: frequency 0 Hz must be above 0"):
         parse_response_text("0 1\n")
+
+
+# The array-speed reader must give exactly what the line-by-line reader gives, or leave
+# the text to it: compared on random texts (good rows mixed with broken ones).
+from hypothesis import HealthCheck, given, settings  # noqa: E402
+
+from planner.dsp import response_text as _rt  # noqa: E402
+from tests.test_fuzz_pipeline import measurement_texts  # noqa: E402
+
+
+def _slow(text, monkeypatch_fast):
+    try:
+        with monkeypatch_fast():
+            return _rt.parse_response_text(text)
+    except CrossplanError as e:
+        return str(e)
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(text=measurement_texts())
+def test_fast_reader_agrees_with_the_line_reader(text):
+    import contextlib
+
+    @contextlib.contextmanager
+    def no_fast():
+        real = _rt._fast_parse
+        _rt._fast_parse = lambda t: None
+        try:
+            yield
+        finally:
+            _rt._fast_parse = real
+
+    want = _slow(text, no_fast)
+    try:
+        got = _rt.parse_response_text(text)
+    except CrossplanError as e:
+        got = str(e)
+    if isinstance(want, str):
+        assert got == want
+    else:
+        assert not isinstance(got, str)
+        np.testing.assert_array_equal(got.freqs_hz, want.freqs_hz)
+        np.testing.assert_array_equal(got.mag_db, want.mag_db)
+        assert (got.phase_deg is None) == (want.phase_deg is None)
+        if want.phase_deg is not None:
+            np.testing.assert_array_equal(got.phase_deg, want.phase_deg)
+        assert got.header == want.header
+
+
+def test_a_large_clean_file_takes_the_fast_reader():
+    f = np.geomspace(10, 20000, 2000)
+    text = _rt.format_response_text(f, 80 + 0 * f, -f / 100, ["title"])
+    assert _rt._fast_parse(text) is not None
