@@ -199,7 +199,7 @@ def _evaluators(project: Project, designs: list[BandDesign]):
     return drivers, response, AcousticPoints(electrical, drivers)
 
 
-def analyse(project: Project, points: int | None = None) -> Report:
+def analyse(project: Project, points: int | None = None, warnings: bool = True) -> Report:
     """Design, evaluate and check every band of ``project`` at its sample rate.
 
     Parameters
@@ -207,6 +207,9 @@ def analyse(project: Project, points: int | None = None) -> Report:
     project : Project
     points : int, optional
         Grid points instead of ``project.analysis.points``.
+    warnings : bool
+        Add the plain-language warnings (default). A crossing out of phase gets
+        a hint found by analysing candidate changes again, without warnings.
     """
     if points is not None:
         project = replace(project, analysis=replace(project.analysis, points=int(points)))
@@ -291,7 +294,13 @@ def analyse(project: Project, points: int | None = None) -> Report:
                                                      flat_ok, crossings, bands, voiced),
                     drivers=drivers, target_db=t_db, checked_sum_h=checked_sum,
                     voiced=voiced_fig)
-    report.warnings.extend(warnings_of(report))
+    if warnings:
+        pts = points
+
+        def reanalyse(p: Project) -> Report:
+            return analyse(p, pts, warnings=False)
+
+        report.warnings.extend(warnings_of(report, reanalyse))
     return report
 
 
