@@ -15,6 +15,7 @@ import numpy as np
 from planner import config
 from planner import filters as fk
 from planner import project as pj
+from planner.errors import CrossplanError
 from planner.engine.result import Report, Warning_
 from planner.engine.rounding import fraction_warnings
 from planner.engine.safety import driver_warnings
@@ -191,7 +192,7 @@ def phase_fixes(r: Report, c, reanalyse: Callable, budget: list | None = None) -
             budget[0] -= 1
         try:
             rr = reanalyse(proj)
-        except Exception:   # noqa: BLE001 - a candidate that cannot be made is no fix
+        except CrossplanError:    # a candidate that cannot be made is no fix
             continue
         same = [x for x in rr.checked_crossings if x.band_index == c.band_index]
         ph = None if not same else min(abs(x.phase_diff_deg) for x in same)
