@@ -46,6 +46,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from bench_check import best as _best  # noqa: E402
 
 from planner import compare, engine, presets, project  # noqa: E402
+from planner.defaults import COMPARE_MAX_TAPS  # noqa: E402
 from planner.dsp import fir  # noqa: E402
 
 FS = 48000.0
@@ -121,7 +122,7 @@ def main() -> None:
     fir.clear_design_cache()
     with RemezCalls() as rc:
         t = time.perf_counter()
-        c = compare.compare_project(sub)
+        c = compare.compare_project(sub, max_taps=COMPARE_MAX_TAPS)   # as crossplan compare
         tc = time.perf_counter() - t
     b0 = c.bands[0]
     est = int(b0.message.split("needs about ")[1].split()[0]) if "needs about" in b0.message \

@@ -47,6 +47,14 @@ BOOST_WARN_DB = 6.0
 TWEETER_HIGHPASS_HZ = 1000.0
 TWEETER_MIN_ORDER = 2
 INVERT_HINT_DEG = 150.0
+#: A crossing's phase hint tries candidate changes by analysing the project again
+#: (planner.engine.warnings): at most this many analyses per report in all, and
+#: all-passes at the PHASE_HINT_NEAREST other crossover frequencies nearest the crossing.
+#: A crossing beyond the budget, or in a project of more than PHASE_HINT_MAX_BANDS bands,
+#: gets the delay that lines it up, marked as not checked.
+PHASE_HINT_TRIALS = 12
+PHASE_HINT_NEAREST = 2
+PHASE_HINT_MAX_BANDS = 8
 
 #: The text report lists crossings at most this many dB below the floor; deeper ones
 #: (an FIR's stop-band lobes crossing each other) are counted only.

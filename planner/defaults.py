@@ -31,7 +31,7 @@ COMPARE_ATTEN_DB = 60.0
 IIR_FAMILIES = ("auto", "butterworth", "elliptic")
 #: Longest FIR the fewest-tap searches try unless told otherwise (taps).
 MAX_TAPS = 8191
-#: Longest FIR equivalent ``crossplan compare`` (and the editor's comparison) tries unless
+#: Longest FIR equivalent ``crossplan compare`` tries unless
 #: told otherwise (taps; 43 ms of latency at 48 kHz). A band whose equivalent would be
 #: longer by Kaiser's estimate is reported at once, with that estimate, rather than
 #: searched for: every trial at several thousand taps takes about a second.

@@ -16,7 +16,7 @@ def test_the_three_way_has_two_points_the_upper_with_its_all_pass():
     assert [x.freq_hz for x in pts] == [350, 3000]
     roles = sorted((m.band, m.role) for m in pts[1].members)
     assert roles == [(0, "allpass"), (1, "lowpass"), (2, "highpass")]
-    assert pts[0].describe(p) == "350 Hz (woofer / mid)"
+    assert pts[0].describe(p) == "350 Hz (woofer / mid / tweeter)"   # the tweeter's all-pass
 
 
 def test_moving_a_point_moves_every_member_in_one_edit():

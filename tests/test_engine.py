@@ -30,7 +30,8 @@ def test_lr2_not_inverted_fails_with_hint():
     r = analyse(two_way(2))
     assert not r.ok and not r.flat_ok and not r.phase_ok
     assert abs(r.checked_crossings[0].phase_diff_deg) == pytest.approx(180, abs=1e-3)
-    assert any("180 deg apart at 2 kHz: try inverting one" in w.text for w in r.warnings)
+    assert any("180 deg apart at 2 kHz: invert high: that brings them to 0.0 deg apart, checked"
+               in w.text for w in r.warnings)
 
 
 def test_lr2_inverted_passes():

@@ -61,6 +61,9 @@ def peak(f0, gain_db, q, fs):
 def two_way_with(flt, fs, band=1):
     """The two-way preset (LR4 at 2.4 kHz, 45 Hz - 20 kHz) with a raw biquad in a band."""
     d = json.loads(presets.text("two-way"))
+    for b in d["bands"]:          # the whole chain, its EQ dip included (not set aside)
+        for f in b["filters"]:
+            f.pop("voicing", None)
     d["sample_rate"] = fs
     d["bands"][band]["filters"].append(flt)
     return engine.analyse(project.from_dict(d))

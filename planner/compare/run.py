@@ -55,7 +55,6 @@ from planner import progress as pg
 from planner.compare.equivalents import fir_equivalent, iir_equivalent, side_metrics
 from planner.compare.results import (DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, NO_CROSSOVER, NOT_MET,
                                      OK, BandComparison, Build, Comparison, DerivedSpec, Side)
-from planner.defaults import COMPARE_MAX_TAPS
 from planner.compare.spec import (check_family, check_spec_numbers, derive_spec, end_of_range,
                                   is_crossover)
 from planner.dsp import analysis as an
@@ -147,7 +146,7 @@ def _scope_callbacks(progress, cancel, text: str):
 
 def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
                     atten_db: float = DEFAULT_ATTEN_DB, iir_family: str = "auto",
-                    max_taps: int = COMPARE_MAX_TAPS,
+                    max_taps: int = dfir.DEFAULT_MAX_TAPS,
                     progress: Callable[[float], None] | None = None,
                     cancel: Callable[[], bool] | None = None) -> Comparison:
     """Compare every band of ``project`` with its equivalent of the other family.
@@ -161,6 +160,7 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
         IIR equivalents of FIR bands (see :func:`iir_equivalent`).
     max_taps : int
         Longest FIR equivalent tried (default
+        :data:`planner.dsp.fir.DEFAULT_MAX_TAPS`; ``crossplan compare`` passes
         :data:`planner.defaults.COMPARE_MAX_TAPS`); a band whose equivalent
         needs more by Kaiser's estimate is reported :data:`NOT_MET` at once,
         with the estimate and the latency it means.

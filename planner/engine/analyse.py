@@ -227,7 +227,8 @@ def check_points(points, n_bands: int = 2) -> int:
     return int(points)
 
 
-def analyse(project: Project, points: int | None = None, group_delay: bool = False) -> Report:
+def analyse(project: Project, points: int | None = None, group_delay: bool = False,
+            warnings: bool = True) -> Report:
     """Design, evaluate and check every band of ``project`` at its sample rate.
 
     Parameters
@@ -240,6 +241,9 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
         sum's): evaluate the derivative it needs in the same pass as the
         responses. Without it, the derivative is evaluated on first use, in
         a second pass; the figures are the same either way.
+    warnings : bool
+        Add the plain-language warnings (default). A crossing out of phase gets
+        a hint found by analysing candidate changes again, without warnings.
     """
     if points is not None:
         points = check_points(points, len(project.bands))
@@ -329,7 +333,13 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
                                                      flat_ok, crossings, bands, voiced),
                     drivers=drivers, target_db=t_db, checked_sum_h=checked_sum,
                     voiced=voiced_fig)
-    report.warnings.extend(warnings_of(report))
+    if warnings:
+        pts = points
+
+        def reanalyse(p: Project) -> Report:
+            return analyse(p, pts, warnings=False)
+
+        report.warnings.extend(warnings_of(report, reanalyse))
     return report
 
 

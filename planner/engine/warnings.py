@@ -7,14 +7,21 @@ select it. They never fail the check: the verdicts are the report's
 
 from __future__ import annotations
 
+from dataclasses import replace
+from typing import Callable
+
+import numpy as np
+
 from planner import config
 from planner import filters as fk
+from planner import project as pj
+from planner.errors import CrossplanError
 from planner.engine.result import Report, Warning_
 from planner.engine.rounding import fraction_warnings
 from planner.engine.safety import driver_warnings
 from planner.units import format_hz
 
-__all__ = ["warnings_of", "LATENCY_TOL_SAMPLES"]
+__all__ = ["warnings_of", "LATENCY_TOL_SAMPLES", "phase_fixes", "PhaseFix"]
 
 
 #: Latencies closer than this (samples) count as equal (see :mod:`planner.config`).
@@ -82,30 +89,163 @@ def _kind_warnings(r: Report) -> list[Warning_]:
             for kind, items in found.values() for w in kind.project_warnings(items)]
 
 
-def _phase_hint(r: Report, c) -> tuple[str, int]:
-    """What would bring a crossing's phase difference to 0: inverting, or a delay (with value).
+class PhaseFix:
+    """One change tried for a crossing whose phase difference is over the limit.
 
-    A band that leads by ``phi`` degrees at ``f`` Hz lines up with the other
-    when delayed by ``phi / (360 f)`` seconds (a delay of ``t`` turns the
-    phase by ``-360 f t`` degrees, Oppenheim and Schafer sec. 2.7); the
-    phase difference is that of the first band minus the second.
+    ``what`` is the change in words (``"add an all-pass (order 2, Q 0.707) at 350 Hz to
+    tweeter"``), ``project`` the project with it made, ``band`` the band it changes,
+    ``phase_deg`` the crossing's phase difference after it (None when the crossing is
+    gone), ``worst_deg`` the largest phase difference of any checked crossing after it,
+    and ``ok`` whether the whole check then passes.
     """
+
+    def __init__(self, what, project, band, phase_deg, worst_deg, ok, adds_delay=False):
+        self.what, self.project, self.band = what, project, band
+        self.phase_deg, self.worst_deg, self.ok = phase_deg, worst_deg, ok
+        #: the change delays a band (adds latency; an all-pass or inversion does not)
+        self.adds_delay = adds_delay
+
+
+def _sides(r: Report, c) -> tuple[set[int], set[int]]:
+    """The bands joined to each band of crossing ``c`` by the other checked crossings."""
+    edges = [x.band_index for x in r.checked_crossings if x.band_index != c.band_index]
+    out = []
+    for start in c.band_index:
+        seen, todo = {start}, [start]
+        other = c.band_index[1] if start == c.band_index[0] else c.band_index[0]
+        while todo:
+            k = todo.pop()
+            for a, b in edges:
+                for x, y in ((a, b), (b, a)):
+                    if x == k and y not in seen and y != other:
+                        seen.add(y)
+                        todo.append(y)
+        out.append(seen)
+    return out[0], out[1]
+
+
+def _candidates(r: Report, c) -> list[tuple[str, object, int]]:
+    """Changes that may bring crossing ``c`` in phase: (words, project, band changed).
+
+    * inverting one band, when the bands are nearly opposite;
+    * a second-order all-pass (Q 0.7071, the phase of a Linkwitz-Riley 4 pair's sum) or a
+      first-order one at each other crossover frequency, in either band: the band that
+      lacks the other crossover's filter then gets its phase (as a 3-way's woofer carries
+      an all-pass at the upper crossover);
+    * delaying the leading band by ``phi / (360 f)`` s (a delay of ``t`` turns the phase by
+      ``-360 f t`` degrees, Oppenheim and Schafer sec. 2.7), alone or with every band
+      joined to it by the other crossings, so that those stay as they are.
+    """
+    p = r.project
+    fs = p.sample_rate
+    d = c.phase_diff_deg
+    out = []
+    ia, ib = c.band_index
+    if abs(d) >= 90.0:
+        b = p.bands[ib]
+        out.append((f"invert {b.name}", p.with_band(ib, replace(b, invert=not b.invert)), ib))
+    others = sorted({x.freq_hz for x in r.checked_crossings if x.band_index != c.band_index
+                     and abs(x.freq_hz - c.freq_hz) > 0.01 * c.freq_hz},
+                    key=lambda f: abs(np.log(f / c.freq_hz)))[:config.PHASE_HINT_NEAREST]
+    for f in others:
+        if not f < fs / 2:
+            continue
+        for order, q in ((2, 0.7071067811865476), (1, None)):
+            raw = {"type": "allpass", "freq": round(f, 6), "order": order}
+            if q is not None:
+                raw["q"] = q
+            flt = pj.check_filter(raw, fs)
+            for i in (ia, ib):
+                b = p.bands[i]
+                label = (f"an all-pass (order 2, Q 0.707) at {format_hz(f)}" if order == 2
+                         else f"a first-order all-pass at {format_hz(f)}")
+                out.append((f"add {label} to {b.name}",
+                            p.with_band(i, replace(b, filters=b.filters + (flt,))), i))
+    lead = ia if d > 0 else ib
+    ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
+    side_a, side_b = _sides(r, c)
+    groups = [[lead]]
+    side = sorted(side_a if lead == ia else side_b)
+    if side != [lead]:
+        groups.append(side)
+    for g in groups:
+        q = p
+        for i in g:
+            b = q.bands[i]
+            q = q.with_band(i, replace(b, delay_ms=round(b.delay_ms + ms, 6)))
+        names = " and ".join(p.bands[i].name for i in g)
+        out.append((f"add delay_ms {ms:.4g} to {names}", q, lead))
+    return out
+
+
+def phase_fixes(r: Report, c, reanalyse: Callable, budget: list | None = None) -> list[PhaseFix]:
+    """Every candidate change for crossing ``c`` (:func:`_candidates`), each checked by
+    analysing the changed project again (``reanalyse(project) -> Report``), best first:
+    those that pass the whole check, then by the largest phase difference after (to
+    0.1 deg), then those that add no latency. ``budget`` (a one-item list, the analyses
+    left) is used up and stops the trials when it reaches 0."""
+    out = []
+    for what, proj, band in _candidates(r, c):
+        if budget is not None:
+            if budget[0] <= 0:
+                break
+            budget[0] -= 1
+        try:
+            rr = reanalyse(proj)
+        except CrossplanError:    # a candidate that cannot be made is no fix
+            continue
+        same = [x for x in rr.checked_crossings if x.band_index == c.band_index]
+        ph = None if not same else min(abs(x.phase_diff_deg) for x in same)
+        worst = max((abs(x.phase_diff_deg) for x in rr.checked_crossings), default=0.0)
+        out.append(PhaseFix(what, proj, band, ph, worst, rr.ok, what.startswith("add delay")))
+    # Passing first; then the smallest worst phase (to 0.1 deg); then no added latency.
+    out.sort(key=lambda x: (not x.ok, round(x.worst_deg, 1), x.adds_delay, x.worst_deg))
+    return out
+
+
+def _unchecked_hint(r: Report, c) -> tuple[str, int]:
+    """The delay that lines the crossing's two bands up there, not checked against the rest."""
     d = c.phase_diff_deg
     if abs(d) >= config.INVERT_HINT_DEG:
-        return "try inverting one", c.band_index[1]
-    lead = 0 if d > 0 else 1
-    i = c.band_index[lead]
+        return "try inverting one (not checked)", c.band_index[1]
+    i = c.band_index[0 if d > 0 else 1]
     ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
-    band = r.project.bands[i]
-    new = band.delay_ms + ms
-    return (f"band {band.name} leads by {abs(d):.0f} deg there: add delay_ms {ms:.4g} to "
-            f"{band.name}" + (f" (making it {new:.4g})" if band.delay_ms else "")
-            + " to line them up at the crossing (an all-pass at the crossing does it too, "
-            "without delaying the rest of the band)"), i
+    return (f"band {r.project.bands[i].name} leads by {abs(d):.0f} deg there: add delay_ms "
+            f"{ms:.4g} to it, or an all-pass at another crossover (not checked)"), i
 
 
-def warnings_of(r: Report) -> list[Warning_]:
-    """Plain-language warnings about the sum, the crossings, headroom and risky filters."""
+def _phase_hint(r: Report, c, reanalyse: Callable | None,
+                budget: list | None = None) -> tuple[str, int]:
+    """The change that brings crossing ``c`` within the limit, found by trying candidates
+    (:func:`phase_fixes`) and checking each; or, when none does, the best one tried."""
+    limit = r.project.analysis.phase_deg
+    if reanalyse is None or (budget is not None and budget[0] <= 0):
+        return _unchecked_hint(r, c)
+    fixes = phase_fixes(r, c, reanalyse, budget)
+    good = [x for x in fixes if x.phase_deg is not None and x.phase_deg <= limit]
+    if good:
+        f = good[0]
+        rest = "" if f.ok else " (another check still fails)"
+        alt = [x for x in good[1:] if x.ok and x.worst_deg <= limit and x.adds_delay != f.adds_delay]
+        also = f"; or {alt[0].what} ({alt[0].phase_deg:.1f} deg)" if alt else ""
+        return (f"{f.what}: that brings them to {f.phase_deg:.1f} deg apart, checked{rest}{also}",
+                f.band)
+    tried = [x for x in fixes if x.phase_deg is not None]
+    if tried:
+        f = min(tried, key=lambda x: x.phase_deg)
+        return (f"no single inversion, all-pass or delay tried brings them within {limit:g} "
+                f"deg; the closest, {f.what}, leaves {f.phase_deg:.1f} deg (crossplan align "
+                "searches further)", f.band)
+    return "no single inversion, all-pass or delay tried helps (crossplan align searches " \
+        "further)", c.band_index[1]
+
+
+def warnings_of(r: Report, reanalyse: Callable | None = None) -> list[Warning_]:
+    """Plain-language warnings about the sum, the crossings, headroom and risky filters.
+
+    ``reanalyse(project) -> Report`` (the engine's analysis without warnings) lets a
+    crossing's phase hint try its candidate fixes and name one that works.
+    """
     p, a = r.project, r.project.analysis
     out: list[Warning_] = []
     if not any(r.active):
@@ -117,12 +257,13 @@ def warnings_of(r: Report) -> list[Warning_]:
         out.append(Warning_(
             f"the sum deviates by {r.max_dev_db:+.2f} dB at {format_hz(r.at_hz)} "
             f"(limit +/-{a.flatness_db:g} dB)", code="flatness"))
-    for c in r.checked_crossings:
-        if c.ok:
-            continue
+    budget = [config.PHASE_HINT_TRIALS if len(p.bands) <= config.PHASE_HINT_MAX_BANDS else 0]
+    failing = sorted((c for c in r.checked_crossings if not c.ok),
+                     key=lambda c: -c.level_db)      # the loudest crossings first
+    for c in failing:
         deg = abs(c.phase_diff_deg)
         where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {format_hz(c.freq_hz)}"
-        hint, band = _phase_hint(r, c)
+        hint, band = _phase_hint(r, c, reanalyse, budget)
         out.append(Warning_(f"{where}: {hint}", band=band, code="phase"))
     for i in r.check("headroom").figures["over"]:
         b = r.bands[i]

@@ -18,7 +18,7 @@ def test_check_ok_exit_0(write_project, capsys):
 
 def test_check_fail_exit_1(write_project, capsys):
     assert main(["check", str(write_project(two_way(2)))]) == 1
-    assert "try inverting one" in capsys.readouterr().out
+    assert "invert high: that brings them to 0.0 deg apart, checked" in capsys.readouterr().out
 
 
 def test_check_invalid_exit_2_without_traceback(write_project, capsys, example):

@@ -1,0 +1,130 @@
+"""The phase warning names a change that works: each suggestion is applied and checked.
+
+References computed here: scipy.signal.butter (a Linkwitz-Riley 4 is a Butterworth 2
+squared, Linkwitz and Riley, JAES 1976; a second-order all-pass with Q 0.7071 has the
+phase of that pair's sum, as LP + HP of an LR4 pair is an all-pass), the cookbook
+all-pass (Audio EQ Cookbook, W3C note) written out below, scipy.signal.sosfreqz for
+every response, and a delay of t turning the phase by -360 f t degrees (Oppenheim and
+Schafer, 3rd ed., sec. 2.7).
+"""
+
+import json
+import re
+
+import numpy as np
+import pytest
+from scipy import signal
+
+from planner import engine, presets, project
+from tests.conftest import two_way
+
+FS3 = 96000.0
+
+
+def _old_three_way(limit=10.0):
+    """The three-way preset without the tweeter's all-pass: mid/tweeter about 19 deg apart."""
+    d = json.loads(presets.text("three-way"))
+    d["bands"][2]["filters"] = d["bands"][2]["filters"][:1]
+    d["analysis"]["phase_deg"] = limit
+    return d
+
+
+def _phase_warning(r):
+    (w,) = [w for w in r.warnings if w.code == "phase"]
+    return w.text
+
+
+def _lr4(btype, fc, fs):
+    bw = signal.butter(2, fc, btype, fs=fs, output="sos")
+    return np.vstack([bw, bw])
+
+
+def _allpass2(f0, fs, q=0.7071067811865476):
+    """Audio EQ Cookbook second-order all-pass, a0 = 1."""
+    w0 = 2 * np.pi * f0 / fs
+    alpha = np.sin(w0) / (2 * q)
+    b = [1 - alpha, -2 * np.cos(w0), 1 + alpha]
+    a = [1 + alpha, -2 * np.cos(w0), 1 - alpha]
+    return np.array([b + a]) / a[0]
+
+
+def _phase(sos, f, fs, delay_ms=0.0):
+    h = signal.sosfreqz(sos, worN=[f], fs=fs)[1][0] * np.exp(-2j * np.pi * f * delay_ms / 1e3)
+    return np.degrees(np.angle(h))
+
+
+def _wrap(x):
+    return (x + 180.0) % 360.0 - 180.0
+
+
+def test_the_three_way_hint_names_the_all_pass_and_it_works():
+    d = _old_three_way()
+    r = engine.analyse(project.from_dict(d))
+    text = _phase_warning(r)
+    m = re.search(r"add an all-pass \(order 2, Q 0\.707\) at (\d+) Hz to (\w+): that brings "
+                  r"them to ([\d.]+) deg apart, checked", text)
+    assert m, text
+    f0, band = float(m.group(1)), m.group(2)
+    assert (f0, band) == (350.0, "tweeter")
+    d["bands"][2]["filters"].append({"type": "allpass", "order": 2, "freq": f0,
+                                     "q": 0.7071067811865476})
+    r2 = engine.analyse(project.from_dict(d))
+    (c,) = [x for x in r2.checked_crossings if x.bands == ("mid", "tweeter")]
+    assert r2.ok and abs(c.phase_diff_deg) <= 10.0
+    # Independently: mid = LR4 HP 350 x LR4 LP 3000; tweeter = LR4 HP 3000 x all-pass 350.
+    mid = np.vstack([_lr4("high", 350, FS3), _lr4("low", 3000, FS3)])
+    tw = np.vstack([_lr4("high", 3000, FS3), _allpass2(350, FS3)])
+    before = _wrap(_phase(mid, 3000, FS3) - _phase(_lr4("high", 3000, FS3), 3000, FS3))
+    after = _wrap(_phase(mid, 3000, FS3) - _phase(tw, 3000, FS3))
+    assert abs(before) > 15 and abs(after) < 0.5     # 0.5 deg: crossing near, not at, 3 kHz
+
+
+def test_the_hint_also_gives_the_delay_that_works_and_it_does():
+    d = _old_three_way()
+    text = _phase_warning(engine.analyse(project.from_dict(d)))
+    m = re.search(r"or add delay_ms ([\d.]+) to woofer and mid", text)
+    assert m, text
+    ms = float(m.group(1))
+    # phi / (360 f): the phase the mid leads by at 3 kHz, turned into time.
+    mid = np.vstack([_lr4("high", 350, FS3), _lr4("low", 3000, FS3)])
+    lead = _wrap(_phase(mid, 3000, FS3) - _phase(_lr4("high", 3000, FS3), 3000, FS3))
+    assert ms == pytest.approx(lead / (360 * 3000) * 1e3, rel=0.02)  # crossing is at ~3 kHz
+    for i in (0, 1):
+        d["bands"][i]["delay_ms"] = ms
+    r2 = engine.analyse(project.from_dict(d))
+    assert r2.ok and all(abs(c.phase_diff_deg) <= 10.0 for c in r2.checked_crossings)
+
+
+def test_a_late_band_gets_the_delay_that_lines_it_up():
+    d = two_way(4, fc=2000.0)
+    d["bands"][1]["delay_ms"] = 0.05      # 36 deg at 2 kHz: 360 * 2000 * 0.05e-3
+    text = _phase_warning(engine.analyse(project.from_dict(d)))
+    m = re.search(r"add delay_ms ([\d.]+) to low: that brings them to ([\d.]+) deg", text)
+    assert m, text
+    assert float(m.group(1)) == pytest.approx(0.05, rel=1e-3)
+    d["bands"][0]["delay_ms"] = float(m.group(1))
+    (c,) = engine.analyse(project.from_dict(d)).checked_crossings
+    assert abs(c.phase_diff_deg) < 0.1
+
+
+def test_opposite_bands_are_told_to_invert_and_it_works():
+    d = two_way(2, fc=2000.0)             # LR2 pair: 180 deg apart unless one is inverted
+    text = _phase_warning(engine.analyse(project.from_dict(d)))
+    assert "invert high: that brings them to 0.0 deg apart, checked" in text
+    d["bands"][1]["invert"] = True
+    assert engine.analyse(project.from_dict(d)).ok
+
+
+def test_no_hint_tried_is_ever_claimed_without_checking():
+    # A crossing that no single change fixes says so, with the closest figure.
+    d = two_way(4, fc=2000.0)
+    d["bands"][1]["filters"].append({"type": "allpass", "order": 2, "freq": 2000, "q": 3.0})
+    d["analysis"]["phase_deg"] = 1.0
+    r = engine.analyse(project.from_dict(d))
+    texts = [w.text for w in r.warnings if w.code == "phase"]
+    for t in texts:
+        m = re.search(r"brings them to ([\d.]+) deg apart, checked", t)
+        if m:
+            assert float(m.group(1)) <= 1.0
+        else:
+            assert "no single inversion, all-pass or delay tried" in t
