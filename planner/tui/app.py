@@ -29,7 +29,7 @@ from planner.model import Project
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
-                                 PickScreen, SettingsScreen)
+                                 PickScreen, SettingsScreen, SolveScreen)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
@@ -106,6 +106,10 @@ ACTIONS = (
       "BW2, ...) from a list"),
     C("focus_field('gain_db')", "Edit gain", "jump to the filter's (or band's) gain", "g"),
     C("focus_warnings", "Warnings", "go to the warnings list", "w"),
+    C("solve('align')", "Align bands", "search band delays and polarities for the flattest, "
+      "best-phased sum; preview, then apply as one edit", "A", "Align"),
+    C("solve('fit')", "Fit EQ", "set the EQ filters' gains so the sum is flat; preview, then "
+      "apply as one edit", "F"),
     C("reanalyse", "Re-analyse", "design every filter and check the project again", "ctrl+r"),
     C("compare", "Compare IIR and FIR", "IIR versus FIR for every band (its own screen)", "C"),
     C("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text "
@@ -169,6 +173,8 @@ class CrossplanApp(App):
         self._designing = False      # a long design is reporting progress
         self._cancel_gen = -1        # the analysis the user asked to stop
         self._error: str | None = None
+        self._solving: str | None = None   # "align" or "fit" while a solver runs
+        self._solve_cancel = False
 
     # -- layout ---------------------------------------------------------------------------
 
@@ -703,7 +709,105 @@ class CrossplanApp(App):
     def action_reanalyse(self) -> None:
         self.request_analysis()
 
+    def check_action(self, action: str, parameters: tuple) -> bool | None:
+        """Leave "back" out (of the footer too) where it does nothing: it is there inside a
+        field, in the warnings, and while a design or a search runs."""
+        if action == "back":
+            busy = self._solving or self._designing
+            return bool(busy or isinstance(self.focused, (Input, WarningList)))
+        return True
+
+    # -- solvers --------------------------------------------------------------------------
+
+    def action_solve(self, kind: str, bank: str | None = None) -> None:
+        """Run ``align`` or ``fit`` (flat target) in a worker; Escape cancels it."""
+        if self._solving:
+            self.notify(f"{self._solving} is running (Escape stops it)", timeout=3)
+            return
+        self._solving, self._solve_cancel = kind, False
+        self.refresh_bindings()
+        self._solve_progress(0.0, f"{kind}: starting")
+        self._solve(kind, self.project, self.band_i, bank)
+
+    _SOLVE_HINT = "(Escape stops the search; the project is not changed)"
+
+    def _solve_progress(self, fraction: float, text: str) -> None:
+        if self._solving:
+            self.query_one(CheckBar).show(None, progress=(fraction, text or self._solving),
+                                          hint=self._SOLVE_HINT, doing="searching")
+
+    @work(thread=True, exclusive=True, group="solve")
+    def _solve(self, kind: str, project: Project, band: int, bank: str | None) -> None:
+        # The solvers are imported when first used (start-up time).
+        from planner.solve import alignment, eqfit
+        from planner.targets import parse_target
+
+        shown = [-1]
+
+        def report(fraction: float, text: str) -> None:
+            if int(fraction * 100) != shown[0]:
+                shown[0] = int(fraction * 100)
+                self.call_from_thread(self._solve_progress, fraction, text)
+
+        try:
+            with progress.scope(report=report, cancel=lambda: self._solve_cancel):
+                if kind == "align":
+                    result = alignment.align(project)
+                else:
+                    result = eqfit.fit(project, parse_target("flat"),
+                                       bands=[band] if bank else None, bank=bank)
+        except DesignCancelled:
+            result = None
+        except CrossplanError as e:
+            self.call_from_thread(self._solve_done, kind, project, None, e)
+            return
+        self.call_from_thread(self._solve_done, kind, project,
+                              None if self._solve_cancel else result, None)
+
+    @work(exclusive=True, group="solve-preview")
+    async def _solve_done(self, kind: str, project: Project, result,
+                          error: CrossplanError | None) -> None:
+        self._solving = None
+        self.refresh_bindings()
+        self.query_one(CheckBar).show(self._check_lines())
+        if error is not None:
+            if kind == "fit" and (error.field or "") == "bands" and "no EQ gains" in str(error):
+                band = project.bands[self.band_i].name
+                answer = await self.push_screen_wait(ChoiceScreen(
+                    f"The bands have no EQ filters to fit. Add a third-octave bank of 0 dB "
+                    f"peaking filters to {band!r} and fit those?",
+                    [("y", "yes", "Add and fit")]))
+                if answer == "yes":
+                    self.action_solve("fit", bank="third-octave")
+                return
+            self.notify(f"{kind}: {error}", severity="warning", timeout=8)
+            return
+        if result is None:
+            self.notify(f"{kind} stopped: the project is not changed", timeout=4)
+            return
+        if project is not self.project:
+            self.notify(f"{kind}: the project was edited during the search; its result is "
+                        "dropped (run it again)", severity="warning", timeout=6)
+            return
+        if kind == "align" and not result.improved:
+            self.notify("align: no better alignment within the bounds; nothing to change",
+                        timeout=6)
+            return
+        title = ("Align: band delays and polarities" if kind == "align"
+                 else f"Fit EQ: gains for a {result.target.name} sum")
+        ok = await self.push_screen_wait(SolveScreen(title, views.solve_preview(kind, result)))
+        if ok and project is self.project:
+            await self.commit(result.project, "align" if kind == "align" else "fit EQ")
+            self.notify(f"{kind} applied (ctrl+z undoes it)", timeout=4)
+        elif not ok:
+            self.notify(f"{kind}: not applied; the project is as it was", timeout=3)
+
     def action_back(self) -> None:
+        if self._solving:
+            self._solve_cancel = True
+            self.query_one(CheckBar).show(None, progress=(0.0, "stopping ..."),
+                                          hint=self._SOLVE_HINT, doing="searching")
+            return
         if self._designing:
             self._cancel_gen = self._gen
             self.query_one(CheckBar).show(None, progress=(0.0, "cancelling ..."))

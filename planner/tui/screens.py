@@ -18,7 +18,7 @@ from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SettingsScreen",
+__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SolveScreen", "SettingsScreen",
            "CompareScreen"]
 
 
@@ -148,6 +148,41 @@ class PickScreen(ModalScreen[int | None]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+
+class SolveScreen(ModalScreen[bool]):
+    """A solver's result before it is applied: Enter (or y) applies it as one edit that
+    ctrl+z undoes; Escape (or n) leaves the project as it is. Answers True to apply."""
+
+    BINDINGS = [Binding("escape,n", "reject", "Keep the project as it is"),
+                Binding("enter,y", "accept", "Apply")]
+
+    def __init__(self, title: str, text: str) -> None:
+        super().__init__()
+        self._title = title
+        self._text = text
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="solve-box") as box:
+            box.border_title = self._title
+            yield Static(self._text, id="solve-text", markup=False)
+            yield Label("Enter/y: apply (one edit; ctrl+z undoes it)   Escape/n: keep as is",
+                        classes="hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#solve-box").focus()
+
+    def on_key(self, event) -> None:
+        # Letters other than y/n do nothing here (never the editor's single-letter keys).
+        if event.character and event.character.isprintable() and event.key not in ("y", "n"):
+            event.stop()
+            event.prevent_default()
+
+    def action_accept(self) -> None:
+        self.dismiss(True)
+
+    def action_reject(self) -> None:
+        self.dismiss(False)
 
 
 #: (field, label, unit) of the settings screen; "sample_rate" is the project's rate.

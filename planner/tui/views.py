@@ -21,7 +21,7 @@ from planner.units import format_hz
 
 __all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair",
            "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
-           "arith_warning_items"]
+           "arith_warning_items", "solve_preview"]
 
 #: The plot views, in the order the view key steps through them.
 VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference", "impulse",
@@ -234,3 +234,60 @@ def arith_warning_items(rx) -> list[WarningItem]:
                 f"the chain, above full scale in {rx.arith.name}; attenuate its input by "
                 f"{b.peak_internal_gain_db:.1f} dB (export --pre-attenuate does it)", i, None))
     return out
+
+
+def _worst(r: Report) -> str:
+    w = r.worst_crossing
+    if w is None:
+        return "none"
+    return f"{w.phase_diff_deg:+.1f} deg {w.bands[0]}/{w.bands[1]} {format_hz(w.freq_hz)}"
+
+
+def _fit_changes(f) -> list[str]:
+    """``"tweeter peak 7.5 kHz: gain -0.80 -> -0.34 dB"`` for every fitted gain that moved."""
+    old = f.before.project
+    out = []
+    for label, name, g in zip(f.labels, f.names, f.gains_db):
+        # names are "bands[i].filters[j].gain_db" or "bands[i].gain_db"
+        parts = name.replace("]", "").replace("[", ".").split(".")
+        i = int(parts[1])
+        g0 = old.bands[i].filters[int(parts[3])].params["gain_db"] if "filters" in name \
+            else old.bands[i].gain_db
+        if abs(g - g0) > 5e-3:
+            out.append(f"{label}: gain {g0:+.2f} -> {g:+.2f} dB")
+    return out
+
+
+def solve_preview(kind: str, result) -> str:
+    """What a solver would change, before and after, for the editor's preview.
+
+    ``kind`` is ``"align"`` (an :class:`planner.solve.alignment.Alignment`)
+    or ``"fit"`` (an :class:`planner.solve.eqfit.Fit`). Lines: the sum's
+    flatness and the worst crossing before and after, each check's state,
+    then the changes per band.
+    """
+    b, a = result.before, result.after
+    lim = b.project.analysis
+    lines = [f"{'':16}{'before':>22}  {'after':>22}",
+             f"{'sum flatness':16}{b.max_dev_db:>+19.2f} dB  {a.max_dev_db:>+19.2f} dB"
+             f"  (limit +/-{lim.flatness_db:g})",
+             f"{'worst crossing':16}{_worst(b):>22}  {_worst(a):>22}",
+             f"{'checks':16}{'ok' if b.ok else 'FAIL':>22}  {'ok' if a.ok else 'FAIL':>22}"]
+    if kind == "fit":
+        lines.insert(2, f"{'largest error':16}{result.before_max_db:>+19.2f} dB  "
+                        f"{result.max_error_db:>+19.2f} dB  (target {result.target.name})")
+        changes = _fit_changes(result)
+    else:
+        changes = list(result.changes)
+    lines.append("")
+    lines.append("changes:" if changes else "changes: none")
+    lines += [f"  {c}" for c in changes]
+    extra = getattr(result, "at_bounds", None) or getattr(result, "at_limits", None)
+    if extra:
+        lines.append("stopped by its bounds:")
+        lines += [f"  {x}" for x in extra]
+    up = [n for n0, n in zip(b.project.bands, result.project.bands) if n.gain_db > n0.gain_db + 1e-6]
+    boost = kind == "fit" and max((float(g) for g in result.gains_db), default=0.0) > 0
+    if up or boost:
+        lines.append("note: a level goes up; check the headroom and start quiet.")
+    return "\n".join(lines)

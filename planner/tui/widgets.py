@@ -322,9 +322,10 @@ class Readout(Static):
 # -- checks ---------------------------------------------------------------------------------
 
 def progress_text(fraction: float, text: str,
-                  hint: str = "(Escape cancels; the edit is then undone)") -> str:
+                  hint: str = "(Escape cancels; the edit is then undone)",
+                  doing: str = "designing") -> str:
     """``"designing [#####-----]  50% FIR lowpass ...: fewest taps"`` and, below, ``hint``."""
-    return f"designing {bar_text(fraction, text)}\n{hint}"
+    return f"{doing} {bar_text(fraction, text)}\n{hint}"
 
 
 class CheckBar(Static):
@@ -334,9 +335,11 @@ class CheckBar(Static):
         super().__init__("analysing ...", markup=False, **kw)
 
     def show(self, lines: tuple[str, ...] | None, busy: bool = False, error: str | None = None,
-             progress: tuple[float, str] | None = None) -> None:
+             progress: tuple[float, str] | None = None, hint: str | None = None,
+             doing: str = "designing") -> None:
         if progress is not None:
-            self.update(progress_text(*progress))
+            self.update(progress_text(*progress, doing=doing) if hint is None
+                        else progress_text(*progress, hint=hint, doing=doing))
             self.set_class(False, "-fail")
             return
         if error:
