@@ -23,6 +23,7 @@ from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
 from planner import edits, engine, export, filters as fk, progress, project as pj, units
+from planner.crossovers import crossover_points, move_crossover
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
@@ -110,6 +111,8 @@ ACTIONS = (
       "best-phased sum; preview, then apply as one edit", "A", "Align"),
     C("solve('fit')", "Fit EQ", "set the EQ filters' gains so the sum is flat; preview, then "
       "apply as one edit", "F"),
+    C("move_crossover", "Move crossover point", "move a crossover's lowpass, highpass and tied "
+      "all-passes together, as one edit", "k"),
     C("reanalyse", "Re-analyse", "design every filter and check the project again", "ctrl+r"),
     C("compare", "Compare IIR and FIR", "IIR versus FIR for every band (its own screen)", "C"),
     C("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text "
@@ -441,6 +444,10 @@ class CrossplanApp(App):
             self.notify(f"refused: {e.message}", severity="warning", timeout=6)
             return
         old = self.project
+        point = self._mate_point(event.target, event.field)
+        if point is not None:
+            self._offer_mates(old, new, label, point)
+            return
         await self.commit(new, label)
         for note in _range_notes(new, event.target, event.field, self.band_i, self.filter_i):
             self.notify(f"note: {note}", severity="warning", timeout=8)
@@ -448,6 +455,71 @@ class CrossplanApp(App):
                 and event.field == "sample_rate":
             self.notify(f"'to' lowered to the new Nyquist frequency, "
                         f"{units.format(new.analysis.f_max, 'Hz', 6)}")
+
+    def _mate_point(self, target: str, name: str):
+        """The crossover point the selected filter belongs to with other filters, when its
+        frequency is the field being edited (else None)."""
+        if target != "filter" or name != "freq" or self.filter_i is None:
+            return None
+        i, j = self.band_i, self.filter_i
+        for pt in crossover_points(self.project):
+            if any(m.band == i and m.filter == j for m in pt.members) and len(pt.members) > 1:
+                return pt
+        return None
+
+    @work(exclusive=True, group="mates")
+    async def _offer_mates(self, old: Project, new: Project, label: str, point) -> None:
+        """Ask whether the rest of a crossover point moves with the filter typed into."""
+        i, j = self.band_i, self.filter_i
+        freq = new.bands[i].filters[j].params["freq"]
+        others = [f"{old.bands[m.band].name} {fk.label(old.bands[m.band].filters[m.filter])}"
+                  for m in point.members if (m.band, m.filter) != (i, j)]
+        answer = await self.push_screen_wait(ChoiceScreen(
+            f"This filter is one side of the crossover at {units.format_hz(point.freq_hz)}. "
+            f"Move the rest of it to {units.format_hz(freq)} too ({'; '.join(others)})?",
+            [("y", "yes", "Move them all"), ("n", "no", "Only this one")]))
+        if answer is None or self.project is not old:
+            await self.show_project()   # nothing applied: the field shows the project again
+            return
+        if answer == "yes":
+            try:
+                new = move_crossover(old, point, freq)
+            except CrossplanError as e:
+                self.notify(f"refused: {e}", severity="warning", timeout=6)
+                await self.show_project()
+                return
+            label = f"move crossover {units.format_hz(point.freq_hz)} -> {units.format_hz(freq)}"
+        await self.commit(new, label)
+        for note in _range_notes(new, "filter", "freq", i, j):
+            self.notify(f"note: {note}", severity="warning", timeout=8)
+
+    @work(exclusive=True, group="mates")
+    async def action_move_crossover(self) -> None:
+        """Pick a crossover point and type its new frequency: every filter of it moves."""
+        points = crossover_points(self.project)
+        if not points:
+            self.notify("no crossover points: a lowpass and a highpass at one frequency in "
+                        "two bands make one", timeout=5)
+            return
+        p = self.project
+        k = await self.push_screen_wait(PickScreen("Move which crossover?",
+                                                   [pt.describe(p) for pt in points], 0))
+        if k is None:
+            return
+        pt = points[k]
+        text = await self.push_screen_wait(PathScreen(
+            f"New frequency for the crossover at {units.format_hz(pt.freq_hz)} "
+            f"(e.g. 2.5k):", units.format(pt.freq_hz, "Hz", 6)))
+        if not text:
+            return
+        try:
+            freq = units.parse(text, "Hz", "freq")
+            new = move_crossover(self.project, pt, freq)
+        except CrossplanError as e:
+            self.notify(f"refused: {e}", severity="warning", timeout=6)
+            return
+        await self.commit(new, f"move crossover {units.format_hz(pt.freq_hz)} -> "
+                               f"{units.format_hz(freq)}")
 
     @on(FieldRow.Pick)
     def _pick_wanted(self, event: FieldRow.Pick) -> None:
