@@ -1,5 +1,7 @@
 """Plot helpers: downsampling keeps extremes; ticks are round; NO_COLOR is honoured."""
 
+from pathlib import Path
+
 import numpy as np
 
 from planner.present import plots
@@ -31,3 +33,20 @@ def test_no_color_env(monkeypatch):
     assert plots.use_color() is False
     monkeypatch.delenv("NO_COLOR")
     assert plots.use_color() is True
+
+
+def test_plain_markers_tell_bands_apart_by_letter():
+    from planner.present.plots import Series, plain_markers
+    x = np.array([100.0, 1000.0])
+    s = [Series(n, x, x) for n in ("woofer", "mid", "midhigh", "tweeter")] + \
+        [Series("sum", x, x, bold=True)]
+    assert plain_markers(s) == ["w", "m", "i", "t", "hd"]
+
+
+def test_plot_to_a_file_writes_no_colour_codes(capsys):
+    from planner.cli import main
+    assert main(["plot", str(Path(__file__).parents[1] / "presets" / "three-way.json"), "--width", "60",
+                 "--height", "14"]) == 0
+    out = capsys.readouterr().out
+    assert "\x1b[" not in out                 # stdout is not a terminal here
+    assert "ww woofer" in out and "tt tweeter" in out

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import shutil
+import sys
 
 from planner.cli.common import designing, load_project, positive_number
 from planner.defaults import PLOT_VIEWS as VIEWS
@@ -38,7 +39,8 @@ def _run(args) -> int:
     cols = shutil.get_terminal_size((80, 24)).columns
     width = args.width or cols
     height = args.height or 24
-    color = False if args.no_color else None
+    # Colour codes only for a terminal: "plot ... > file" writes plain text.
+    color = False if args.no_color or not sys.stdout.isatty() else None
     if args.view in TIME_VIEWS:
         # The numerical core is imported when the command runs (start-up time).
         from planner import timeresp

@@ -18,7 +18,7 @@ import numpy as np
 from planner.defaults import PLOT_VIEWS as VIEWS, TIME_VIEWS
 
 __all__ = ["Series", "freq_plot", "time_plot", "VIEWS", "TIME_VIEWS", "use_color",
-           "downsample_log"]
+           "downsample_log", "plain_markers"]
 
 
 _FREQ_TICKS = (10, 20, 50, 100, 200, 500, 1e3, 2e3, 5e3, 1e4, 2e4, 5e4, 1e5)
@@ -89,6 +89,22 @@ def _tick_text(v: float) -> str:
     return f"{v:g}"
 
 
+def plain_markers(series: Sequence[Series]) -> list[str]:
+    """Markers that tell the series apart without colour: a letter per band (its name's
+    first letter not taken yet, else a digit), the bold sum in heavy blocks. plotext draws
+    the marker beside each label in the legend too."""
+    out, taken = [], set()
+    for s in series:
+        if s.bold:
+            out.append("hd")
+            continue
+        pick = next((ch for ch in s.label.lower() if ch.isalpha() and ch not in taken), None)
+        pick = pick or next(str(d) for d in range(10) if str(d) not in taken)
+        taken.add(pick)
+        out.append(pick)
+    return out
+
+
 def _setup(plt, width: int, height: int, color: bool, title: str | None):
     plt.clear_figure()
     plt.plotsize(max(width, 20), max(height, 6))
@@ -134,6 +150,7 @@ def freq_plot(series: Sequence[Series], width: int = 80, height: int = 20,
     _setup(plt, width, height, color, title)
     n = max(2 * width, 16)
     xs_all = []
+    plain = plain_markers(series)
     for i, s in enumerate(series):
         x, y = downsample_log(s.x, s.y, n)
         ok = np.isfinite(y) & (x > 0)
@@ -146,7 +163,7 @@ def freq_plot(series: Sequence[Series], width: int = 80, height: int = 20,
         kw = {"label": s.label}
         if color:
             kw["color"] = "white" if s.bold else _COLORS[i % len(_COLORS)]
-        kw["marker"] = "hd" if s.bold else "braille"
+        kw["marker"] = ("hd" if s.bold else "braille") if color else plain[i]
         plt.plot(np.log10(x).tolist(), y.tolist(), **kw)
     if xs_all:
         lo = min(float(x.min()) for x in xs_all)
@@ -180,6 +197,7 @@ def time_plot(series: Sequence[Series], width: int = 80, height: int = 20,
     color = use_color(color)
     _setup(plt, width, height, color, title)
     n = max(2 * width, 16)
+    plain = plain_markers(series)
     for i, s in enumerate(series):
         x, y = np.asarray(s.x, float), np.asarray(s.y, float)
         if len(x) > n:
@@ -190,7 +208,8 @@ def time_plot(series: Sequence[Series], width: int = 80, height: int = 20,
             yb = y[:m].reshape(-1, step)
             x = np.repeat(xb[:, 0], 2)
             y = np.stack([yb.min(axis=1), yb.max(axis=1)], axis=1).ravel()
-        kw = {"label": s.label, "marker": "hd" if s.bold else "braille"}
+        kw = {"label": s.label,
+              "marker": ("hd" if s.bold else "braille") if color else plain[i]}
         if color:
             kw["color"] = "white" if s.bold else _COLORS[i % len(_COLORS)]
         plt.plot(x.tolist(), y.tolist(), **kw)

@@ -24,14 +24,16 @@ from textual.widgets import Footer, Input
 
 from planner import edits, engine, export, filters as fk, progress, project as pj, units
 from planner.crossovers import crossover_points, move_crossover
+from planner.drivers import driver_fields
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
-                                 PickScreen, SettingsScreen, SolveScreen)
-from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
+                                 PickScreen, SafetyScreen, SettingsScreen, SolveScreen)
+from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, DriverForm, FieldRow,
+                                 FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
 __all__ = ["CrossplanApp", "run_editor", "ACTIONS", "Command"]
@@ -111,6 +113,10 @@ ACTIONS = (
       "best-phased sum; preview, then apply as one edit", "A", "Align"),
     C("solve('fit')", "Fit EQ", "set the EQ filters' gains so the sum is flat; preview, then "
       "apply as one edit", "F"),
+    C("zoom(0.5)", "Zoom in (time)", "impulse and step views: show half the time span", "z"),
+    C("zoom(2)", "Zoom out (time)", "impulse and step views: show twice the time span", "Z"),
+    C("pick_pair", "Pick crossing pair", "the two bands the phase and level difference views "
+      "compare", "p"),
     C("move_crossover", "Move crossover point", "move a crossover's lowpass, highpass and tied "
       "all-passes together, as one edit", "k"),
     C("reanalyse", "Re-analyse", "design every filter and check the project again", "ctrl+r"),
@@ -159,8 +165,11 @@ class CrossplanApp(App):
         + ([Binding(c.also, c.action, c.footer or c.title, show=c.footer is not None)]
            if c.also else []))]
 
-    def __init__(self, project: Project, path: str | None = None) -> None:
+    def __init__(self, project: Project, path: str | None = None,
+                 safety_notice: bool = False) -> None:
+        """``safety_notice``: show the safety notice first (the command does, every session)."""
         super().__init__()
+        self._safety_notice = safety_notice
         self.history = History(project)
         self.path = path
         self.band_i = 0
@@ -177,6 +186,8 @@ class CrossplanApp(App):
         self._cancel_gen = -1        # the analysis the user asked to stop
         self._error: str | None = None
         self._solving: str | None = None   # "align" or "fit" while a solver runs
+        self.time_span_ms: float | None = None   # the time views' span (None: until settled)
+        self.pair: tuple[int, int] | None = None  # the difference views' bands (None: auto)
         self._solve_cancel = False
 
     # -- layout ---------------------------------------------------------------------------
@@ -189,6 +200,7 @@ class CrossplanApp(App):
                 yield ChainList(id="chain")
                 yield FilterForm(id="filter-form")
                 yield BandForm(id="band-form")
+                yield DriverForm(id="driver-form")
             with Vertical(id="right"):
                 yield PlotView(color=not self.no_color, id="plot")
                 yield Readout(id="readout")
@@ -199,6 +211,8 @@ class CrossplanApp(App):
     async def on_mount(self) -> None:
         await self.show_project()
         self.query_one(ChainList).focus()
+        if self._safety_notice:
+            self.push_screen(SafetyScreen())
 
     # -- state ----------------------------------------------------------------------------
 
@@ -236,6 +250,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band)
         for screen in self.screen_stack:
             if isinstance(screen, SettingsScreen):
                 screen.show(p)
@@ -378,7 +393,8 @@ class CrossplanApp(App):
                 self.query_one(PlotView).data = data
                 self.query_one(Readout).update(f"no {self.view} response: {e}")
                 return
-        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz, impulse)
+        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz, impulse,
+                               self.time_span_ms, self.pair)
         self.query_one(PlotView).data = data
         self.query_one(Readout).show(data)
 
@@ -407,6 +423,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band)
         self.show_plot()
 
     @on(ChainList.OptionSelected, "#chain")
@@ -434,7 +451,7 @@ class CrossplanApp(App):
     async def _field_edited(self, event: FieldRow.Edited) -> None:
         event.stop()
         form = self.screen if event.target == "settings" else \
-            self.query_one(BandForm if event.target == "band" else FilterForm)
+            self.query_one({"band": BandForm, "driver": DriverForm}.get(event.target, FilterForm))
         try:
             new, label = self._apply_field(event.target, event.field, event.text)
         except CrossplanError as e:
@@ -586,6 +603,8 @@ class CrossplanApp(App):
                 value = int(value)
             return edits.set_analysis(p, **{name: value}), f"analysis {name}"
         band = p.bands[self.band_i]
+        if target == "driver":
+            return _driver_edit(p, self.band_i, name, text), f"{band.name} driver {name}"
         if target == "band":
             if name == "name":
                 value: object = text.strip()
@@ -612,7 +631,7 @@ class CrossplanApp(App):
     def _scope(self) -> str:
         w = self.focused
         while w is not None:
-            if isinstance(w, (BandList, BandForm)):
+            if isinstance(w, (BandList, BandForm, DriverForm)):
                 return "band"
             if isinstance(w, (ChainList, FilterForm)):
                 return "filter"
@@ -742,10 +761,43 @@ class CrossplanApp(App):
         self.cursor_hz = min(max(self.cursor_hz * 2 ** (steps * _STEP_OCT), a.f_min), a.f_max)
         self.show_plot()
 
+    def action_zoom(self, factor: float) -> None:
+        """Time views: show ``factor`` times the time span (0.5 zooms in)."""
+        if self.view not in views.TIME_VIEWS or self.report is None:
+            self.notify("z / Z zoom the impulse and step views (v steps to them)", timeout=3)
+            return
+        tr = self._impulse()
+        full = float(tr.time_ms[-1])
+        now = self.time_span_ms or float(views.time_series(tr)[0].x[-1])
+        self.time_span_ms = min(max(now * factor, 0.05), full)
+        self.show_plot()
+
+    @work(exclusive=True, group="pick")
+    async def action_pick_pair(self) -> None:
+        """Pick the two bands the difference views compare (and show the phase difference)."""
+        if self.report is None:
+            return
+        pairs = views.crossing_pairs(self.report)
+        if not pairs:
+            self.notify("no two bands cross", timeout=3)
+            return
+        names = [b.name for b in self.project.bands]
+        k = await self.push_screen_wait(PickScreen(
+            "Difference views: which pair?",
+            [f"{names[a]} / {names[b]} at {units.format_hz(f)}" for a, b, f in pairs]))
+        if k is None:
+            return
+        self.pair = pairs[k][:2]
+        if self.view not in ("phase difference", "level difference"):
+            self.view = "phase difference"
+            self._show_title()
+        self.show_plot()
+
     def action_view(self, step: int) -> None:
         """Next (or previous) plot view."""
-        k = views.VIEWS.index(self.view)
-        self.view = views.VIEWS[(k + step) % len(views.VIEWS)]
+        seq = views.views_for(self.project)
+        k = seq.index(self.view) if self.view in seq else 0
+        self.view = seq[(k + step) % len(seq)]
         self._show_title()
         self.show_plot()
 
@@ -1051,6 +1103,24 @@ def _parse_field(spec, text: str):
     return v
 
 
+def _driver_edit(p: Project, i: int, name: str, text: str) -> Project:
+    """A typed driver field as an edit: the model or file (empty: no driver), or a field."""
+    t = text.strip()
+    if name == "model":
+        return edits.set_driver_source(p, i, model=t or None)
+    if name == "file":
+        return edits.set_driver_source(p, i, file=t or None)
+    d = p.bands[i].driver
+    spec = next((s for s in driver_fields(d.model if d else None) if s.name == name), None)
+    if spec is None:
+        raise ProjectError("is not a field of this driver", field=name)
+    if spec.rule == "choice":
+        return edits.set_driver(p, i, **{name: t or None})
+    value = _parse_field(spec, text) if spec.unit != "mm" else \
+        (None if not t else units.parse(t.removesuffix("mm").strip(), "", name))
+    return edits.set_driver(p, i, **{name: value})
+
+
 def _with_family(p: Project, i: int, j: int, type_: str, family: str,
                  order: int | None) -> Project:
     """Filter ``j`` of band ``i`` made ``family`` (and ``order``, when given): one edit."""
@@ -1114,5 +1184,5 @@ def help_text(app: App) -> str:
 
 def run_editor(project: Project, path: str | None) -> int:
     """Run the editor on ``project`` (from ``path``, or None for the demo); return an exit code."""
-    result = CrossplanApp(project, path).run()
+    result = CrossplanApp(project, path, safety_notice=True).run()
     return int(result or 0)

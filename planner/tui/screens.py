@@ -18,8 +18,39 @@ from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SolveScreen", "SettingsScreen",
+__all__ = ["SafetyScreen", "SAFETY_NOTICE", "HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SolveScreen", "SettingsScreen",
            "CompareScreen"]
+
+
+#: The notice shown when the editor starts (common practice in the trade; no published source).
+SAFETY_NOTICE = (
+    "Before you play anything through these filters:\n\n"
+    "- Start quiet: every new filter set at low volume, then raise it slowly.\n"
+    "- Protect tweeters: a series capacitor or a highpass in place before any test; a "
+    "missing or bypassed highpass can destroy one in seconds.\n"
+    "- Beware of boosts (EQ, shelves, a Linkwitz transform) and of test signals: sweeps and "
+    "noise carry a lot of energy.\n"
+    "- Keep within the driver and amplifier manufacturers' limits and your local "
+    "regulations on sound levels and hearing protection.\n\n"
+    "Any key goes on to the editor (? shows this again)."
+)
+
+
+class SafetyScreen(ModalScreen[None]):
+    """The safety notice at start; any key dismisses it (and does nothing else)."""
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="safety-box") as box:
+            box.border_title = "Safety first"
+            yield Static(SAFETY_NOTICE, id="safety-text", markup=False)
+
+    def on_key(self, event) -> None:
+        event.stop()
+        event.prevent_default()
+        self.dismiss(None)
+
+    def on_click(self) -> None:
+        self.dismiss(None)
 
 
 class HelpScreen(ModalScreen[None]):

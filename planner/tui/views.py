@@ -19,19 +19,29 @@ from planner.timeresp import impulse_responses
 from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
-__all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair",
-           "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
+__all__ = ["VIEWS", "DRIVER_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
+           "crossing_pairs", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
            "arith_warning_items", "solve_preview"]
 
 #: The plot views, in the order the view key steps through them.
-VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference", "impulse",
-         "step")
+VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis",
+         "phase difference", "level difference", "impulse", "step")
+
+#: The views that need drivers (the acoustic sum): left out while no band has one.
+DRIVER_VIEWS = ("electrical", "drivers", "offaxis")
 
 #: The views drawn against time (ms) rather than frequency.
 TIME_VIEWS = ("impulse", "step")
 
 #: How far the difference views reach either side of their crossing (octaves).
 _DIFF_SPAN_OCT = 2.0
+
+
+def views_for(project) -> tuple[str, ...]:
+    """The views the view key steps through for ``project`` (no driver views without drivers)."""
+    if any(b.driver is not None for b in project.bands):
+        return VIEWS
+    return tuple(v for v in VIEWS if v not in DRIVER_VIEWS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -48,13 +58,31 @@ class PlotData:
     time: bool = False          # x is time in ms (impulse, step), else frequency in Hz
 
 
-def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
+def crossing_pairs(r: Report) -> list[tuple[int, int, float]]:
+    """Every pair of bands that cross, once, with its crossing frequency (checked crossings
+    first, then the rest), for picking the pair the difference views show."""
+    out, seen = [], set()
+    for c in sorted(r.crossings, key=lambda c: (not c.checked, c.freq_hz)):
+        if c.band_index not in seen:
+            seen.add(c.band_index)
+            out.append((*c.band_index, c.freq_hz))
+    return out
+
+
+def crossing_pair(r: Report, band: int, pair: tuple[int, int] | None = None
+                  ) -> tuple[int, int, float | None]:
     """The two bands the difference views compare, for the selected ``band``.
 
     The crossing of ``band`` with the largest phase difference (checked
     crossings first); without one, ``band`` and its neighbour. Returns
     ``(a, b, crossing_hz or None)`` with ``a`` before ``b`` in project order.
     """
+    n = len(r.project.bands)
+    if pair is not None and all(0 <= k < n for k in pair) and pair[0] != pair[1]:
+        a, b = sorted(pair)
+        at = [c for c in r.crossings if c.band_index == (a, b)]
+        at.sort(key=lambda c: (not c.checked, -abs(c.phase_diff_deg)))
+        return a, b, at[0].freq_hz if at else None
     mine = [c for c in r.crossings if band in c.band_index]
     mine.sort(key=lambda c: (not c.checked, -abs(c.phase_diff_deg)))
     if mine:
@@ -67,7 +95,8 @@ def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
     return min(band, other), max(band, other), None
 
 
-def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -> PlotData:
+def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None,
+              span_ms: float | None = None, pair: tuple[int, int] | None = None) -> PlotData:
     """The series, unit, range and marks of ``view`` (one of :data:`VIEWS`).
 
     The time views need ``impulse``, the report's
@@ -78,16 +107,21 @@ def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -
         if impulse is None:
             raise ValueError(f"the {view} view needs the impulse responses")
         tr = impulse if view == "impulse" else impulse.step()
-        series = time_series(tr)
-        return PlotData(tuple(series), "", None, f"{view} response (time in ms)", (),
+        series = time_series(tr, span_ms)
+        span = f"first {span_ms:.3g} ms" if span_ms else "time in ms"
+        return PlotData(tuple(series), "", None, f"{view} response ({span}; z/Z zoom)", (),
                         cursor_hz, None, time=True)
-    if view in ("magnitude", "phase", "delay"):
+    if view in ("magnitude", "phase", "delay") + DRIVER_VIEWS:
         series, unit, ylim = view_series(r, view)
-        return PlotData(tuple(series), unit, ylim, f"{view} ({unit})", marks, cursor_hz,
-                        0.0 if view == "magnitude" else None)
+        title = {"offaxis": f"off-axis sum ({unit})", "drivers": f"drivers alone ({unit})",
+                 "electrical": f"electrical, no drivers ({unit})"}.get(view, f"{view} ({unit})")
+        if not series:
+            title = f"{view}: no drivers in this project"
+        return PlotData(tuple(series), unit, ylim, title, marks, cursor_hz,
+                        0.0 if view in ("magnitude", "electrical", "offaxis") else None)
     if view not in VIEWS:
         raise ValueError(f"view must be one of {', '.join(VIEWS)}, not {view!r}")
-    a, b, fc = crossing_pair(r, band)
+    a, b, fc = crossing_pair(r, band, pair)
     f = r.freqs_hz
     na, nb = r.project.bands[a].name, r.project.bands[b].name
     if a == b:
