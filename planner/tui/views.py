@@ -20,7 +20,7 @@ from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
 __all__ = ["VIEWS", "DRIVER_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
-           "crossing_pairs", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
+           "crossing_pairs", "phase_hint", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
            "arith_warning_items", "solve_preview"]
 
 #: The plot views, in the order the view key steps through them.
@@ -56,6 +56,17 @@ class PlotData:
     cursor_hz: float
     hline: float | None
     time: bool = False          # x is time in ms (impulse, step), else frequency in Hz
+    hint: str | None = None     # the engine's advice for the pair shown (difference views)
+
+
+def phase_hint(r: Report, a: int, b: int) -> str | None:
+    """The engine's advice for the crossing of bands ``a`` and ``b`` when it is outside its
+    limit (what to delay, and by how much), as the warnings word it; None when in phase."""
+    na, nb = r.project.bands[a].name, r.project.bands[b].name
+    for w in r.warnings:
+        if w.code == "phase" and w.text.startswith(f"bands {na} and {nb} "):
+            return w.text
+    return None
 
 
 def crossing_pairs(r: Report) -> list[tuple[int, int, float]]:
@@ -140,7 +151,8 @@ def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None,
         unit, ylim, label = "dB", (-24.0, 24.0), f"{na} - {nb} level"
     s = Series(label, f[keep], y[keep], bold=True)
     return PlotData((s,), unit, ylim, f"{na} - {nb} {where} ({unit})",
-                    tuple(m for m in ((fc,) if fc else ())), cursor_hz, 0.0)
+                    tuple(m for m in ((fc,) if fc else ())), cursor_hz, 0.0,
+                    hint=phase_hint(r, a, b))
 
 
 def _at(s: Series, f_hz: float) -> float:
@@ -187,7 +199,8 @@ def readout(d: PlotData) -> str:
         label = s.label.replace(" (off)", "")
         parts.append(f"{label} {_r1(v):+.1f}" if np.isfinite(v) else f"{label} --")
     unit = f" {d.unit}" if d.unit else ""
-    return f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
+    text = f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
+    return text + (f"\n{d.hint}" if d.hint else "")
 
 
 def check_lines(r: Report) -> tuple[str, str, str]:

@@ -62,3 +62,18 @@ async def test_without_colour_each_band_has_its_own_letter_in_plot_and_legend():
         for legend in ("w woofer", "m mid", "t tweeter"):
             assert legend in text
         assert "\x1b" not in str(app.query_one("#plot").render())
+
+
+async def test_the_difference_view_shows_the_engines_delay_hint_for_its_pair():
+    from planner import edits, engine
+    p = edits.set_band(project.load_preset("three-way"), 1, delay_ms=0.3)   # mid late
+    app = CrossplanApp(p, None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await goto_view(app, pilot, "phase difference")   # woofer / mid, for the woofer
+        want = next(w.text for w in engine.analyse(p).warnings
+                    if w.code == "phase" and w.text.startswith("bands woofer and mid"))
+        assert "add delay_ms" in want                        # with its value
+        assert app.query_one("#plot").data.hint == want
+        assert "add delay_ms 0.3 to woofer" in " ".join(
+            str(app.query_one("#readout").render()).split())
