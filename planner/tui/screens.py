@@ -87,8 +87,9 @@ class ChoiceScreen(ModalScreen[str | None]):
             yield Label(self._question, id="choice-question", markup=False)
             with Horizontal(id="choice-buttons"):
                 for key, value, label in self._answers:
-                    yield Button(f"{label} [{key}]", id=f"answer-{value}")
-                yield Button("Cancel [esc]", id="answer-cancel")
+                    # "(y)", not "[y]": square brackets would be read as markup
+                    yield Button(f"{label} ({key})", id=f"answer-{value}")
+                yield Button("Cancel (esc)", id="answer-cancel")
 
     def on_key(self, event) -> None:
         for key, value, _ in self._answers:

@@ -283,11 +283,12 @@ def arith_warning_items(rx) -> list[WarningItem]:
     return out
 
 
-def _worst(r: Report) -> str:
+def _worst(r: Report) -> tuple[str, str]:
+    """The worst crossing's phase (``"+21.7 deg"``) and where (``"mid/tweeter 3 kHz"``)."""
     w = r.worst_crossing
     if w is None:
-        return "none"
-    return f"{w.phase_diff_deg:+.1f} deg {w.bands[0]}/{w.bands[1]} {format_hz(w.freq_hz)}"
+        return "none", ""
+    return f"{w.phase_diff_deg:+.1f} deg", f"{w.bands[0]}/{w.bands[1]} {format_hz(w.freq_hz)}"
 
 
 def _fit_changes(f) -> list[str]:
@@ -315,14 +316,18 @@ def solve_preview(kind: str, result) -> str:
     """
     b, a = result.before, result.after
     lim = b.project.analysis
-    lines = [f"{'':16}{'before':>22}  {'after':>22}",
-             f"{'sum flatness':16}{b.max_dev_db:>+19.2f} dB  {a.max_dev_db:>+19.2f} dB"
-             f"  (limit +/-{lim.flatness_db:g})",
-             f"{'worst crossing':16}{_worst(b):>22}  {_worst(a):>22}",
-             f"{'checks':16}{'ok' if b.ok else 'FAIL':>22}  {'ok' if a.ok else 'FAIL':>22}"]
+    (wb, at_b), (wa, at_a) = _worst(b), _worst(a)
+    lines = [f"{'':18}{'before':>14}{'after':>14}",
+             f"{'sum flatness':18}{b.max_dev_db:>+11.2f} dB{a.max_dev_db:>+11.2f} dB"
+             f"   limit +/-{lim.flatness_db:g} dB",
+             f"{'worst crossing':18}{wb:>14}{wa:>14}   limit {lim.phase_deg:g} deg",
+             (f"{'':18}at {at_a or at_b}" if at_a == at_b or not (at_a and at_b)
+              else f"{'':18}at {at_b}, then at {at_a}") if (at_b or at_a) else "",
+             f"{'checks':18}{'ok' if b.ok else 'FAIL':>14}{'ok' if a.ok else 'FAIL':>14}"]
+    lines = [ln for ln in lines if ln]
     if kind == "fit":
-        lines.insert(2, f"{'largest error':16}{result.before_max_db:>+19.2f} dB  "
-                        f"{result.max_error_db:>+19.2f} dB  (target {result.target.name})")
+        lines.insert(2, f"{'largest error':18}{result.before_max_db:>+11.2f} dB"
+                        f"{result.max_error_db:>+11.2f} dB   target {result.target.name}")
         changes = _fit_changes(result)
     else:
         changes = list(result.changes)
