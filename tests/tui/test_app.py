@@ -292,7 +292,7 @@ async def test_views_cycle_and_the_cursor_reads_values():
             await pilot.press("v")
             assert app.view == expected
             if expected != "magnitude":
-                assert f"{expected} response (time in ms)" in screen_text(app)
+                assert f"{expected} response (time in ms; z/Z zoom)" in screen_text(app)
                 assert "peak ms/value: woofer" in screen_text(app)
 
 
