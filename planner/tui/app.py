@@ -10,6 +10,7 @@ check bar, the warnings and the plot.
 
 from __future__ import annotations
 
+import textwrap
 import time
 from dataclasses import dataclass
 from functools import partial
@@ -1152,7 +1153,9 @@ def help_text(app: App) -> str:
     for c in ACTIONS:
         keys = ", ".join(app.get_key_display(Binding(k, ""))
                          for k in filter(None, (c.keys + "," + c.also).split(",")))
-        lines.append(f"  {keys or '(palette)':<18} {c.title} - {c.help}")
+        # wrapped with the continuation under the title (the help box is about 70 wide)
+        lines += textwrap.wrap(f"{keys or '(palette)':<12} {c.title} - {c.help}", 66,
+                               initial_indent="  ", subsequent_indent=" " * 15)
     lines += [
         "  tab / shift+tab    next / previous panel or field",
         "  up / down          select a band or filter",
