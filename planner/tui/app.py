@@ -924,7 +924,10 @@ class CrossplanApp(App):
         if ok and project is self.project:
             await self.commit(result.project, "align" if kind == "align" else "fit EQ")
             self.notify(f"{kind} applied (ctrl+z undoes it)", timeout=4)
-        elif not ok:
+        elif ok:
+            self.notify(f"{kind}: the project changed while the preview was open; not "
+                        "applied (run it again)", severity="warning", timeout=6)
+        else:
             self.notify(f"{kind}: not applied; the project is as it was", timeout=3)
 
     def action_back(self) -> None:

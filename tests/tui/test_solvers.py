@@ -144,3 +144,22 @@ def test_the_preview_names_each_change_and_both_figures():
     assert f"{a.before.max_dev_db:+.2f} dB" in text and f"{a.after.max_dev_db:+.2f} dB" in text
     for c in a.changes:
         assert c in text
+
+
+async def test_an_undo_while_the_preview_is_open_means_nothing_is_applied():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        from planner import edits
+        await app.commit(edits.set_name(app.project, "renamed"), "rename")   # one to undo
+        await settle(app, pilot)
+        await run_solver(app, pilot, "A")
+        assert isinstance(app.screen, SolveScreen)
+        await pilot.press("ctrl+z")                         # works on top of the preview
+        await settle(app, pilot)
+        before = app.project
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project is before                        # the result was for another one
+        assert any("changed while the preview was open" in n.message
+                   for n in app._notifications)
