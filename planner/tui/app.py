@@ -190,6 +190,7 @@ class CrossplanApp(App):
         self.time_span_ms: float | None = None   # the time views' span (None: until settled)
         self.pair: tuple[int, int] | None = None  # the difference views' bands (None: auto)
         self._solve_cancel = False
+        self._told_mates = False           # the nudge's note on crossover points, once
 
     # -- layout ---------------------------------------------------------------------------
 
@@ -730,6 +731,10 @@ class CrossplanApp(App):
             self.notify("the selected filter has no frequency to nudge", timeout=3)
             return
         new = round(f.params["freq"] * 2 ** (steps * _STEP_OCT), 2)
+        if not self._told_mates and self._mate_point("filter", "freq") is not None:
+            self._told_mates = True
+            self.notify("this moves one side of a crossover only; k moves the whole point",
+                        timeout=6)
         i, j = self.band_i, self.filter_i
         await self._try(lambda p: edits.set_filter_params(p, i, j, freq=new),
                         f"nudge freq {units.format(new, 'Hz', 4)}")

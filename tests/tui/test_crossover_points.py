@@ -76,3 +76,15 @@ async def test_k_moves_a_point_with_its_tied_allpass():
         assert app.history.can_undo
         app.history.undo()
         assert not app.history.can_undo                  # it was one edit
+
+
+async def test_a_nudge_on_one_side_says_once_that_k_moves_the_point():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#chain").focus()
+        await pilot.press("right", "right")
+        await settle(app, pilot)
+        notes = [n.message for n in app._notifications if "k moves the whole point" in n.message]
+        assert len(notes) == 1
+        assert freqs(app.project)[1][0] == 350.0             # the mid's highpass stays
