@@ -30,9 +30,9 @@ from planner.model import Project
 __all__ = [
     "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
     "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
-    "set_filter_type", "toggle_bypass", "set_analysis", "set_name", "set_sample_rate",
-    "nyquist_problems", "DEFAULT_FILTER", "BAND_FLAGS", "add_crossover", "set_crossover",
-    "remove_crossover", "link_filter", "toggle_voicing",
+    "set_filter_type", "toggle_bypass", "set_analysis", "set_name", "set_driver",
+    "set_driver_source", "set_sample_rate", "nyquist_problems", "DEFAULT_FILTER", "BAND_FLAGS",
+    "add_crossover", "set_crossover", "remove_crossover", "link_filter", "toggle_voicing",
 ]
 
 #: A new filter: a peaking EQ of 0 dB changes nothing until it is edited.
@@ -385,6 +385,71 @@ def link_filter(p: Project, band: int, flt: int, name: str | None) -> Project:
         else:
             _crossover_entry(d, name)
             f["crossover"] = name
+    return _rebuild(p, change)
+
+
+# -- drivers --------------------------------------------------------------------------------
+
+#: A plain starting resonance for a band just given a driver model (Hz): a woofer-like
+#: value, a tweeter-like one. Not data about any driver: the user types the real one.
+_START_FC_HZ = {"tweeter": 1000.0}
+_DRIVER_KEEP = ("offset_mm", "position_mm", "role")
+
+
+def set_driver(p: Project, band: int, /, **fields: Any) -> Project:
+    """Change fields of band ``band``'s driver (``fc`` in Hz, ``offset_mm`` in mm, ...).
+
+    A value of None removes the field. Checked as the project file's
+    ``driver`` is (:func:`planner.drivers.check_driver`), so a field the
+    driver does not take, or a missing measurement file, is refused naming
+    ``bands[i].driver.<field>``. The band must have a driver (see
+    :func:`set_driver_source`).
+    """
+    def change(d):
+        b = _band(d, band)
+        if b.get("driver") is None:
+            raise ProjectError("the band has no driver; give it a model or a file first",
+                               field=f"bands[{band}].driver")
+        drv = dict(b["driver"])
+        for key, value in fields.items():
+            if key in ("model", "file"):
+                raise ProjectError("use set_driver_source to change the model or file",
+                                   field=f"bands[{band}].driver.{key}")
+            if value is None:
+                drv.pop(key, None)
+            else:
+                drv[key] = value
+        b["driver"] = drv
+    return _rebuild(p, change)
+
+
+def set_driver_source(p: Project, band: int, model: str | None = None,
+                      file: str | None = None) -> Project:
+    """Give band ``band`` a driver model or a measurement file, or (both None) no driver.
+
+    The offset, position and role are kept; a model's own fields are kept
+    when the model stays, else it starts from its defaults with a plain
+    resonance (:data:`_START_FC_HZ`, 50 Hz otherwise) to be typed over.
+    """
+    if model is not None and file is not None:
+        raise ProjectError("give a model or a file, not both", field=f"bands[{band}].driver")
+
+    def change(d):
+        b = _band(d, band)
+        old = dict(b.get("driver") or {})
+        if model is None and file is None:
+            b.pop("driver", None)
+            return
+        new = {k: old[k] for k in _DRIVER_KEEP if k in old}
+        if model is not None:
+            if old.get("model") == model:
+                new = {k: v for k, v in old.items()}
+            else:
+                new["model"] = model
+                new["fc"] = _START_FC_HZ.get(model, 50.0)
+        else:
+            new["file"] = file
+        b["driver"] = new
     return _rebuild(p, change)
 
 

@@ -335,3 +335,38 @@ def test_the_exports_are_named_after_the_new_name(p, tmp_path):
     res = export.write_export(E.set_name(p, "Porch monitor"), [48000], "json", tmp_path)
     assert [f.name for f in res.files] == ["porch-monitor-48000.json"]
     assert res.manifest.name == "porch-monitor-manifest.json"
+
+
+# -- drivers ---------------------------------------------------------------------------------
+
+def test_set_driver_source_gives_a_model_with_a_plain_start(p):
+    q = E.set_driver_source(p, 1, model="tweeter")
+    assert q.bands[1].driver.model == "tweeter" and q.bands[1].driver.params["fc"] == 1000.0
+    assert p.bands[1].driver is None
+
+
+def test_set_driver_changes_the_offset_in_mm(p):
+    q = E.set_driver(E.set_driver_source(p, 1, model="tweeter"), 1, offset_mm=12.5)
+    assert q.bands[1].driver.offset_mm == 12.5
+    assert project.to_dict(q)["bands"][1]["driver"]["offset_mm"] == 12.5
+
+
+def test_set_driver_is_checked_as_the_file_is(p):
+    q = E.set_driver_source(p, 1, model="tweeter")
+    with pytest.raises(ProjectError, match=r"bands\[1\]\.driver\.fc: 0 Hz must be above 0 Hz"):
+        E.set_driver(q, 1, fc=0)
+
+
+def test_set_driver_source_refuses_a_missing_file(p):
+    with pytest.raises(ProjectError, match=r"bands\[1\]\.driver\.file: nope\.txt: no such file"):
+        E.set_driver_source(p, 1, file="nope.txt")
+
+
+def test_set_driver_needs_a_driver_first(p):
+    with pytest.raises(ProjectError, match="the band has no driver"):
+        E.set_driver(p, 1, offset_mm=3.0)
+
+
+def test_set_driver_source_none_removes_the_driver_keeping_nothing_else(p):
+    q = E.set_driver_source(E.set_driver_source(p, 1, model="tweeter"), 1)
+    assert q.bands[1].driver is None and "driver" not in project.to_dict(q)["bands"][1]

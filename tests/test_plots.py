@@ -1,5 +1,7 @@
 """Plot helpers: downsampling keeps extremes; ticks are round; NO_COLOR is honoured."""
 
+from pathlib import Path
+
 import numpy as np
 
 from planner.present import plots
@@ -144,12 +146,13 @@ def test_no_color_gives_each_band_its_marker_and_the_sum_braille():
     c = plots.freq_canvas([*bands, s], width=60, height=20, ylim=(-30, 3), color=False)
     text = c.plain()
     assert "\x1b" not in text and all(st is None for line in c.lines for _, st in line)
+    marks = plots.plain_markers([*bands, s])
     for k in range(3):
         row = _dot(-3.0 * k, -30, 3, 4 * c.rows)
-        assert set(_row_text(c, (4 * c.rows - 1 - row) // 4)) == {plots.MARKERS[k]}
-    assert len(set(plots.MARKERS[:3])) == 3
+        assert set(_row_text(c, (4 * c.rows - 1 - row) // 4)) == {marks[k]}
+    assert len(set(marks[:3])) == 3 and marks[3] == "⣿"
     legend = text.splitlines()[-1]
-    assert legend.startswith(f"{plots.MARKERS[0]} b0  {plots.MARKERS[1]} b1  {plots.MARKERS[2]} b2")
+    assert legend.startswith(f"{marks[0]} b0  {marks[1]} b1  {marks[2]} b2")
     sum_row = _row_text(c, (4 * c.rows - 1 - _dot(-20, -30, 3, 4 * c.rows)) // 4)
     assert all(0x2800 < ord(ch) <= 0x28FF for ch in sum_row)
 
@@ -177,3 +180,20 @@ def test_decade_ticks_sit_on_their_columns():
     assert "100" in labels and "1k" in labels and "10k" in labels
     # The unit ends the tick row, or the legend row when the last tick label leaves no room.
     assert labels.rstrip().endswith("Hz") or c.plain().rstrip().endswith("Hz")
+
+
+def test_plain_markers_tell_bands_apart_by_letter():
+    from planner.present.plots import Series, plain_markers
+    x = np.array([100.0, 1000.0])
+    s = [Series(n, x, x) for n in ("woofer", "mid", "midhigh", "tweeter")] + \
+        [Series("sum", x, x, bold=True)]
+    assert plain_markers(s) == ["w", "m", "i", "t", "⣿"]
+
+
+def test_plot_to_a_file_writes_no_colour_codes(capsys):
+    from planner.cli import main
+    assert main(["plot", str(Path(__file__).parents[1] / "presets" / "three-way.json"), "--width", "60",
+                 "--height", "14"]) == 0
+    out = capsys.readouterr().out
+    assert "\x1b[" not in out                 # stdout is not a terminal here
+    assert "w woofer" in out and "t tweeter" in out

@@ -113,6 +113,6 @@ def run(args) -> int:
               file=sys.stderr)
         r = engine.analyse(proj)
         print(text_report(r))
-        print(plot_report(r, "magnitude", 80, 22))
+        print(plot_report(r, "magnitude", 80, 22, color=False))   # not a terminal: plain
         return 0 if r.ok else 1
     return run_editor(proj, args.file, opened.fingerprint, opened.notices)

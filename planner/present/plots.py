@@ -35,7 +35,7 @@ from planner.defaults import PLOT_VIEWS as VIEWS, TIME_VIEWS
 
 __all__ = ["Series", "Canvas", "freq_plot", "time_plot", "freq_canvas", "time_canvas",
            "braille_cells", "VIEWS", "TIME_VIEWS", "use_color", "downsample_log", "nice_ticks",
-           "BRAILLE_BASE", "MARKERS", "COLORS"]
+           "BRAILLE_BASE", "MARKERS", "COLORS", "plain_markers"]
 
 
 _FREQ_TICKS = (10, 20, 50, 100, 200, 500, 1e3, 2e3, 5e3, 1e4, 2e4, 5e4, 1e5)
@@ -302,11 +302,28 @@ def _frame(width: int, height: int, title: str | None, ylabel: str, xlabel: str,
 
 # -- drawing --------------------------------------------------------------------------------
 
-def _style_and_mark(i: int, s: Series, color: bool) -> tuple[str, str | None]:
+def plain_markers(series: Sequence[Series]) -> list[str]:
+    """Markers that tell the series apart without colour: a letter per band (the first
+    letter of its name not taken yet, else a digit, else one of :data:`MARKERS`), and
+    braille for the bold sum. The legend shows each mark beside its label."""
+    out, taken = [], set()
+    for k, s in enumerate(series):
+        if s.bold:
+            out.append("⣿")
+            continue
+        pick = next((ch for ch in s.label.lower() if ch.isalpha() and ch not in taken), None)
+        pick = pick or next((str(d) for d in range(10) if str(d) not in taken),
+                            MARKERS[k % len(MARKERS)])
+        taken.add(pick)
+        out.append(pick)
+    return out
+
+
+def _style_and_mark(i: int, s: Series, color: bool, plain: Sequence[str]) -> tuple[str, str | None]:
     """Legend mark and style of series ``i`` (``bold`` is the sum: white, braille)."""
     if color:
         return "⣿", (_SUM_STYLE if s.bold else COLORS[i % len(COLORS)])
-    return ("⣿" if s.bold else MARKERS[i % len(MARKERS)]), None
+    return plain[i], None
 
 
 def _draw(series_xy, styles, frame: _Frame, x_range, y_range, color: bool,
@@ -413,7 +430,8 @@ def freq_canvas(series: Sequence[Series], width: int = 80, height: int = 20,
             continue
         xy.append((np.log10(x[ok]), y[ok]))
         kept.append((i, s))
-    styles = [_style_and_mark(i, s, color) for i, s in kept]
+    plain = plain_markers(series)
+    styles = [_style_and_mark(i, s, color, plain) for i, s in kept]
     if xy:
         x_range = (min(float(x.min()) for x, _ in xy), max(float(x.max()) for x, _ in xy))
     else:
@@ -496,7 +514,8 @@ def time_canvas(series: Sequence[Series], width: int = 80, height: int = 20,
             continue
         xy.append((x, y))
         kept.append((i, s))
-    styles = [_style_and_mark(i, s, color) for i, s in kept]
+    plain = plain_markers(series)
+    styles = [_style_and_mark(i, s, color, plain) for i, s in kept]
     if xy:
         x_range = (min(float(np.nanmin(x)) for x, _ in xy), max(float(np.nanmax(x)) for x, _ in xy))
     else:

@@ -10,6 +10,7 @@ check bar, the warnings and the plot.
 
 from __future__ import annotations
 
+import textwrap
 import time
 from dataclasses import dataclass
 from functools import partial
@@ -23,6 +24,8 @@ from textual.containers import Vertical, VerticalScroll
 from textual.widgets import Footer, Input
 
 from planner import edits, engine, export, filters as fk, progress, project as pj, units
+from planner.crossovers import crossover_points, move_crossover
+from planner.drivers import driver_fields
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
@@ -30,8 +33,9 @@ from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.autosave import FileGuard
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
-                                 PickScreen, SettingsScreen)
-from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, FieldRow, FilterForm,
+                                 PickScreen, SafetyScreen, SettingsScreen, SolveScreen)
+from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, DriverForm, FieldRow,
+                                 FilterForm,
                                  PlotView, Readout, TitleBar, WarningList)
 
 __all__ = ["CrossplanApp", "run_editor", "ACTIONS", "Command"]
@@ -107,6 +111,16 @@ ACTIONS = (
       "BW2, ...) from a list"),
     C("focus_field('gain_db')", "Edit gain", "jump to the filter's (or band's) gain", "g"),
     C("focus_warnings", "Warnings", "go to the warnings list", "w"),
+    C("solve('align')", "Align bands", "search band delays and polarities for the flattest, "
+      "best-phased sum; preview, then apply as one edit", "A", "Align"),
+    C("solve('fit')", "Fit EQ", "set the EQ filters' gains so the sum is flat; preview, then "
+      "apply as one edit", "F"),
+    C("zoom(0.5)", "Zoom in (time)", "impulse and step views: show half the time span", "z"),
+    C("zoom(2)", "Zoom out (time)", "impulse and step views: show twice the time span", "Z"),
+    C("pick_pair", "Pick crossing pair", "the two bands the phase and level difference views "
+      "compare", "p"),
+    C("move_crossover", "Move crossover point", "move a crossover's lowpass, highpass and tied "
+      "all-passes together, as one edit", "k"),
     C("reanalyse", "Re-analyse", "design every filter and check the project again", "ctrl+r"),
     C("compare", "Compare IIR and FIR", "IIR versus FIR for every band (its own screen)", "C"),
     C("export", "Export coefficients", "write the coefficients a DSP loads (json, csv, text "
@@ -154,8 +168,12 @@ class CrossplanApp(App):
            if c.also else []))]
 
     def __init__(self, project: Project, path: str | None = None, fingerprint=None,
-                 notices: tuple[str, ...] = ()) -> None:
+                 notices: tuple[str, ...] = (), safety_notice: bool = False) -> None:
+        """``fingerprint``: the file's as read (a save notices a change made meanwhile);
+        ``notices``: the loader's, shown on start; ``safety_notice``: show the safety
+        notice first (the command does, every session)."""
         super().__init__()
+        self._safety_notice = safety_notice
         self.history = History(project)
         self.path = path
         self.files = FileGuard(self, fingerprint)   # changed-on-disk check and autosave
@@ -173,6 +191,11 @@ class CrossplanApp(App):
         self._designing = False      # a long design is reporting progress
         self._cancel_gen = -1        # the analysis the user asked to stop
         self._error: str | None = None
+        self._solving: str | None = None   # "align" or "fit" while a solver runs
+        self.time_span_ms: float | None = None   # the time views' span (None: until settled)
+        self.pair: tuple[int, int] | None = None  # the difference views' bands (None: auto)
+        self._solve_cancel = False
+        self._told_mates = False           # the nudge's note on crossover points, once
 
     # -- layout ---------------------------------------------------------------------------
 
@@ -184,6 +207,7 @@ class CrossplanApp(App):
                 yield ChainList(id="chain")
                 yield FilterForm(id="filter-form")
                 yield BandForm(id="band-form")
+                yield DriverForm(id="driver-form")
             with Vertical(id="right"):
                 yield PlotView(color=not self.no_color, id="plot")
                 yield Readout(id="readout")
@@ -195,7 +219,13 @@ class CrossplanApp(App):
         await self.show_project()
         self.query_one(ChainList).focus()
         self.files.notices(self._notices)
-        self.run_worker(self.files.offer_restore(), exclusive=False)
+        self.run_worker(self._start_questions(), exclusive=False)
+
+    async def _start_questions(self) -> None:
+        # The safety notice comes first; the autosave's question after it is dismissed.
+        if self._safety_notice:
+            await self.push_screen_wait(SafetyScreen())
+        await self.files.offer_restore()
 
     # -- state ----------------------------------------------------------------------------
 
@@ -233,6 +263,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band)
         for screen in self.screen_stack:
             if isinstance(screen, SettingsScreen):
                 screen.show(p)
@@ -376,7 +407,8 @@ class CrossplanApp(App):
                 self.query_one(PlotView).data = data
                 self.query_one(Readout).update(f"no {self.view} response: {e}")
                 return
-        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz, impulse)
+        data = views.plot_data(self.report, self.view, self.band_i, self.cursor_hz, impulse,
+                               self.time_span_ms, self.pair)
         self.query_one(PlotView).data = data
         self.query_one(Readout).show(data)
 
@@ -405,6 +437,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band)
         self.show_plot()
 
     @on(ChainList.OptionSelected, "#chain")
@@ -432,7 +465,7 @@ class CrossplanApp(App):
     async def _field_edited(self, event: FieldRow.Edited) -> None:
         event.stop()
         form = self.screen if event.target == "settings" else \
-            self.query_one(BandForm if event.target == "band" else FilterForm)
+            self.query_one({"band": BandForm, "driver": DriverForm}.get(event.target, FilterForm))
         try:
             new, label = self._apply_field(event.target, event.field, event.text)
         except CrossplanError as e:
@@ -442,6 +475,10 @@ class CrossplanApp(App):
             self.notify(f"refused: {e.message}", severity="warning", timeout=6)
             return
         old = self.project
+        point = self._mate_point(event.target, event.field)
+        if point is not None:
+            self._offer_mates(old, new, label, point)
+            return
         await self.commit(new, label)
         for note in _range_notes(new, event.target, event.field, self.band_i, self.filter_i):
             self.notify(f"note: {note}", severity="warning", timeout=8)
@@ -449,6 +486,71 @@ class CrossplanApp(App):
                 and event.field == "sample_rate":
             self.notify(f"'to' lowered to the new Nyquist frequency, "
                         f"{units.format(new.analysis.f_max, 'Hz', 6)}")
+
+    def _mate_point(self, target: str, name: str):
+        """The crossover point the selected filter belongs to with other filters, when its
+        frequency is the field being edited (else None)."""
+        if target != "filter" or name != "freq" or self.filter_i is None:
+            return None
+        i, j = self.band_i, self.filter_i
+        for pt in crossover_points(self.project):
+            if any(m.band == i and m.filter == j for m in pt.members) and len(pt.members) > 1:
+                return pt
+        return None
+
+    @work(exclusive=True, group="mates")
+    async def _offer_mates(self, old: Project, new: Project, label: str, point) -> None:
+        """Ask whether the rest of a crossover point moves with the filter typed into."""
+        i, j = self.band_i, self.filter_i
+        freq = new.bands[i].filters[j].params["freq"]
+        others = [f"{old.bands[m.band].name} {fk.label(old.bands[m.band].filters[m.filter])}"
+                  for m in point.members if (m.band, m.filter) != (i, j)]
+        answer = await self.push_screen_wait(ChoiceScreen(
+            f"This filter is one side of the crossover at {units.format_hz(point.freq_hz)}. "
+            f"Move the rest of it to {units.format_hz(freq)} too ({'; '.join(others)})?",
+            [("y", "yes", "Move them all"), ("n", "no", "Only this one")]))
+        if answer is None or self.project is not old:
+            await self.show_project()   # nothing applied: the field shows the project again
+            return
+        if answer == "yes":
+            try:
+                new = move_crossover(old, point, freq)
+            except CrossplanError as e:
+                self.notify(f"refused: {e}", severity="warning", timeout=6)
+                await self.show_project()
+                return
+            label = f"move crossover {units.format_hz(point.freq_hz)} -> {units.format_hz(freq)}"
+        await self.commit(new, label)
+        for note in _range_notes(new, "filter", "freq", i, j):
+            self.notify(f"note: {note}", severity="warning", timeout=8)
+
+    @work(exclusive=True, group="mates")
+    async def action_move_crossover(self) -> None:
+        """Pick a crossover point and type its new frequency: every filter of it moves."""
+        points = crossover_points(self.project)
+        if not points:
+            self.notify("no crossover points: a lowpass and a highpass at one frequency in "
+                        "two bands make one", timeout=5)
+            return
+        p = self.project
+        k = await self.push_screen_wait(PickScreen("Move which crossover?",
+                                                   [pt.describe(p) for pt in points], 0))
+        if k is None:
+            return
+        pt = points[k]
+        text = await self.push_screen_wait(PathScreen(
+            f"New frequency for the crossover at {units.format_hz(pt.freq_hz)} "
+            f"(e.g. 2.5k):", units.format(pt.freq_hz, "Hz", 6)))
+        if not text:
+            return
+        try:
+            freq = units.parse(text, "Hz", "freq")
+            new = move_crossover(self.project, pt, freq)
+        except CrossplanError as e:
+            self.notify(f"refused: {e}", severity="warning", timeout=6)
+            return
+        await self.commit(new, f"move crossover {units.format_hz(pt.freq_hz)} -> "
+                               f"{units.format_hz(freq)}")
 
     @on(FieldRow.Pick)
     def _pick_wanted(self, event: FieldRow.Pick) -> None:
@@ -515,6 +617,8 @@ class CrossplanApp(App):
                 value = int(value)
             return edits.set_analysis(p, **{name: value}), f"analysis {name}"
         band = p.bands[self.band_i]
+        if target == "driver":
+            return _driver_edit(p, self.band_i, name, text), f"{band.name} driver {name}"
         if target == "band":
             if name == "name":
                 value: object = text.strip()
@@ -541,7 +645,7 @@ class CrossplanApp(App):
     def _scope(self) -> str:
         w = self.focused
         while w is not None:
-            if isinstance(w, (BandList, BandForm)):
+            if isinstance(w, (BandList, BandForm, DriverForm)):
                 return "band"
             if isinstance(w, (ChainList, FilterForm)):
                 return "filter"
@@ -639,6 +743,10 @@ class CrossplanApp(App):
             self.notify("the selected filter has no frequency to nudge", timeout=3)
             return
         new = round(f.params["freq"] * 2 ** (steps * _STEP_OCT), 2)
+        if not self._told_mates and self._mate_point("filter", "freq") is not None:
+            self._told_mates = True
+            self.notify("this moves one side of a crossover only; k moves the whole point",
+                        timeout=6)
         i, j = self.band_i, self.filter_i
         await self._try(lambda p: edits.set_filter_params(p, i, j, freq=new),
                         f"nudge freq {units.format(new, 'Hz', 4)}")
@@ -671,10 +779,43 @@ class CrossplanApp(App):
         self.cursor_hz = min(max(self.cursor_hz * 2 ** (steps * _STEP_OCT), a.f_min), a.f_max)
         self.show_plot()
 
+    def action_zoom(self, factor: float) -> None:
+        """Time views: show ``factor`` times the time span (0.5 zooms in)."""
+        if self.view not in views.TIME_VIEWS or self.report is None:
+            self.notify("z / Z zoom the impulse and step views (v steps to them)", timeout=3)
+            return
+        tr = self._impulse()
+        full = float(tr.time_ms[-1])
+        now = self.time_span_ms or float(views.time_series(tr)[0].x[-1])
+        self.time_span_ms = min(max(now * factor, 0.05), full)
+        self.show_plot()
+
+    @work(exclusive=True, group="pick")
+    async def action_pick_pair(self) -> None:
+        """Pick the two bands the difference views compare (and show the phase difference)."""
+        if self.report is None:
+            return
+        pairs = views.crossing_pairs(self.report)
+        if not pairs:
+            self.notify("no two bands cross", timeout=3)
+            return
+        names = [b.name for b in self.project.bands]
+        k = await self.push_screen_wait(PickScreen(
+            "Difference views: which pair?",
+            [f"{names[a]} / {names[b]} at {units.format_hz(f)}" for a, b, f in pairs]))
+        if k is None:
+            return
+        self.pair = pairs[k][:2]
+        if self.view not in ("phase difference", "level difference"):
+            self.view = "phase difference"
+            self._show_title()
+        self.show_plot()
+
     def action_view(self, step: int) -> None:
         """Next (or previous) plot view."""
-        k = views.VIEWS.index(self.view)
-        self.view = views.VIEWS[(k + step) % len(views.VIEWS)]
+        seq = views.views_for(self.project)
+        k = seq.index(self.view) if self.view in seq else 0
+        self.view = seq[(k + step) % len(seq)]
         self._show_title()
         self.show_plot()
 
@@ -710,7 +851,108 @@ class CrossplanApp(App):
     def action_reanalyse(self) -> None:
         self.request_analysis()
 
+    def check_action(self, action: str, parameters: tuple) -> bool | None:
+        """Leave "back" out (of the footer too) where it does nothing: it is there inside a
+        field, in the warnings, and while a design or a search runs."""
+        if action == "back":
+            busy = self._solving or self._designing
+            return bool(busy or isinstance(self.focused, (Input, WarningList)))
+        return True
+
+    # -- solvers --------------------------------------------------------------------------
+
+    def action_solve(self, kind: str, bank: str | None = None) -> None:
+        """Run ``align`` or ``fit`` (flat target) in a worker; Escape cancels it."""
+        if self._solving:
+            self.notify(f"{self._solving} is running (Escape stops it)", timeout=3)
+            return
+        self._solving, self._solve_cancel = kind, False
+        self.refresh_bindings()
+        self._solve_progress(0.0, f"{kind}: starting")
+        self._solve(kind, self.project, self.band_i, bank)
+
+    _SOLVE_HINT = "(Escape stops the search; the project is not changed)"
+
+    def _solve_progress(self, fraction: float, text: str) -> None:
+        if self._solving:
+            self.query_one(CheckBar).show(None, progress=(fraction, text or self._solving),
+                                          hint=self._SOLVE_HINT, doing="searching")
+
+    @work(thread=True, exclusive=True, group="solve")
+    def _solve(self, kind: str, project: Project, band: int, bank: str | None) -> None:
+        # The solvers are imported when first used (start-up time).
+        from planner.solve import alignment, eqfit
+        from planner.targets import parse_target
+
+        shown = [-1]
+
+        def report(fraction: float, text: str) -> None:
+            if int(fraction * 100) != shown[0]:
+                shown[0] = int(fraction * 100)
+                self.call_from_thread(self._solve_progress, fraction, text)
+
+        try:
+            with progress.scope(report=report, cancel=lambda: self._solve_cancel):
+                if kind == "align":
+                    result = alignment.align(project)
+                else:
+                    result = eqfit.fit(project, parse_target("flat"),
+                                       bands=[band] if bank else None, bank=bank)
+        except DesignCancelled:
+            result = None
+        except CrossplanError as e:
+            self.call_from_thread(self._solve_done, kind, project, None, e)
+            return
+        self.call_from_thread(self._solve_done, kind, project,
+                              None if self._solve_cancel else result, None)
+
+    @work(exclusive=True, group="solve-preview")
+    async def _solve_done(self, kind: str, project: Project, result,
+                          error: CrossplanError | None) -> None:
+        self._solving = None
+        self.refresh_bindings()
+        self.query_one(CheckBar).show(self._check_lines())
+        if error is not None:
+            if kind == "fit" and (error.field or "") == "bands" and "no EQ gains" in str(error):
+                band = project.bands[self.band_i].name
+                answer = await self.push_screen_wait(ChoiceScreen(
+                    f"The bands have no EQ filters to fit. Add a third-octave bank of 0 dB "
+                    f"peaking filters to {band!r} and fit those?",
+                    [("y", "yes", "Add and fit")]))
+                if answer == "yes":
+                    self.action_solve("fit", bank="third-octave")
+                return
+            self.notify(f"{kind}: {error}", severity="warning", timeout=8)
+            return
+        if result is None:
+            self.notify(f"{kind} stopped: the project is not changed", timeout=4)
+            return
+        if project is not self.project:
+            self.notify(f"{kind}: the project was edited during the search; its result is "
+                        "dropped (run it again)", severity="warning", timeout=6)
+            return
+        if kind == "align" and not result.improved:
+            self.notify("align: no better alignment within the bounds; nothing to change",
+                        timeout=6)
+            return
+        title = ("Align: band delays and polarities" if kind == "align"
+                 else f"Fit EQ: gains for a {result.target.name} sum")
+        ok = await self.push_screen_wait(SolveScreen(title, views.solve_preview(kind, result)))
+        if ok and project is self.project:
+            await self.commit(result.project, "align" if kind == "align" else "fit EQ")
+            self.notify(f"{kind} applied (ctrl+z undoes it)", timeout=4)
+        elif ok:
+            self.notify(f"{kind}: the project changed while the preview was open; not "
+                        "applied (run it again)", severity="warning", timeout=6)
+        else:
+            self.notify(f"{kind}: not applied; the project is as it was", timeout=3)
+
     def action_back(self) -> None:
+        if self._solving:
+            self._solve_cancel = True
+            self.query_one(CheckBar).show(None, progress=(0.0, "stopping ..."),
+                                          hint=self._SOLVE_HINT, doing="searching")
+            return
         if self._designing:
             self._cancel_gen = self._gen
             self.query_one(CheckBar).show(None, progress=(0.0, "cancelling ..."))
@@ -879,6 +1121,24 @@ def _parse_field(spec, text: str):
     return v
 
 
+def _driver_edit(p: Project, i: int, name: str, text: str) -> Project:
+    """A typed driver field as an edit: the model or file (empty: no driver), or a field."""
+    t = text.strip()
+    if name == "model":
+        return edits.set_driver_source(p, i, model=t or None)
+    if name == "file":
+        return edits.set_driver_source(p, i, file=t or None)
+    d = p.bands[i].driver
+    spec = next((s for s in driver_fields(d.model if d else None) if s.name == name), None)
+    if spec is None:
+        raise ProjectError("is not a field of this driver", field=name)
+    if spec.rule == "choice":
+        return edits.set_driver(p, i, **{name: t or None})
+    value = _parse_field(spec, text) if spec.unit != "mm" else \
+        (None if not t else units.parse(t.removesuffix("mm").strip(), "", name))
+    return edits.set_driver(p, i, **{name: value})
+
+
 def _with_family(p: Project, i: int, j: int, type_: str, family: str,
                  order: int | None) -> Project:
     """Filter ``j`` of band ``i`` made ``family`` (and ``order``, when given): one edit."""
@@ -910,7 +1170,9 @@ def help_text(app: App) -> str:
     for c in ACTIONS:
         keys = ", ".join(app.get_key_display(Binding(k, ""))
                          for k in filter(None, (c.keys + "," + c.also).split(",")))
-        lines.append(f"  {keys or '(palette)':<18} {c.title} - {c.help}")
+        # wrapped with the continuation under the title (the help box is about 70 wide)
+        lines += textwrap.wrap(f"{keys or '(palette)':<12} {c.title} - {c.help}", 66,
+                               initial_indent="  ", subsequent_indent=" " * 15)
     lines += [
         "  tab / shift+tab    next / previous panel or field",
         "  up / down          select a band or filter",
@@ -945,7 +1207,8 @@ def run_editor(project: Project, path: str | None, fingerprint=None,
     """Run the editor on ``project`` (from ``path``, or None for the demo); return an exit code.
 
     ``fingerprint`` is the file's as it was read (:func:`planner.project.read`), so that a
-    save notices a change made meanwhile; ``notices`` are the loader's, shown on start.
+    save notices a change made meanwhile; ``notices`` are the loader's, shown on start. The
+    safety notice is shown first.
     """
-    result = CrossplanApp(project, path, fingerprint, notices).run()
+    result = CrossplanApp(project, path, fingerprint, notices, safety_notice=True).run()
     return int(result or 0)

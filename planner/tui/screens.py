@@ -18,8 +18,39 @@ from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SettingsScreen",
+__all__ = ["SafetyScreen", "SAFETY_NOTICE", "HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SolveScreen", "SettingsScreen",
            "CompareScreen"]
+
+
+#: The notice shown when the editor starts (common practice in the trade; no published source).
+SAFETY_NOTICE = (
+    "Before you play anything through these filters:\n\n"
+    "- Start quiet: every new filter set at low volume, then raise it slowly.\n"
+    "- Protect tweeters: a series capacitor or a highpass in place before any test; a "
+    "missing or bypassed highpass can destroy one in seconds.\n"
+    "- Beware of boosts (EQ, shelves, a Linkwitz transform) and of test signals: sweeps and "
+    "noise carry a lot of energy.\n"
+    "- Keep within the driver and amplifier manufacturers' limits and your local "
+    "regulations on sound levels and hearing protection.\n\n"
+    "Any key goes on to the editor (? shows this again)."
+)
+
+
+class SafetyScreen(ModalScreen[None]):
+    """The safety notice at start; any key dismisses it (and does nothing else)."""
+
+    def compose(self) -> ComposeResult:
+        with Vertical(id="safety-box") as box:
+            box.border_title = "Safety first"
+            yield Static(SAFETY_NOTICE, id="safety-text", markup=False)
+
+    def on_key(self, event) -> None:
+        event.stop()
+        event.prevent_default()
+        self.dismiss(None)
+
+    def on_click(self) -> None:
+        self.dismiss(None)
 
 
 class HelpScreen(ModalScreen[None]):
@@ -56,8 +87,9 @@ class ChoiceScreen(ModalScreen[str | None]):
             yield Label(self._question, id="choice-question", markup=False)
             with Horizontal(id="choice-buttons"):
                 for key, value, label in self._answers:
-                    yield Button(f"{label} [{key}]", id=f"answer-{value}")
-                yield Button("Cancel [esc]", id="answer-cancel")
+                    # "(y)", not "[y]": square brackets would be read as markup
+                    yield Button(f"{label} ({key})", id=f"answer-{value}")
+                yield Button("Cancel (esc)", id="answer-cancel")
 
     def on_key(self, event) -> None:
         for key, value, _ in self._answers:
@@ -148,6 +180,41 @@ class PickScreen(ModalScreen[int | None]):
 
     def action_cancel(self) -> None:
         self.dismiss(None)
+
+
+class SolveScreen(ModalScreen[bool]):
+    """A solver's result before it is applied: Enter (or y) applies it as one edit that
+    ctrl+z undoes; Escape (or n) leaves the project as it is. Answers True to apply."""
+
+    BINDINGS = [Binding("escape,n", "reject", "Keep the project as it is"),
+                Binding("enter,y", "accept", "Apply")]
+
+    def __init__(self, title: str, text: str) -> None:
+        super().__init__()
+        self._title = title
+        self._text = text
+
+    def compose(self) -> ComposeResult:
+        with VerticalScroll(id="solve-box") as box:
+            box.border_title = self._title
+            yield Static(self._text, id="solve-text", markup=False)
+            yield Label("Enter/y: apply (one edit; ctrl+z undoes it)   Escape/n: keep as is",
+                        classes="hint")
+
+    def on_mount(self) -> None:
+        self.query_one("#solve-box").focus()
+
+    def on_key(self, event) -> None:
+        # Letters other than y/n do nothing here (never the editor's single-letter keys).
+        if event.character and event.character.isprintable() and event.key not in ("y", "n"):
+            event.stop()
+            event.prevent_default()
+
+    def action_accept(self) -> None:
+        self.dismiss(True)
+
+    def action_reject(self) -> None:
+        self.dismiss(False)
 
 
 #: (field, label, unit) of the settings screen; "sample_rate" is the project's rate.

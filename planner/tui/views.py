@@ -19,19 +19,29 @@ from planner.timeresp import impulse_responses
 from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
-__all__ = ["VIEWS", "TIME_VIEWS", "PlotData", "impulse_of", "plot_data", "crossing_pair",
-           "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
-           "arith_warning_items"]
+__all__ = ["VIEWS", "DRIVER_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
+           "crossing_pairs", "phase_hint", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
+           "arith_warning_items", "solve_preview"]
 
 #: The plot views, in the order the view key steps through them.
-VIEWS = ("magnitude", "phase", "delay", "phase difference", "level difference", "impulse",
-         "step")
+VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis",
+         "phase difference", "level difference", "impulse", "step")
+
+#: The views that need drivers (the acoustic sum): left out while no band has one.
+DRIVER_VIEWS = ("electrical", "drivers", "offaxis")
 
 #: The views drawn against time (ms) rather than frequency.
 TIME_VIEWS = ("impulse", "step")
 
 #: How far the difference views reach either side of their crossing (octaves).
 _DIFF_SPAN_OCT = 2.0
+
+
+def views_for(project) -> tuple[str, ...]:
+    """The views the view key steps through for ``project`` (no driver views without drivers)."""
+    if any(b.driver is not None for b in project.bands):
+        return VIEWS
+    return tuple(v for v in VIEWS if v not in DRIVER_VIEWS)
 
 
 @dataclass(frozen=True, eq=False)
@@ -46,15 +56,44 @@ class PlotData:
     cursor_hz: float
     hline: float | None
     time: bool = False          # x is time in ms (impulse, step), else frequency in Hz
+    hint: str | None = None     # the engine's advice for the pair shown (difference views)
 
 
-def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
+def phase_hint(r: Report, a: int, b: int) -> str | None:
+    """The engine's advice for the crossing of bands ``a`` and ``b`` when it is outside its
+    limit (what to delay, and by how much), as the warnings word it; None when in phase."""
+    na, nb = r.project.bands[a].name, r.project.bands[b].name
+    for w in r.warnings:
+        if w.code == "phase" and w.text.startswith(f"bands {na} and {nb} "):
+            return w.text
+    return None
+
+
+def crossing_pairs(r: Report) -> list[tuple[int, int, float]]:
+    """Every pair of bands that cross, once, with its crossing frequency (checked crossings
+    first, then the rest), for picking the pair the difference views show."""
+    out, seen = [], set()
+    for c in sorted(r.crossings, key=lambda c: (not c.checked, c.freq_hz)):
+        if c.band_index not in seen:
+            seen.add(c.band_index)
+            out.append((*c.band_index, c.freq_hz))
+    return out
+
+
+def crossing_pair(r: Report, band: int, pair: tuple[int, int] | None = None
+                  ) -> tuple[int, int, float | None]:
     """The two bands the difference views compare, for the selected ``band``.
 
     The crossing of ``band`` with the largest phase difference (checked
     crossings first); without one, ``band`` and its neighbour. Returns
     ``(a, b, crossing_hz or None)`` with ``a`` before ``b`` in project order.
     """
+    n = len(r.project.bands)
+    if pair is not None and all(0 <= k < n for k in pair) and pair[0] != pair[1]:
+        a, b = sorted(pair)
+        at = [c for c in r.crossings if c.band_index == (a, b)]
+        at.sort(key=lambda c: (not c.checked, -abs(c.phase_diff_deg)))
+        return a, b, at[0].freq_hz if at else None
     mine = [c for c in r.crossings if band in c.band_index]
     mine.sort(key=lambda c: (not c.checked, -abs(c.phase_diff_deg)))
     if mine:
@@ -67,7 +106,8 @@ def crossing_pair(r: Report, band: int) -> tuple[int, int, float | None]:
     return min(band, other), max(band, other), None
 
 
-def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -> PlotData:
+def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None,
+              span_ms: float | None = None, pair: tuple[int, int] | None = None) -> PlotData:
     """The series, unit, range and marks of ``view`` (one of :data:`VIEWS`).
 
     The time views need ``impulse``, the report's
@@ -78,16 +118,21 @@ def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -
         if impulse is None:
             raise ValueError(f"the {view} view needs the impulse responses")
         tr = impulse if view == "impulse" else impulse.step()
-        series = time_series(tr)
-        return PlotData(tuple(series), "", None, f"{view} response (time in ms)", (),
+        series = time_series(tr, span_ms)
+        span = f"first {span_ms:.3g} ms" if span_ms else "time in ms"
+        return PlotData(tuple(series), "", None, f"{view} response ({span}; z/Z zoom)", (),
                         cursor_hz, None, time=True)
-    if view in ("magnitude", "phase", "delay"):
+    if view in ("magnitude", "phase", "delay") + DRIVER_VIEWS:
         series, unit, ylim = view_series(r, view)
-        return PlotData(tuple(series), unit, ylim, f"{view} ({unit})", marks, cursor_hz,
-                        0.0 if view == "magnitude" else None)
+        title = {"offaxis": f"off-axis sum ({unit})", "drivers": f"drivers alone ({unit})",
+                 "electrical": f"electrical, no drivers ({unit})"}.get(view, f"{view} ({unit})")
+        if not series:
+            title = f"{view}: no drivers in this project"
+        return PlotData(tuple(series), unit, ylim, title, marks, cursor_hz,
+                        0.0 if view in ("magnitude", "electrical", "offaxis") else None)
     if view not in VIEWS:
         raise ValueError(f"view must be one of {', '.join(VIEWS)}, not {view!r}")
-    a, b, fc = crossing_pair(r, band)
+    a, b, fc = crossing_pair(r, band, pair)
     f = r.freqs_hz
     na, nb = r.project.bands[a].name, r.project.bands[b].name
     if a == b:
@@ -106,7 +151,8 @@ def plot_data(r: Report, view: str, band: int, cursor_hz: float, impulse=None) -
         unit, ylim, label = "dB", (-24.0, 24.0), f"{na} - {nb} level"
     s = Series(label, f[keep], y[keep], bold=True)
     return PlotData((s,), unit, ylim, f"{na} - {nb} {where} ({unit})",
-                    tuple(m for m in ((fc,) if fc else ())), cursor_hz, 0.0)
+                    tuple(m for m in ((fc,) if fc else ())), cursor_hz, 0.0,
+                    hint=phase_hint(r, a, b))
 
 
 def _at(s: Series, f_hz: float) -> float:
@@ -153,7 +199,8 @@ def readout(d: PlotData) -> str:
         label = s.label.replace(" (off)", "")
         parts.append(f"{label} {_r1(v):+.1f}" if np.isfinite(v) else f"{label} --")
     unit = f" {d.unit}" if d.unit else ""
-    return f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
+    text = f"at {format_hz(d.cursor_hz)}{unit}: " + " ".join(parts)
+    return text + (f"\n{d.hint}" if d.hint else "")
 
 
 def check_lines(r: Report) -> tuple[str, str, str]:
@@ -234,3 +281,65 @@ def arith_warning_items(rx) -> list[WarningItem]:
                 f"the chain, above full scale in {rx.arith.name}; attenuate its input by "
                 f"{b.peak_internal_gain_db:.1f} dB (export --pre-attenuate does it)", i, None))
     return out
+
+
+def _worst(r: Report) -> tuple[str, str]:
+    """The worst crossing's phase (``"+21.7 deg"``) and where (``"mid/tweeter 3 kHz"``)."""
+    w = r.worst_crossing
+    if w is None:
+        return "none", ""
+    return f"{w.phase_diff_deg:+.1f} deg", f"{w.bands[0]}/{w.bands[1]} {format_hz(w.freq_hz)}"
+
+
+def _fit_changes(f) -> list[str]:
+    """``"tweeter peak 7.5 kHz: gain -0.80 -> -0.34 dB"`` for every fitted gain that moved."""
+    old = f.before.project
+    out = []
+    for label, name, g in zip(f.labels, f.names, f.gains_db):
+        # names are "bands[i].filters[j].gain_db" or "bands[i].gain_db"
+        parts = name.replace("]", "").replace("[", ".").split(".")
+        i = int(parts[1])
+        g0 = old.bands[i].filters[int(parts[3])].params["gain_db"] if "filters" in name \
+            else old.bands[i].gain_db
+        if abs(g - g0) > 5e-3:
+            out.append(f"{label}: gain {g0:+.2f} -> {g:+.2f} dB")
+    return out
+
+
+def solve_preview(kind: str, result) -> str:
+    """What a solver would change, before and after, for the editor's preview.
+
+    ``kind`` is ``"align"`` (an :class:`planner.solve.alignment.Alignment`)
+    or ``"fit"`` (an :class:`planner.solve.eqfit.Fit`). Lines: the sum's
+    flatness and the worst crossing before and after, each check's state,
+    then the changes per band.
+    """
+    b, a = result.before, result.after
+    lim = b.project.analysis
+    (wb, at_b), (wa, at_a) = _worst(b), _worst(a)
+    lines = [f"{'':18}{'before':>14}{'after':>14}",
+             f"{'sum flatness':18}{b.max_dev_db:>+11.2f} dB{a.max_dev_db:>+11.2f} dB"
+             f"   limit +/-{lim.flatness_db:g} dB",
+             f"{'worst crossing':18}{wb:>14}{wa:>14}   limit {lim.phase_deg:g} deg",
+             (f"{'':18}at {at_a or at_b}" if at_a == at_b or not (at_a and at_b)
+              else f"{'':18}at {at_b}, then at {at_a}") if (at_b or at_a) else "",
+             f"{'checks':18}{'ok' if b.ok else 'FAIL':>14}{'ok' if a.ok else 'FAIL':>14}"]
+    lines = [ln for ln in lines if ln]
+    if kind == "fit":
+        lines.insert(2, f"{'largest error':18}{result.before_max_db:>+11.2f} dB"
+                        f"{result.max_error_db:>+11.2f} dB   target {result.target.name}")
+        changes = _fit_changes(result)
+    else:
+        changes = list(result.changes)
+    lines.append("")
+    lines.append("changes:" if changes else "changes: none")
+    lines += [f"  {c}" for c in changes]
+    extra = getattr(result, "at_bounds", None) or getattr(result, "at_limits", None)
+    if extra:
+        lines.append("stopped by its bounds:")
+        lines += [f"  {x}" for x in extra]
+    up = [n for n0, n in zip(b.project.bands, result.project.bands) if n.gain_db > n0.gain_db + 1e-6]
+    boost = kind == "fit" and max((float(g) for g in result.gains_db), default=0.0) > 0
+    if up or boost:
+        lines.append("note: a level goes up; check the headroom and start quiet.")
+    return "\n".join(lines)

@@ -20,13 +20,14 @@ from textual.widgets import Input, Label, OptionList, Static
 from textual.widgets.option_list import Option
 
 from planner import filters as fk, units
+from planner.drivers import MODELS, driver_fields
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
 from planner.present.plots import Canvas, freq_canvas, time_canvas
 from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
-__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "FilterForm",
+__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "DriverForm", "FilterForm",
            "PlotView", "Readout", "CheckBar", "WarningList", "field_text"]
 
 
@@ -244,6 +245,33 @@ class BandForm(_Form):
         await self.set_rows(("band",), rows)
 
 
+class DriverForm(_Form):
+    """The selected band's driver: a model (closed-box, vented-box, tweeter, flat) or a
+    measurement file, then its fields (resonance, offset in mm, ...). Empty model and file:
+    no driver (the check is electrical)."""
+
+    target = "driver"
+
+    async def show(self, index: int, band: Band) -> None:
+        d = band.driver
+        raw = dict(d.raw) if d is not None else {}
+        model = raw.get("model")
+        self.border_title = ("Driver: none (electrical sum)" if d is None else
+                             f"Driver: {model or 'measured'}")
+        rows = [FieldRow("driver", "model", "model", str(model or ""), list(MODELS),
+                         "a model: " + ", ".join(MODELS) + " (empty: none)"),
+                FieldRow("driver", "file", "file", str(raw.get("file") or ""), (),
+                         "a measurement file (freq_hz level_db [phase_deg] lines), relative "
+                         "to the project file")]
+        specs = driver_fields(model) if d is not None else ()
+        for sp in specs:
+            unit = f" {sp.unit}" if sp.unit and sp.rule not in ("freq", "db") else ""
+            rows.append(FieldRow("driver", sp.name, _short(sp.name) + unit,
+                                 field_text(sp.rule, sp.unit, raw.get(sp.name)),
+                                 [str(c) for c in sp.choices], sp.help))
+        await self.set_rows(("driver", model, d is None, tuple(sp.name for sp in specs)), rows)
+
+
 class FilterForm(_Form):
     """Type, family and the fields (from the filter registry) of the selected filter."""
 
@@ -275,7 +303,10 @@ class FilterForm(_Form):
 
 
 #: Form labels of fields whose names are longer than the label column (8 cells).
-_SHORT = {"gain_db": "gain", "crossovers": "x-overs", "transition_hz": "transit",
+_SHORT = {"offset_mm": "offset", "position_mm": "height", "sensitivity_db": "sens",
+          "resonance_hz": "res", "rolloff_hz": "rolloff", "rolloff_order": "r-order",
+          "breakup_hz": "breakup", "breakup_db": "brk gain", "breakup_q": "brk q",
+          "min_phase": "minphase", "extrapolate": "extrap", "gain_db": "gain", "crossovers": "x-overs", "transition_hz": "transit",
           "atten_db": "atten", "ripple_db": "ripple", "max_taps": "max taps",
           "pass_hz": "pass", "stop_hz": "stop"}
 
@@ -376,9 +407,10 @@ class Readout(Static):
 # -- checks ---------------------------------------------------------------------------------
 
 def progress_text(fraction: float, text: str,
-                  hint: str = "(Escape cancels; the edit is then undone)") -> str:
+                  hint: str = "(Escape cancels; the edit is then undone)",
+                  doing: str = "designing") -> str:
     """``"designing [#####-----]  50% FIR lowpass ...: fewest taps"`` and, below, ``hint``."""
-    return f"designing {bar_text(fraction, text)}\n{hint}"
+    return f"{doing} {bar_text(fraction, text)}\n{hint}"
 
 
 class CheckBar(Static):
@@ -388,9 +420,11 @@ class CheckBar(Static):
         super().__init__("analysing ...", markup=False, **kw)
 
     def show(self, lines: tuple[str, ...] | None, busy: bool = False, error: str | None = None,
-             progress: tuple[float, str] | None = None) -> None:
+             progress: tuple[float, str] | None = None, hint: str | None = None,
+             doing: str = "designing") -> None:
         if progress is not None:
-            self.update(progress_text(*progress))
+            self.update(progress_text(*progress, doing=doing) if hint is None
+                        else progress_text(*progress, hint=hint, doing=doing))
             self.set_class(False, "-fail")
             return
         if error:

@@ -40,7 +40,7 @@ async def test_typing_2_5k_sets_the_crossover_and_the_checks_follow():
         before = screen_text(app)
         old_cross = app.report.worst_crossing
         await goto_freq_field(app, pilot)
-        await pilot.press(*"2.5k", "enter")
+        await pilot.press(*"2.5k", "enter", "n")   # n: only this side of the crossover
         await settle(app, pilot)
         assert app.project.bands[0].filters[1].params["freq"] == 2500.0
         assert app.history.dirty
@@ -111,7 +111,7 @@ async def test_undo_and_redo():
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         await goto_freq_field(app, pilot)
-        await pilot.press(*"2.5k", "enter")
+        await pilot.press(*"2.5k", "enter", "n")   # n: only this side of the crossover
         await settle(app, pilot)
         await pilot.press("ctrl+z")
         await settle(app, pilot)
@@ -128,7 +128,7 @@ async def test_save_then_reload_gives_the_same_project(two_way_file):
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         await goto_freq_field(app, pilot)
-        await pilot.press(*"2.5k", "enter")
+        await pilot.press(*"2.5k", "enter", "n")   # n: only this side of the crossover
         await settle(app, pilot)
         app.query_one("#bands").focus()
         await pilot.press("i")               # invert the woofer
@@ -292,7 +292,7 @@ async def test_views_cycle_and_the_cursor_reads_values():
             await pilot.press("v")
             assert app.view == expected
             if expected != "magnitude":
-                assert f"{expected} response (time in ms)" in screen_text(app)
+                assert f"{expected} response (time in ms; z/Z zoom)" in screen_text(app)
                 assert "peak ms/value: woofer" in screen_text(app)
 
 

@@ -79,6 +79,10 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
     cmd = f"cd {tmp_path} && {EXE} two-way.json; echo EXITED-$?; sleep 30"
     _tmux("new-session", "-d", "-s", name, "-x", "80", "-y", "24", cmd)
     try:
+        screen = _wait_until(name, lambda s: "Safety first" in s or "━Chain: woofer" in s,
+                             "the safety notice or the editor")
+        if "Safety first" in screen:                  # the notice at start: any key goes on
+            _send(name, "Space")
         _wait_for(name, "sum ")                       # the editor is up and has analysed
         _wait_for(name, "━Chain: woofer")             # ... with the chain focused
         _send(name, "Down")                           # filter 2 of the woofer
@@ -89,6 +93,10 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
         _send(name, "2.5k", literal=True)
         _wait_until(name, lambda s: "2.5k" in _line(s, "freq"), "2.5k typed in the freq field")
         _send(name, "Enter")
+        screen = _wait_until(name, lambda s: "LR4 lowpass 2.5 kHz" in s or "Move the rest" in s,
+                             "the new label, or the question about the crossover's other side")
+        if "Move the rest" in screen:                 # only this side: n
+            _send(name, "n")
         screen = _wait_for(name, "LR4 lowpass 2.5 kHz")
         assert "[modified]" in screen
         _send(name, "C-s")

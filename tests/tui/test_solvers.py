@@ -1,0 +1,165 @@
+"""The solvers in the editor: align and fit EQ run in a worker with progress and a cancel
+key, show a before/after preview, and apply as one undoable edit (Pilot at 80x24).
+
+The preset "three-way" aligns by delaying woofer and mid a little (about 0.017 ms); the
+preset "two-way" has one EQ filter (the tweeter's peaking EQ at 7.5 kHz) for the fit.
+"""
+
+import numpy as np
+import pytest
+from scipy import signal
+
+from planner import engine
+from planner.tui import views
+from planner.tui.screens import ChoiceScreen, SolveScreen
+
+from tests.tui.test_app import make_app
+from tests.tui.tui_helpers import screen_text, settle
+
+SIZE = (80, 24)
+
+
+async def run_solver(app, pilot, key):
+    if key:
+        await pilot.press(key)
+    await pilot.pause()
+    jobs = [w for w in app.workers if w.group == "solve"]
+    if jobs:   # an empty list would wait for every worker, the preview's too
+        await app.workers.wait_for_complete(jobs)
+    for _ in range(20):
+        await pilot.pause(0.05)
+        if isinstance(app.screen, (SolveScreen, ChoiceScreen)) or not app._solving:
+            break
+
+
+def scipy_sum_dev_db(report) -> float:
+    """The sum's largest deviation from 0 dB, computed band by band with scipy.signal.sosfreqz
+    (reference library) from the designed sections, gain, polarity and delay."""
+    p = report.project
+    f = report.freqs_hz
+    w = 2 * np.pi * f / p.sample_rate
+    total = np.zeros(len(f), complex)
+    for d, on in zip(report.designs, report.active):
+        if not on:
+            continue
+        _, h = signal.sosfreqz(d.sos, worN=w)
+        total += (h * 10 ** (d.gain_db / 20) * (-1 if d.invert else 1)
+                  * np.exp(-1j * w * d.delay_samples))
+    dev = 20 * np.log10(np.abs(total))
+    return float(dev[np.argmax(np.abs(dev))])
+
+
+async def test_align_previews_then_applies_as_one_edit_that_undo_restores():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await run_solver(app, pilot, "A")
+        assert isinstance(app.screen, SolveScreen)
+        text = screen_text(app)
+        assert "sum flatness" in text and "worst crossing" in text and "delay_ms" in text
+        assert app.project is p0                        # nothing changes before Enter
+        await pilot.press("enter")
+        await settle(app, pilot)
+        new = app.project
+        assert new is not p0 and new.bands[0].delay_ms > 0
+        # the after figure is what an independent sum of the designs gives
+        r = engine.analyse(new)
+        assert r.max_dev_db == pytest.approx(scipy_sum_dev_db(r), abs=0.05)  # 0.05 dB: the
+        # check's own stated accuracy between grid points (README, "the grid")
+        assert abs(r.max_dev_db) < abs(engine.analyse(p0).max_dev_db)
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project is p0                         # one undo restores all of it
+        assert not app.history.can_undo
+
+
+async def test_align_rejected_changes_nothing():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await run_solver(app, pilot, "A")
+        assert isinstance(app.screen, SolveScreen)
+        await pilot.press("escape")
+        await settle(app, pilot)
+        assert app.project is p0 and not app.history.can_undo
+        assert not isinstance(app.screen, SolveScreen)
+
+
+async def test_align_cancelled_changes_nothing_and_shows_no_preview():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        app.query_one("#chain").focus()
+        # The key's actions, back to back in one step (a pilot key press may wait long
+        # enough for the ~2 s search to end): A, then Escape.
+        app.action_solve("align")
+        assert app._solving == "align"
+        assert "Escape stops the search" in str(app.query_one("#checks").render())
+        app.action_back()
+        await run_solver(app, pilot, None)
+        assert not app._solving
+        assert not isinstance(app.screen, SolveScreen)
+        assert app.project is p0 and not app.history.can_undo
+        assert any("align stopped" in n.message for n in app._notifications)
+
+
+async def test_fit_eq_accepted_sets_the_gain_and_undo_restores():
+    app = make_app()                                     # two-way
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await run_solver(app, pilot, "F")
+        assert isinstance(app.screen, SolveScreen)
+        assert "tweeter peak 7.5 kHz: gain" in screen_text(app)
+        await pilot.press("y")
+        await settle(app, pilot)
+        g0 = p0.bands[1].filters[1].params["gain_db"]
+        assert app.project.bands[1].filters[1].params["gain_db"] != g0
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project is p0
+
+
+async def test_fit_without_eq_filters_offers_a_bank_and_no_means_no_change():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        p0 = app.project
+        await run_solver(app, pilot, "F")
+        assert isinstance(app.screen, ChoiceScreen)
+        assert "third-octave bank" in screen_text(app)
+        await pilot.press("escape")
+        await settle(app, pilot)
+        assert app.project is p0
+
+
+def test_the_preview_names_each_change_and_both_figures():
+    from planner import project
+    from planner.solve import alignment
+    a = alignment.align(project.load_preset("two-way"))
+    text = views.solve_preview("align", a)
+    assert f"{a.before.max_dev_db:+.2f} dB" in text and f"{a.after.max_dev_db:+.2f} dB" in text
+    for c in a.changes:
+        assert c in text
+
+
+async def test_an_undo_while_the_preview_is_open_means_nothing_is_applied():
+    app = make_app(name="three-way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        from planner import edits
+        await app.commit(edits.set_name(app.project, "renamed"), "rename")   # one to undo
+        await settle(app, pilot)
+        await run_solver(app, pilot, "A")
+        assert isinstance(app.screen, SolveScreen)
+        await pilot.press("ctrl+z")                         # works on top of the preview
+        await settle(app, pilot)
+        before = app.project
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project is before                        # the result was for another one
+        assert any("changed while the preview was open" in n.message
+                   for n in app._notifications)
