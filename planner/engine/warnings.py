@@ -182,7 +182,9 @@ def phase_fixes(r: Report, c, reanalyse: Callable, budget: list | None = None) -
     """Every candidate change for crossing ``c`` (:func:`_candidates`), each checked by
     analysing the changed project again (``reanalyse(project) -> Report``), best first:
     those that pass the whole check, then by the largest phase difference after (to
-    0.1 deg), then those that add no latency. ``budget`` (a one-item list, the analyses
+    0.1 deg), then by this crossing's own phase difference after (to 0.1 deg: when another
+    crossing sets the largest, the change that lines this one up best comes first), then
+    those that add no latency. ``budget`` (a one-item list, the analyses
     left) is used up and stops the trials when it reaches 0."""
     out = []
     for what, proj, band in _candidates(r, c):
@@ -198,8 +200,11 @@ def phase_fixes(r: Report, c, reanalyse: Callable, budget: list | None = None) -
         ph = None if not same else min(abs(x.phase_diff_deg) for x in same)
         worst = max((abs(x.phase_diff_deg) for x in rr.checked_crossings), default=0.0)
         out.append(PhaseFix(what, proj, band, ph, worst, rr.ok, what.startswith("add delay")))
-    # Passing first; then the smallest worst phase (to 0.1 deg); then no added latency.
-    out.sort(key=lambda x: (not x.ok, round(x.worst_deg, 1), x.adds_delay, x.worst_deg))
+    # Passing first; then the smallest worst phase (to 0.1 deg); then this crossing's own
+    # phase; then no added latency.
+    out.sort(key=lambda x: (not x.ok, round(x.worst_deg, 1),
+                            round(x.phase_deg, 1) if x.phase_deg is not None else np.inf,
+                            x.adds_delay, x.worst_deg))
     return out
 
 

@@ -2,7 +2,8 @@
 rest of its point too, as one undoable edit; k moves a point directly (Pilot at 80x24).
 
 The preset "three-way": woofer [LR4 lowpass 350 Hz, all-pass 3 kHz], mid [LR4 highpass
-350 Hz, LR4 lowpass 3 kHz], tweeter [LR4 highpass 3 kHz].
+350 Hz, LR4 lowpass 3 kHz], tweeter [LR4 highpass 3 kHz, all-pass 350 Hz]: each all-pass
+belongs to the point at its frequency and moves with it.
 """
 
 from planner.tui.screens import ChoiceScreen, PathScreen, PickScreen
@@ -31,7 +32,7 @@ async def test_yes_moves_both_sides_as_one_edit():
         assert "crossover at 350 Hz" in screen_text(app)
         await pilot.press("y")
         await settle(app, pilot)
-        assert freqs(app.project) == [[400.0, 3000.0], [400.0, 3000.0], [3000.0]]
+        assert freqs(app.project) == [[400.0, 3000.0], [400.0, 3000.0], [3000.0, 400.0]]
         await pilot.press("ctrl+z")
         await settle(app, pilot)
         assert app.project is p0
@@ -44,7 +45,7 @@ async def test_no_moves_only_the_filter_typed_into():
         await type_woofer_lowpass(app, pilot, "400")
         await pilot.press("n")
         await settle(app, pilot)
-        assert freqs(app.project) == [[400.0, 3000.0], [350.0, 3000.0], [3000.0]]
+        assert freqs(app.project) == [[400.0, 3000.0], [350.0, 3000.0], [3000.0, 350.0]]
 
 
 async def test_cancel_changes_nothing():
@@ -72,7 +73,7 @@ async def test_k_moves_a_point_with_its_tied_allpass():
         app.screen.query_one("#path-input").value = "2.5k"
         await pilot.press("enter")
         await settle(app, pilot)
-        assert freqs(app.project) == [[350.0, 2500.0], [350.0, 2500.0], [2500.0]]
+        assert freqs(app.project) == [[350.0, 2500.0], [350.0, 2500.0], [2500.0, 350.0]]
         assert app.history.can_undo
         app.history.undo()
         assert not app.history.can_undo                  # it was one edit

@@ -1,22 +1,31 @@
 """The solvers in the editor: align and fit EQ run in a worker with progress and a cancel
 key, show a before/after preview, and apply as one undoable edit (Pilot at 80x24).
 
-The preset "three-way" aligns by delaying woofer and mid a little (about 0.017 ms); the
-preset "two-way" has one EQ filter (the tweeter's peaking EQ at 7.5 kHz) for the fit.
+The preset "three-way" without its tweeter's 350 Hz all-pass (the phase fix the preset
+carries) aligns by delaying woofer and mid a little (about 0.017 ms); the preset "two-way"
+has one EQ filter (the tweeter's peaking EQ at 7.5 kHz) for the fit.
 """
 
 import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine
+from planner import edits, engine, project
 from planner.tui import views
+from planner.tui.app import CrossplanApp
 from planner.tui.screens import ChoiceScreen, SolveScreen
-
 from tests.tui.test_app import make_app
 from tests.tui.tui_helpers import screen_text, settle
 
 SIZE = (80, 24)
+
+
+def misaligned_three_way():
+    """The three-way preset without the tweeter's all-pass: its upper crossing is 18.9 deg out."""
+    p = project.load_preset("three-way")
+    tweeter = p.bands[2]
+    k = next(i for i, f in enumerate(tweeter.filters) if f.type == "allpass")
+    return CrossplanApp(edits.remove_filter(p, 2, k), None)
 
 
 async def run_solver(app, pilot, key):
@@ -50,7 +59,7 @@ def scipy_sum_dev_db(report) -> float:
 
 
 async def test_align_previews_then_applies_as_one_edit_that_undo_restores():
-    app = make_app(name="three-way")
+    app = misaligned_three_way()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         p0 = app.project
@@ -75,7 +84,7 @@ async def test_align_previews_then_applies_as_one_edit_that_undo_restores():
 
 
 async def test_align_rejected_changes_nothing():
-    app = make_app(name="three-way")
+    app = misaligned_three_way()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         p0 = app.project
@@ -88,7 +97,7 @@ async def test_align_rejected_changes_nothing():
 
 
 async def test_align_cancelled_changes_nothing_and_shows_no_preview():
-    app = make_app(name="three-way")
+    app = misaligned_three_way()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         p0 = app.project
@@ -124,7 +133,7 @@ async def test_fit_eq_accepted_sets_the_gain_and_undo_restores():
 
 
 async def test_fit_without_eq_filters_offers_a_bank_and_no_means_no_change():
-    app = make_app(name="three-way")
+    app = misaligned_three_way()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         p0 = app.project
@@ -147,7 +156,7 @@ def test_the_preview_names_each_change_and_both_figures():
 
 
 async def test_an_undo_while_the_preview_is_open_means_nothing_is_applied():
-    app = make_app(name="three-way")
+    app = misaligned_three_way()
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         from planner import edits

@@ -93,9 +93,9 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
         _send(name, "2.5k", literal=True)
         _wait_until(name, lambda s: "2.5k" in _line(s, "freq"), "2.5k typed in the freq field")
         _send(name, "Enter")
-        screen = _wait_until(name, lambda s: "LR4 lowpass 2.5 kHz" in s or "Move the rest" in s,
+        screen = _wait_until(name, lambda s: "LR4 lowpass 2.5 kHz" in s or "Move them all" in s,
                              "the new label, or the question about the crossover's other side")
-        if "Move the rest" in screen:                 # only this side: n
+        if "Move them all" in screen:                 # the mate question: only this side, n
             _send(name, "n")
         screen = _wait_for(name, "LR4 lowpass 2.5 kHz")
         assert "[modified]" in screen
