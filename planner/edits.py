@@ -186,15 +186,20 @@ def duplicate_filter(p: Project, band: int, flt: int) -> Project:
     return _rebuild(p, change)
 
 
-def toggle_bypass(p: Project, band: int, flt: int) -> Project:
-    """Bypass a filter (kept in the chain, not applied), or bring it back."""
+def _toggle_filter_flag(p: Project, band: int, flt: int, key: str) -> Project:
+    """Set a filter's true/false flag ``key``, or drop it when it is set (false is the default)."""
     def change(d):
         f = _chain(d, band, flt)[flt]
-        if f.get("bypass"):
-            f.pop("bypass")
+        if f.get(key):
+            f.pop(key)
         else:
-            f["bypass"] = True
+            f[key] = True
     return _rebuild(p, change)
+
+
+def toggle_bypass(p: Project, band: int, flt: int) -> Project:
+    """Bypass a filter (kept in the chain, not applied), or bring it back."""
+    return _toggle_filter_flag(p, band, flt, "bypass")
 
 
 def set_filter_params(p: Project, band: int, flt: int, /, **params: Any) -> Project:
@@ -326,13 +331,7 @@ def _seed_fir(type_: str, new: dict, old: dict, fs_hz: float) -> None:
 
 def toggle_voicing(p: Project, band: int, flt: int) -> Project:
     """Mark a filter as voicing (deliberate EQ, set aside by the crossover checks), or unmark it."""
-    def change(d):
-        f = _chain(d, band, flt)[flt]
-        if f.get("voicing"):
-            f.pop("voicing")
-        else:
-            f["voicing"] = True
-    return _rebuild(p, change)
+    return _toggle_filter_flag(p, band, flt, "voicing")
 
 
 # -- named crossovers ---------------------------------------------------------------------
