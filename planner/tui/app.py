@@ -26,6 +26,7 @@ from textual.widgets import Footer, Input
 from planner import edits, engine, export, filters as fk, progress, project as pj, units
 from planner.crossovers import crossover_points, move_crossover
 from planner.drivers import driver_fields
+from planner.dsp.acoustic import speed_of_sound_m_s
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
@@ -263,7 +264,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
-        await self.query_one(DriverForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band, self.project.acoustics.temperature_c)
         for screen in self.screen_stack:
             if isinstance(screen, SettingsScreen):
                 screen.show(p)
@@ -437,7 +438,7 @@ class CrossplanApp(App):
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
-        await self.query_one(DriverForm).show(self.band_i, band)
+        await self.query_one(DriverForm).show(self.band_i, band, self.project.acoustics.temperature_c)
         self.show_plot()
 
     @on(ChainList.OptionSelected, "#chain")
@@ -1134,8 +1135,17 @@ def _driver_edit(p: Project, i: int, name: str, text: str) -> Project:
         raise ProjectError("is not a field of this driver", field=name)
     if spec.rule == "choice":
         return edits.set_driver(p, i, **{name: t or None})
-    value = _parse_field(spec, text) if spec.unit != "mm" else \
-        (None if not t else units.parse(t.removesuffix("mm").strip(), "", name))
+    if spec.unit != "mm":
+        value = _parse_field(spec, text)
+    elif not t:
+        value = None
+    elif t.lower().endswith(("ms", "us", "µs")) or t.lower().endswith(" s"):
+        # A distance typed as a time of flight: mm = ms x c (m/s), at the project's air
+        # temperature (c = 331.3 + 0.606 T m/s).
+        c = speed_of_sound_m_s(p.acoustics.temperature_c)
+        value = round(units.parse(t, "ms", name) * c, 3)
+    else:
+        value = units.parse(t.removesuffix("mm").strip(), "", name)
     return edits.set_driver(p, i, **{name: value})
 
 

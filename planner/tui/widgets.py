@@ -21,6 +21,7 @@ from textual.widgets.option_list import Option
 
 from planner import filters as fk, units
 from planner.drivers import MODELS, driver_fields
+from planner.dsp.acoustic import speed_of_sound_m_s
 from planner.filters import FieldSpec, families_of, kinds
 from planner.model import Band, Filter
 from planner.present.plots import Canvas, freq_canvas, time_canvas
@@ -252,7 +253,8 @@ class DriverForm(_Form):
 
     target = "driver"
 
-    async def show(self, index: int, band: Band) -> None:
+    async def show(self, index: int, band: Band, temperature_c: float = 20.0) -> None:
+        """``temperature_c``: the project's air temperature, for an offset's time of flight."""
         d = band.driver
         raw = dict(d.raw) if d is not None else {}
         model = raw.get("model")
@@ -266,9 +268,15 @@ class DriverForm(_Form):
         specs = driver_fields(model) if d is not None else ()
         for sp in specs:
             unit = f" {sp.unit}" if sp.unit and sp.rule not in ("freq", "db") else ""
+            hint = sp.help
+            if sp.name == "offset_mm":
+                mm = float(raw.get(sp.name) or 0.0)
+                ms = mm / speed_of_sound_m_s(temperature_c)
+                hint = (f"{sp.help}; {mm:g} mm is {ms:.4g} ms at {temperature_c:g} deg C "
+                        "(type 0.05 ms to give it in ms)")
             rows.append(FieldRow("driver", sp.name, _short(sp.name) + unit,
                                  field_text(sp.rule, sp.unit, raw.get(sp.name)),
-                                 [str(c) for c in sp.choices], sp.help))
+                                 [str(c) for c in sp.choices], hint))
         await self.set_rows(("driver", model, d is None, tuple(sp.name for sp in specs)), rows)
 
 

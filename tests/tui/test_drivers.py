@@ -33,6 +33,22 @@ async def test_the_offset_is_edited_in_mm_and_undone():
         assert app.project is p0
 
 
+async def test_the_offset_can_be_typed_as_a_time_of_flight_in_ms():
+    # 0.1 ms at the preset's air temperature: 0.1e-3 s x (331.3 + 0.606 T) m/s, the
+    # speed-of-sound formula of acoustics handbooks (343.4 m/s at 20 deg C).
+    app = make_app(name="desk-2way")
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.query_one("#bands").focus()
+        await pilot.press("down")                         # tweeter
+        await settle(app, pilot)
+        app.query_one("#driver-form").focus_field("offset_mm")
+        await pilot.press(*"0.1 ms", "enter")
+        await settle(app, pilot)
+        t_c = app.project.acoustics.temperature_c
+        assert abs(app.project.bands[1].driver.offset_mm - 0.1 * (331.3 + 0.606 * t_c)) < 1e-3
+
+
 async def test_a_bad_driver_value_is_refused_in_place():
     app = make_app(name="desk-2way")
     async with app.run_test(size=SIZE) as pilot:
