@@ -30,14 +30,15 @@ from planner.dsp.acoustic import speed_of_sound_m_s
 from planner.errors import CrossplanError, DesignCancelled, ProjectError, SpecNotMetError
 from planner.history import History
 from planner.model import Project
+from planner.present.plots import freq_canvas
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.autosave import FileGuard
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
                                  PickScreen, SafetyScreen, SettingsScreen, SolveScreen)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, DriverForm, FieldRow,
-                                 FilterForm,
-                                 PlotView, Readout, TitleBar, WarningList)
+                                 FilterForm, PlotView, Readout, TitleBar, WarningList,
+                                 canvas_text)
 
 __all__ = ["CrossplanApp", "run_editor", "ACTIONS", "Command"]
 
@@ -938,7 +939,16 @@ class CrossplanApp(App):
             return
         title = ("Align: band delays and polarities" if kind == "align"
                  else f"Fit EQ: gains for a {result.target.name} sum")
-        ok = await self.push_screen_wait(SolveScreen(title, views.solve_preview(kind, result)))
+        width = max(40, min(self.size.width - 8, 76))
+        series = views.solve_preview_series(result)
+        lim = views.preview_range_db(series, project.analysis.flatness_db)
+        plot = canvas_text(freq_canvas(series, width=width, height=10, ylabel="dB",
+                                       ylim=(-lim, lim), hline=0.0,
+                                       title="sum before and after (limit "
+                                             f"+/-{project.analysis.flatness_db:g} dB)",
+                                       color=not self.no_color))
+        ok = await self.push_screen_wait(SolveScreen(title, views.solve_preview(kind, result),
+                                                     plot))
         if ok and project is self.project:
             await self.commit(result.project, "align" if kind == "align" else "fit EQ")
             self.notify(f"{kind} applied (ctrl+z undoes it)", timeout=4)

@@ -189,10 +189,12 @@ class SolveScreen(ModalScreen[bool]):
     BINDINGS = [Binding("escape,n", "reject", "Keep the project as it is"),
                 Binding("enter,y", "accept", "Apply")]
 
-    def __init__(self, title: str, text: str) -> None:
+    def __init__(self, title: str, text: str, plot=None) -> None:
+        """``plot``: the sum before and after as drawn text (Rich), shown under the figures."""
         super().__init__()
         self._title = title
         self._text = text
+        self._plot = plot
 
     def compose(self) -> ComposeResult:
         with VerticalScroll(id="solve-box") as box:
@@ -200,6 +202,8 @@ class SolveScreen(ModalScreen[bool]):
             yield Static(self._text, id="solve-text", markup=False)
             yield Label("Enter/y: apply (one edit; ctrl+z undoes it)   Escape/n: keep as is",
                         classes="hint")
+            if self._plot is not None:
+                yield Static(self._plot, id="solve-plot")
 
     def on_mount(self) -> None:
         self.query_one("#solve-box").focus()

@@ -306,6 +306,23 @@ def _fit_changes(f) -> list[str]:
     return out
 
 
+def solve_preview_series(result) -> list[Series]:
+    """The sum's level before (plain) and after (bold) a solver's result, for the preview's
+    plot: the whole analysed range of each report."""
+    b, a = result.before, result.after
+    return [Series("before", b.freqs_hz, db(b.sum_h)),
+            Series("after", a.freqs_hz, db(a.sum_h), bold=True)]
+
+
+def preview_range_db(series: list[Series], limit_db: float) -> float:
+    """Half the y range of the preview's plot: the check's limit, or the largest level
+    plotted when that is larger, with 10 % to spare (the scale then says what the change
+    is worth against the limit)."""
+    peaks = [float(np.max(np.abs(s.y[np.isfinite(s.y)]))) for s in series
+             if np.isfinite(s.y).any()]
+    return 1.1 * max([limit_db, *peaks])
+
+
 def solve_preview(kind: str, result) -> str:
     """What a solver would change, before and after, for the editor's preview.
 

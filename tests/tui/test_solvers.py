@@ -67,6 +67,8 @@ async def test_align_previews_then_applies_as_one_edit_that_undo_restores():
         assert isinstance(app.screen, SolveScreen)
         text = screen_text(app)
         assert "sum flatness" in text and "worst crossing" in text and "delay_ms" in text
+        plot = app.screen.query_one("#solve-plot").render().plain
+        assert "sum before and after" in plot and "before" in plot and "after" in plot
         assert app.project is p0                        # nothing changes before Enter
         await pilot.press("enter")
         await settle(app, pilot)
@@ -150,6 +152,10 @@ def test_the_preview_names_each_change_and_both_figures():
     from planner.solve import alignment
     a = alignment.align(project.load_preset("two-way"))
     text = views.solve_preview("align", a)
+    before, after = views.solve_preview_series(a)
+    # the plotted levels are the reports' sums in dB (20 log10 |H|, numpy)
+    assert np.allclose(before.y, 20 * np.log10(np.abs(a.before.sum_h)))
+    assert np.allclose(after.y, 20 * np.log10(np.abs(a.after.sum_h))) and after.bold
     assert f"{a.before.max_dev_db:+.2f} dB" in text and f"{a.after.max_dev_db:+.2f} dB" in text
     for c in a.changes:
         assert c in text
