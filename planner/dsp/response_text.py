@@ -92,6 +92,14 @@ _SPLIT = re.compile(r"[,;\t ]+")
 _COMMENT = ("*", "#", ";", "//")
 
 
+def _comment_or_line(raw: str) -> tuple[str | None, str]:
+    """(the comment's text, "") for a comment line, (None, the stripped line) otherwise
+    (empty for a blank line); the rules both readers share."""
+    line = raw.strip().lstrip("\ufeff")
+    mark = next((c for c in _COMMENT if line.startswith(c)), None)
+    return (line[len(mark):].strip(), "") if mark else (None, line)
+
+
 def _fast_parse(text: str) -> Response | None:
     """The common case at array speed, or None to leave the text to the line-by-line reader.
 
@@ -103,12 +111,11 @@ def _fast_parse(text: str) -> Response | None:
     lines = text.splitlines()
     header, title, start = [], False, None
     for i, raw in enumerate(lines):
-        line = raw.strip().lstrip("\ufeff")
-        if not line:
+        comment, line = _comment_or_line(raw)
+        if comment is not None:
+            header.append(comment)
             continue
-        mark = next((c for c in _COMMENT if line.startswith(c)), None)
-        if mark:
-            header.append(line[len(mark):].strip())
+        if not line:
             continue
         try:
             [float(t) for t in _SPLIT.split(line)[:3] if t]
@@ -183,12 +190,11 @@ def parse_response_text(text: str) -> Response:
         return fast
     header, rows, ncol, title_seen = [], [], None, False
     for no, raw in enumerate(text.splitlines(), start=1):
-        line = raw.strip().lstrip("\ufeff")
-        if not line:
+        comment, line = _comment_or_line(raw)
+        if comment is not None:
+            header.append(comment)
             continue
-        mark = next((c for c in _COMMENT if line.startswith(c)), None)
-        if mark:
-            header.append(line[len(mark):].strip())
+        if not line:
             continue
         tokens = [t for t in _SPLIT.split(line) if t]
         try:
