@@ -14,7 +14,6 @@ from __future__ import annotations
 import copy
 import hashlib
 import json
-import math
 import os
 from dataclasses import dataclass, replace
 from pathlib import Path
@@ -22,6 +21,7 @@ from typing import Any, Callable, Mapping, NamedTuple
 
 from planner import config, drivers, presets, targets
 from planner import filters as fk
+from planner.filters.fields import finite_number
 from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectChangedError, ProjectError
 from planner.jsonio import atomic_write_bytes, atomic_write_text, backup_path
@@ -55,16 +55,7 @@ def _num(d: Mapping, key: str, default: Any = None, *, lo=None, hi=None, unit=""
         if default is None:
             raise ProjectError("missing", field=key)
         return default
-    v = d[key]
-    if isinstance(v, bool) or not isinstance(v, (int, float)):
-        raise ProjectError(f"must be a number, not {v!r}", field=key)
-    try:
-        finite = math.isfinite(v)
-    except OverflowError:              # an integer too large for a float
-        finite = False
-    if not finite:
-        text = repr(v) if len(repr(v)) < 40 else f"{repr(v)[:20]}... (too large)"
-        raise ProjectError(f"must be a finite number, not {text}", field=key)
+    v = finite_number(d[key], key)
     u = f" {unit}" if unit else ""
     if lo is not None and (v <= lo if lo_open else v < lo):
         raise ProjectError(f"{v:g}{u} must be {'above' if lo_open else 'at least'} {lo:g}{u}",

@@ -17,7 +17,7 @@ from typing import Any, Callable
 
 from planner.errors import ProjectError
 
-__all__ = ["FieldSpec", "CHECKERS", "check_field", "Q_MAX", "DB_RANGE"]
+__all__ = ["FieldSpec", "CHECKERS", "check_field", "finite_number", "Q_MAX", "DB_RANGE"]
 
 #: Largest Q a filter takes.
 Q_MAX = 100.0
@@ -43,7 +43,9 @@ class FieldSpec:
     help: str = ""
 
 
-def _number(value: Any, name: str) -> float:
+def finite_number(value: Any, name: str) -> float:
+    """``value`` if it is a finite number (not a bool); a ProjectError naming ``name`` else
+    (an integer too large for a float is shown cut short)."""
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise ProjectError(f"must be a number, not {value!r}", field=name)
     try:
@@ -73,7 +75,7 @@ def _choice(spec: FieldSpec, value: Any, fs_hz: float) -> Any:
 def _floats(spec: FieldSpec, value: Any, fs_hz: float) -> tuple:
     if not isinstance(value, (list, tuple)) or not value:
         raise ProjectError(f"must be a non-empty list of numbers, not {value!r}", field=spec.name)
-    out = tuple(float(_number(v, f"{spec.name}[{i}]")) for i, v in enumerate(value))
+    out = tuple(float(finite_number(v, f"{spec.name}[{i}]")) for i, v in enumerate(value))
     if spec.lo is not None and len(out) < spec.lo:
         raise ProjectError(f"needs at least {spec.lo:g} numbers, has {len(out)}", field=spec.name)
     if spec.hi is not None and len(out) > spec.hi:
@@ -82,7 +84,7 @@ def _floats(spec: FieldSpec, value: Any, fs_hz: float) -> tuple:
 
 
 def _int(spec: FieldSpec, value: Any, fs_hz: float) -> int:
-    v = _number(value, spec.name)
+    v = finite_number(value, spec.name)
     if int(v) != v:
         raise ProjectError(f"must be a whole number, not {value!r}", field=spec.name)
     v = int(v)
@@ -94,7 +96,7 @@ def _int(spec: FieldSpec, value: Any, fs_hz: float) -> int:
 
 
 def _freq(spec: FieldSpec, value: Any, fs_hz: float) -> float:
-    v = float(_number(value, spec.name))
+    v = float(finite_number(value, spec.name))
     nyq = fs_hz / 2
     if v <= 0:
         raise ProjectError(f"{v:g} Hz must be above 0 Hz", field=spec.name)
@@ -108,7 +110,7 @@ def _freq(spec: FieldSpec, value: Any, fs_hz: float) -> float:
 
 
 def _q(spec: FieldSpec, value: Any, fs_hz: float) -> float:
-    v = float(_number(value, spec.name))
+    v = float(finite_number(value, spec.name))
     if v <= 0:
         raise ProjectError(f"Q must be above 0, not {v:g}", field=spec.name)
     if v > Q_MAX:
@@ -117,7 +119,7 @@ def _q(spec: FieldSpec, value: Any, fs_hz: float) -> float:
 
 
 def _db(spec: FieldSpec, value: Any, fs_hz: float) -> float:
-    v = float(_number(value, spec.name))
+    v = float(finite_number(value, spec.name))
     lo = spec.lo if spec.lo is not None else DB_RANGE[0]
     hi = spec.hi if spec.hi is not None else DB_RANGE[1]
     if not lo <= v <= hi:
@@ -126,7 +128,7 @@ def _db(spec: FieldSpec, value: Any, fs_hz: float) -> float:
 
 
 def _float(spec: FieldSpec, value: Any, fs_hz: float) -> float:
-    v = float(_number(value, spec.name))
+    v = float(finite_number(value, spec.name))
     _range(spec, v)
     return v
 
