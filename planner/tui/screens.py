@@ -4,11 +4,12 @@ settings, and the IIR-versus-FIR comparison."""
 from __future__ import annotations
 
 from textual import on, work
-from textual.app import ComposeResult
+from textual.app import ComposeResult, ScreenStackError
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical, VerticalScroll
 from textual.screen import ModalScreen, Screen
 from textual.widgets import Button, Input, Label, OptionList, Static
+from textual.await_complete import AwaitComplete
 from textual.widgets.option_list import Option
 from rich.text import Text
 
@@ -36,7 +37,26 @@ SAFETY_NOTICE = (
 )
 
 
-class SafetyScreen(ModalScreen[None]):
+class _DismissOnce:
+    """A screen that answers once: a second dismiss is ignored.
+
+    Textual takes a screen off the stack as soon as it is dismissed, but keys
+    already queued for it are still delivered to it. Without this guard a fast
+    second key (two keys in one read of the terminal, over SSH or tmux) would
+    dismiss it again, run its callback twice and pop the editor's own screen.
+    """
+
+    def dismiss(self, result=None) -> AwaitComplete:
+        try:
+            current = self.app.screen is self
+        except ScreenStackError:       # no screen stack any more (the app is closing)
+            current = False
+        if not current:
+            return AwaitComplete.nothing()
+        return super().dismiss(result)
+
+
+class SafetyScreen(_DismissOnce, ModalScreen[None]):
     """The safety notice at start; any key dismisses it (and does nothing else)."""
 
     def compose(self) -> ComposeResult:
@@ -53,7 +73,7 @@ class SafetyScreen(ModalScreen[None]):
         self.dismiss(None)
 
 
-class HelpScreen(ModalScreen[None]):
+class HelpScreen(_DismissOnce, ModalScreen[None]):
     """The keys, the sample-rate rule and the safety cautions."""
 
     BINDINGS = [Binding("escape,q,question_mark,f1", "dismiss", "Close")]
@@ -71,7 +91,7 @@ class HelpScreen(ModalScreen[None]):
         self.query_one("#help-box").focus()
 
 
-class ChoiceScreen(ModalScreen[str | None]):
+class ChoiceScreen(_DismissOnce, ModalScreen[str | None]):
     """A question with a few answers, each on a key; Escape answers None (cancel)."""
 
     BINDINGS = [Binding("escape", "cancel", "Cancel")]
@@ -106,7 +126,7 @@ class ChoiceScreen(ModalScreen[str | None]):
         self.dismiss(None)
 
 
-class PathScreen(ModalScreen[str | None]):
+class PathScreen(_DismissOnce, ModalScreen[str | None]):
     """Ask for a file path (open, save as). Enter answers; Escape cancels."""
 
     BINDINGS = [Binding("escape", "cancel", "Cancel")]
@@ -131,7 +151,7 @@ class PathScreen(ModalScreen[str | None]):
         self.dismiss(None)
 
 
-class PickScreen(ModalScreen[int | None]):
+class PickScreen(_DismissOnce, ModalScreen[int | None]):
     """Pick one of a list (a filter's type or family): arrows and Enter pick, a letter jumps
     to the next entry starting with it, Escape keeps what there was (answers None).
 
@@ -182,7 +202,7 @@ class PickScreen(ModalScreen[int | None]):
         self.dismiss(None)
 
 
-class SolveScreen(ModalScreen[bool]):
+class SolveScreen(_DismissOnce, ModalScreen[bool]):
     """A solver's result before it is applied: Enter (or y) applies it as one edit that
     ctrl+z undoes; Escape (or n) leaves the project as it is. Answers True to apply."""
 
@@ -236,7 +256,7 @@ SETTINGS = (
 )
 
 
-class SettingsScreen(ModalScreen[None]):
+class SettingsScreen(_DismissOnce, ModalScreen[None]):
     """The project's name, analysis range, points, limits and the sample rate; each field
     applies on Enter.
 
@@ -307,7 +327,7 @@ class SettingsScreen(ModalScreen[None]):
 _COMPARE_HINT = "(Escape stops the search; the project is not changed)"
 
 
-class CompareScreen(Screen[None]):
+class CompareScreen(_DismissOnce, Screen[None]):
     """IIR versus FIR for every band of a project, computed in a worker.
 
     The FIR searches can take seconds (a low crossover needs thousands of

@@ -112,3 +112,38 @@ async def test_the_safety_notice_shows_at_start_and_a_key_dismisses_it():
         await pilot.pause()
         assert not isinstance(app.screen, SafetyScreen)
         assert app.project is p0 and app.is_running
+
+
+async def test_two_keys_queued_for_the_safety_notice_dismiss_it_once():
+    # Over tmux or SSH two keys can arrive in one read: both are queued for the notice
+    # before it handles the first. The second must not dismiss again (that popped the
+    # editor's own screen: Textual's ScreenStackError).
+    from textual import events
+
+    app = CrossplanApp(project.load_preset("two-way"), None, safety_notice=True)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        notice = app.screen
+        assert isinstance(notice, SafetyScreen)
+        notice.post_message(events.Key("space", " "))
+        notice.post_message(events.Key("space", " "))
+        await settle(app, pilot)
+        assert app.is_running and not isinstance(app.screen, SafetyScreen)
+        assert app.screen is app.screen_stack[0]          # the editor, still there
+
+
+async def test_two_answers_queued_for_a_question_answer_it_once():
+    from textual import events
+    from planner.tui.screens import ChoiceScreen
+
+    app = make_app()
+    answers = []
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.push_screen(ChoiceScreen("Go on?", [("y", "yes", "Yes")]), answers.append)
+        await pilot.pause()
+        question = app.screen
+        question.post_message(events.Key("y", "y"))
+        question.post_message(events.Key("y", "y"))
+        await settle(app, pilot)
+        assert answers == ["yes"] and app.is_running

@@ -83,6 +83,9 @@ def test_crossplan_in_tmux_edit_save_quit(tmp_path):
                              "the safety notice or the editor")
         if "Safety first" in screen:                  # the notice at start: any key goes on
             _send(name, "Space")
+            # The editor shows around the notice, so wait for the notice itself to go:
+            # a key sent before that would reach the notice, not the editor.
+            _wait_until(name, lambda s: "Safety first" not in s, "the notice to close")
         _wait_for(name, "sum ")                       # the editor is up and has analysed
         _wait_for(name, "━Chain: woofer")             # ... with the chain focused
         _send(name, "Down")                           # filter 2 of the woofer
