@@ -151,12 +151,15 @@ def test_bar_line_layout():
 
 @pytest.mark.skipif(not hasattr(os, "openpty"), reason="needs a pseudo-terminal (POSIX)")
 def test_real_ctrl_c_during_a_search_exits_130(write_project):
-    # A search that runs for minutes (100 dB over 30 Hz: beyond max_taps, every
-    # trial a firls solve); SIGINT is sent once the bar shows the search has
-    # begun, as a terminal's Ctrl-C would.
-    path = write_project(_doc(("woofer", [{"type": "lowpass", "family": "fir", "method": "lsq",
-                                           "freq": 2200, "transition_hz": 30,
-                                           "atten_db": 100}])))
+    # Searches that run for a long while (100 dB over 30 Hz: beyond max_taps, every
+    # trial a firls solve of up to 8191 taps; each band's takes seconds, six of them
+    # tens of seconds, so the signal lands inside one even on a loaded machine);
+    # SIGINT is sent once the bar shows the first search has begun, as a terminal's
+    # Ctrl-C would.
+    path = write_project(_doc(*[(f"band{k}", [{"type": "lowpass", "family": "fir",
+                                                "method": "lsq", "freq": 2200 + 100 * k,
+                                                "transition_hz": 30, "atten_db": 100}])
+                                for k in range(6)]))
     before = path.read_bytes()
     master, slave = os.openpty()
     proc = subprocess.Popen([sys.executable, "-m", "planner", "check", str(path)],
