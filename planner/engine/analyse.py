@@ -332,6 +332,7 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
                     crossings, bands, checks=_checks(project, active, max_dev, at, ripple,
                                                      flat_ok, crossings, bands, voiced),
                     drivers=drivers, target_db=t_db, checked_sum_h=checked_sum,
+                    checked_h=None if not voiced else cresp.h,
                     voiced=voiced_fig)
     if warnings:
         pts = points

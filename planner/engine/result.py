@@ -163,6 +163,9 @@ class Report:
     #: the sum the crossover checks judge: ``sum_h`` with the voicing filters set aside
     #: (``sum_h`` itself when there are none); None means ``sum_h``
     checked_sum_h: Any = None
+    #: the bands' responses the crossover checks judge (voicing set aside), one row per
+    #: band; None means ``responses.h``
+    checked_h: Any = None
     #: the voiced sum (voicing filters included) against the target when any filter is
     #: marked voicing: ``max_dev_db``, ``at_hz``, ``ripple_db``, ``filters`` (labels); or None
     voiced: Any = None

@@ -16,6 +16,9 @@ from planner import config
 from planner import filters as fk
 from planner import project as pj
 from planner.errors import CrossplanError
+from planner.model import Band
+from planner.dsp import analysis as an
+from planner.engine.design import design_band, evaluate
 from planner.engine.result import Report, Warning_
 from planner.engine.rounding import fraction_warnings
 from planner.engine.safety import driver_warnings
@@ -104,6 +107,9 @@ class PhaseFix:
         self.phase_deg, self.worst_deg, self.ok = phase_deg, worst_deg, ok
         #: the change delays a band (adds latency; an all-pass or inversion does not)
         self.adds_delay = adds_delay
+        #: the figures come from a full analysis of ``project`` (not only from the
+        #: report's responses)
+        self.checked = False
 
 
 def _sides(r: Report, c) -> tuple[set[int], set[int]]:
@@ -124,8 +130,13 @@ def _sides(r: Report, c) -> tuple[set[int], set[int]]:
     return out[0], out[1]
 
 
-def _candidates(r: Report, c) -> list[tuple[str, object, int]]:
-    """Changes that may bring crossing ``c`` in phase: (words, project, band changed).
+def _candidates(r: Report, c) -> list[tuple[str, object, int, dict]]:
+    """Changes that may bring crossing ``c`` in phase: (words, project, band changed, delta).
+
+    ``delta`` maps each band the change touches to a band holding only the change
+    (the inversion, the all-pass, the delay), whose response multiplies that band's.
+    Each change has unit magnitude at every frequency, so the bands' levels, hence the
+    crossing frequencies and the headroom, stay as they are.
 
     * inverting one band, when the bands are nearly opposite;
     * a second-order all-pass (Q 0.7071, the phase of a Linkwitz-Riley 4 pair's sum) or a
@@ -143,7 +154,8 @@ def _candidates(r: Report, c) -> list[tuple[str, object, int]]:
     ia, ib = c.band_index
     if abs(d) >= 90.0:
         b = p.bands[ib]
-        out.append((f"invert {b.name}", p.with_band(ib, replace(b, invert=not b.invert)), ib))
+        out.append((f"invert {b.name}", p.with_band(ib, replace(b, invert=not b.invert)), ib,
+                    {ib: Band("change", invert=True)}))
     others = sorted({x.freq_hz for x in r.checked_crossings if x.band_index != c.band_index
                      and abs(x.freq_hz - c.freq_hz) > 0.01 * c.freq_hz},
                     key=lambda f: abs(np.log(f / c.freq_hz)))[:config.PHASE_HINT_NEAREST]
@@ -160,7 +172,8 @@ def _candidates(r: Report, c) -> list[tuple[str, object, int]]:
                 label = (f"an all-pass (order 2, Q 0.707) at {format_hz(f)}" if order == 2
                          else f"a first-order all-pass at {format_hz(f)}")
                 out.append((f"add {label} to {b.name}",
-                            p.with_band(i, replace(b, filters=b.filters + (flt,))), i))
+                            p.with_band(i, replace(b, filters=b.filters + (flt,))), i,
+                            {i: Band("change", filters=(flt,))}))
     lead = ia if d > 0 else ib
     ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
     side_a, side_b = _sides(r, c)
@@ -170,42 +183,128 @@ def _candidates(r: Report, c) -> list[tuple[str, object, int]]:
         groups.append(side)
     for g in groups:
         q = p
+        delta = {}
         for i in g:
             b = q.bands[i]
-            q = q.with_band(i, replace(b, delay_ms=round(b.delay_ms + ms, 6)))
+            new_ms = round(b.delay_ms + ms, 6)
+            q = q.with_band(i, replace(b, delay_ms=new_ms))
+            delta[i] = Band("change", delay_ms=new_ms - b.delay_ms)
         names = " and ".join(p.bands[i].name for i in g)
-        out.append((f"add delay_ms {ms:.4g} to {names}", q, lead))
+        out.append((f"add delay_ms {ms:.4g} to {names}", q, lead, delta))
     return out
+
+
+def _screened(r: Report, c, candidates: list) -> list[PhaseFix]:
+    """The figures each change of ``candidates`` (from :func:`_candidates`) would give,
+    from the report's own responses.
+
+    A change multiplies the bands in its ``delta`` by the responses of their delta
+    bands (unit magnitude), so the crossings stay where they are and only their phases
+    move: each checked crossing's phase difference after the change is the one before
+    plus the change's phase there (exact). The sum after it is the report's checked
+    sum with the changed bands' terms replaced, on the report's grid (the grid was
+    refined for the sum before; a full analysis confirms a change before a hint names
+    it as checked). Every delta band is evaluated in one pass.
+    """
+    if not candidates:
+        return []
+    fs = r.project.sample_rate
+    a = r.project.analysis
+    freqs = r.freqs_hz
+    nf = len(freqs)
+    h = r.checked_h if r.checked_h is not None else r.responses.h
+    base = r.checked_sum_h if r.checked_sum_h is not None else r.sum_h
+    xs = r.checked_crossings
+    grid = np.concatenate([freqs, [x.freq_hz for x in xs]])
+    deltas = [(i, b) for *_, delta in candidates for i, b in delta.items()]
+    turns = evaluate([design_band(b, fs) for _, b in deltas], grid, fs).h
+    rel = 1.0 if r.target_db is None else 10.0 ** (-np.asarray(r.target_db) / 20.0)
+    others_ok = all(ch.state != "fail" for ch in r.checks if ch.name not in ("sum", "crossings"))
+    before = np.array([x.phase_diff_deg for x in xs], dtype=float)
+    first = np.array([x.band_index[0] for x in xs], dtype=int)
+    second = np.array([x.band_index[1] for x in xs], dtype=int)
+    mine = np.array([x.band_index == c.band_index for x in xs], dtype=bool)
+    out, row = [], 0
+    for what, proj, band, delta in candidates:
+        total = base.copy()
+        turn_deg = np.zeros(len(xs))
+        for i in delta:
+            g = turns[row]
+            row += 1
+            if r.active[i]:
+                total += h[i] * (g[:nf] - 1.0)
+            ang = np.degrees(np.angle(g[nf:]))
+            turn_deg += np.where(first == i, ang, 0.0) - np.where(second == i, ang, 0.0)
+        max_dev, _, _ = an.flatness(freqs, total * rel)
+        flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+        after = np.abs(an.wrap_deg(before + turn_deg))
+        worst = float(after.max()) if len(after) else 0.0
+        same = float(after[mine].min()) if mine.any() else None
+        out.append(PhaseFix(what, proj, band, same, worst,
+                            flat_ok and worst <= a.phase_deg and others_ok,
+                            what.startswith("add delay")))
+    return out
+
+
+def _order(fixes: list[PhaseFix]) -> list[PhaseFix]:
+    # Passing first; then the smallest worst phase (to 0.1 deg); then this crossing's own
+    # phase; then no added latency.
+    return sorted(fixes, key=lambda x: (not x.ok, round(x.worst_deg, 1),
+                                        round(x.phase_deg, 1) if x.phase_deg is not None
+                                        else np.inf, x.adds_delay, x.worst_deg))
+
+
+def _cited(fixes: list[PhaseFix], limit: float) -> list[PhaseFix]:
+    """The fixes a hint names: the first that brings the crossing within ``limit`` and the
+    first passing alternative of the other kind (latency or none) after it."""
+    good = [x for x in fixes if x.phase_deg is not None and x.phase_deg <= limit]
+    if not good:
+        return []
+    alt = [x for x in good[1:] if x.ok and x.worst_deg <= limit
+           and x.adds_delay != good[0].adds_delay]
+    return good[:1] + alt[:1]
 
 
 def phase_fixes(r: Report, c, reanalyse: Callable, budget: list | None = None) -> list[PhaseFix]:
-    """Every candidate change for crossing ``c`` (:func:`_candidates`), each checked by
-    analysing the changed project again (``reanalyse(project) -> Report``), best first:
-    those that pass the whole check, then by the largest phase difference after (to
-    0.1 deg), then by this crossing's own phase difference after (to 0.1 deg: when another
-    crossing sets the largest, the change that lines this one up best comes first), then
-    those that add no latency. ``budget`` (a one-item list, the analyses
-    left) is used up and stops the trials when it reaches 0."""
-    out = []
-    for what, proj, band in _candidates(r, c):
-        if budget is not None:
-            if budget[0] <= 0:
-                break
-            budget[0] -= 1
-        try:
-            rr = reanalyse(proj)
-        except CrossplanError:    # a candidate that cannot be made is no fix
-            continue
-        same = [x for x in rr.checked_crossings if x.band_index == c.band_index]
-        ph = None if not same else min(abs(x.phase_diff_deg) for x in same)
-        worst = max((abs(x.phase_diff_deg) for x in rr.checked_crossings), default=0.0)
-        out.append(PhaseFix(what, proj, band, ph, worst, rr.ok, what.startswith("add delay")))
-    # Passing first; then the smallest worst phase (to 0.1 deg); then this crossing's own
-    # phase; then no added latency.
-    out.sort(key=lambda x: (not x.ok, round(x.worst_deg, 1),
-                            round(x.phase_deg, 1) if x.phase_deg is not None else np.inf,
-                            x.adds_delay, x.worst_deg))
-    return out
+    """Every candidate change for crossing ``c`` (:func:`_candidates`), best first.
+
+    Each is first judged from the report's own responses (:func:`_screened`: the
+    crossings' phases after it exactly, the sum's flatness on the report's grid); the
+    ones a hint would name are then checked by analysing the changed project again
+    (``reanalyse(project) -> Report``), and the order is made again with their
+    figures, until the named ones are all checked. Order: those that pass the whole
+    check, then by the largest phase difference after (to 0.1 deg), then by this
+    crossing's own phase difference after (to 0.1 deg: when another crossing sets the
+    largest, the change that lines this one up best comes first), then those that add
+    no latency. ``budget`` (a one-item list, the analyses left) is used up by the full
+    analyses; when it runs out, the fixes not yet checked keep their first figures and
+    ``checked`` False.
+    """
+    try:
+        out = _screened(r, c, _candidates(r, c))
+    except CrossplanError:        # a change that cannot be made: none judged this way
+        out = []
+    limit = r.project.analysis.phase_deg
+    while True:
+        out = _order(out)
+        todo = [x for x in _cited(out, limit) if not x.checked]
+        if not todo:
+            return out
+        for x in todo:
+            if budget is not None:
+                if budget[0] <= 0:
+                    return out
+                budget[0] -= 1
+            try:
+                rr = reanalyse(x.project)
+            except CrossplanError:
+                out.remove(x)
+                continue
+            same = [y for y in rr.checked_crossings if y.band_index == c.band_index]
+            x.phase_deg = None if not same else min(abs(y.phase_diff_deg) for y in same)
+            x.worst_deg = max((abs(y.phase_diff_deg) for y in rr.checked_crossings),
+                              default=0.0)
+            x.ok, x.checked = rr.ok, True
 
 
 def _unchecked_hint(r: Report, c) -> tuple[str, int]:
@@ -227,13 +326,14 @@ def _phase_hint(r: Report, c, reanalyse: Callable | None,
     if reanalyse is None or (budget is not None and budget[0] <= 0):
         return _unchecked_hint(r, c)
     fixes = phase_fixes(r, c, reanalyse, budget)
-    good = [x for x in fixes if x.phase_deg is not None and x.phase_deg <= limit]
-    if good:
-        f = good[0]
+    cited = _cited(fixes, limit)
+    if cited:
+        f = cited[0]
         rest = "" if f.ok else " (another check still fails)"
-        alt = [x for x in good[1:] if x.ok and x.worst_deg <= limit and x.adds_delay != f.adds_delay]
+        how = "checked" if f.checked else "from this analysis's responses, not checked again"
+        alt = cited[1:]
         also = f"; or {alt[0].what} ({alt[0].phase_deg:.1f} deg)" if alt else ""
-        return (f"{f.what}: that brings them to {f.phase_deg:.1f} deg apart, checked{rest}{also}",
+        return (f"{f.what}: that brings them to {f.phase_deg:.1f} deg apart, {how}{rest}{also}",
                 f.band)
     tried = [x for x in fixes if x.phase_deg is not None]
     if tried:
