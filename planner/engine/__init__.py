@@ -10,13 +10,13 @@ delays are run and what rounding them costs (:mod:`~planner.engine.delays`,
 :mod:`~planner.engine.rounding`).
 """
 
-from planner.engine.analyse import analyse
+from planner.engine.analyse import analyse, hints_pending, phase_hints
 from planner.engine.design import (BandDesign, design_band, design_filter, design_project,
                                    evaluate, point_evaluator)
 from planner.engine.result import (STATE_TEXT, BandResult, CheckResult, CrossingResult, Report,
                                    Warning_)
 from planner.engine.warnings import LATENCY_TOL_SAMPLES
 
-__all__ = ["analyse", "BandDesign", "design_band", "design_filter", "design_project",
+__all__ = ["analyse", "hints_pending", "phase_hints", "BandDesign", "design_band", "design_filter", "design_project",
            "evaluate", "point_evaluator", "STATE_TEXT", "BandResult", "CheckResult",
            "CrossingResult", "Report", "Warning_", "LATENCY_TOL_SAMPLES"]

@@ -38,12 +38,13 @@ from planner.engine.acoustic import AcousticPoints, Drivers, band_acoustics
 from planner.engine.design import BandDesign, design_band, evaluate, point_evaluator
 from planner.engine.result import (BandResult, CheckResult, CrossingResult, Report,
                                    check_state)
-from planner.engine.warnings import warnings_of
+from planner.engine.warnings import PENDING_HINT, warnings_of
 from planner.errors import CrossplanError, ProjectError
 from planner.model import Band, Project
 from planner.targets import parse_target
 
-__all__ = ["analyse", "check_points", "start_grid", "target_level", "voicing_labels"]
+__all__ = ["analyse", "check_points", "hints_pending", "phase_hints", "start_grid", "target_level",
+           "voicing_labels"]
 
 
 def voicing_labels(project: Project) -> list[str]:
@@ -228,7 +229,7 @@ def check_points(points, n_bands: int = 2) -> int:
 
 
 def analyse(project: Project, points: int | None = None, group_delay: bool = False,
-            warnings: bool = True) -> Report:
+            warnings: bool = True, hints: bool = True) -> Report:
     """Design, evaluate and check every band of ``project`` at its sample rate.
 
     Parameters
@@ -243,7 +244,12 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
         a second pass; the figures are the same either way.
     warnings : bool
         Add the plain-language warnings (default). A crossing out of phase gets
-        a hint found by analysing candidate changes again, without warnings.
+        a hint found by trying candidate changes (:func:`phase_hints`).
+    hints : bool
+        With ``hints=False`` a crossing out of phase gets
+        :data:`~planner.engine.warnings.PENDING_HINT` instead, and
+        :func:`phase_hints` adds the hints later (the editor shows the check
+        first).
     """
     if points is not None:
         points = check_points(points, len(project.bands))
@@ -335,13 +341,26 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
                     checked_h=None if not voiced else cresp.h,
                     voiced=voiced_fig)
     if warnings:
-        pts = points
-
-        def reanalyse(p: Project) -> Report:
-            return analyse(p, pts, warnings=False)
-
-        report.warnings.extend(warnings_of(report, reanalyse))
+        report.warnings.extend(warnings_of(report, _reanalyse if hints else None,
+                                           pending=not hints))
     return report
+
+
+def _reanalyse(p: Project) -> Report:
+    # ``p`` is a candidate made from a report's project, so it has that report's points.
+    return analyse(p, warnings=False)
+
+
+def hints_pending(report: Report) -> bool:
+    """Whether a phase warning of ``report`` still waits for its hint (``hints=False``)."""
+    return any(w.code == "phase" and w.text.endswith(PENDING_HINT) for w in report.warnings)
+
+
+def phase_hints(report: Report) -> Report:
+    """``report`` with its warnings made again with the phase hints (each fix tried and
+    the ones named checked), for a report analysed with ``hints=False``. A new report;
+    ``report`` itself is not changed."""
+    return replace(report, warnings=warnings_of(report, _reanalyse))
 
 
 def _checks(project: Project, active: list[bool], max_dev: float, at: float, ripple: float,

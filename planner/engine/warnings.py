@@ -24,7 +24,7 @@ from planner.engine.rounding import fraction_warnings
 from planner.engine.safety import driver_warnings
 from planner.units import format_hz
 
-__all__ = ["warnings_of", "LATENCY_TOL_SAMPLES", "phase_fixes", "PhaseFix"]
+__all__ = ["warnings_of", "LATENCY_TOL_SAMPLES", "phase_fixes", "PhaseFix", "PENDING_HINT"]
 
 
 #: Latencies closer than this (samples) count as equal (see :mod:`planner.config`).
@@ -345,11 +345,19 @@ def _phase_hint(r: Report, c, reanalyse: Callable | None,
         "further)", c.band_index[1]
 
 
-def warnings_of(r: Report, reanalyse: Callable | None = None) -> list[Warning_]:
+#: The phase warning's hint while the fixes are still being tried (the editor shows the
+#: check first and the hints a moment later).
+PENDING_HINT = "looking for a change that fixes it ..."
+
+
+def warnings_of(r: Report, reanalyse: Callable | None = None,
+                pending: bool = False) -> list[Warning_]:
     """Plain-language warnings about the sum, the crossings, headroom and risky filters.
 
     ``reanalyse(project) -> Report`` (the engine's analysis without warnings) lets a
-    crossing's phase hint try its candidate fixes and name one that works.
+    crossing's phase hint try its candidate fixes and name one that works. With
+    ``pending`` (and no ``reanalyse``) a crossing out of phase gets
+    :data:`PENDING_HINT` instead, to be replaced by the checked one.
     """
     p, a = r.project, r.project.analysis
     out: list[Warning_] = []
@@ -368,7 +376,10 @@ def warnings_of(r: Report, reanalyse: Callable | None = None) -> list[Warning_]:
     for c in failing:
         deg = abs(c.phase_diff_deg)
         where = f"bands {c.bands[0]} and {c.bands[1]} are {deg:.0f} deg apart at {format_hz(c.freq_hz)}"
-        hint, band = _phase_hint(r, c, reanalyse, budget)
+        if pending and reanalyse is None:
+            hint, band = PENDING_HINT, c.band_index[1]
+        else:
+            hint, band = _phase_hint(r, c, reanalyse, budget)
         out.append(Warning_(f"{where}: {hint}", band=band, code="phase"))
     for i in r.check("headroom").figures["over"]:
         b = r.bands[i]

@@ -188,6 +188,8 @@ class CrossplanApp(App):
         self._impulse_cache = None   # (report, its TimeResponse) for the time views
         self.cursor_hz = self._default_cursor(project)
         self.analysis_ms: float | None = None
+        #: the shown report's phase warnings still wait for their hints (_find_hints)
+        self.hints_pending = False
         self._gen = 0
         self._busy = False
         self._designing = False      # a long design is reporting progress
@@ -291,6 +293,7 @@ class CrossplanApp(App):
         self._gen += 1
         gen = self._gen
         self._busy = True
+        self.hints_pending = False
         self.set_timer(_BUSY_AFTER_S, partial(self._show_busy, gen))
         self._analyse(self.project, gen)
 
@@ -324,7 +327,9 @@ class CrossplanApp(App):
 
         try:
             with progress.scope(report=report, cancel=cancel):
-                report_ = engine.analyse(project)
+                # The check bar and plot first; the phase hints (each fix tried) after the
+                # screen has shown them (_find_hints).
+                report_ = engine.analyse(project, hints=False)
                 rx = None
                 if project.analysis.arith is not None:
                     rx = export.export_rate(project, project.sample_rate,
@@ -389,6 +394,35 @@ class CrossplanApp(App):
             items += views.arith_warning_items(rx)
         self.query_one(WarningList).show(items)
         self.show_plot()
+        self.hints_pending = engine.hints_pending(report)
+        if self.hints_pending:
+            self.call_after_refresh(self._find_hints, report, gen)
+
+    @work(thread=True, exclusive=True, group="analysis")
+    def _find_hints(self, report: engine.Report, gen: int) -> None:
+        """The phase hints of ``report`` (its fixes tried and checked), in a thread; an edit
+        made meanwhile drops them (its own analysis brings its own)."""
+        if gen != self._gen:
+            return
+        try:
+            full = engine.phase_hints(report)
+        except CrossplanError:      # cannot happen for a project analysed once; keep the check
+            full = None
+        self.call_from_thread(self._hints_done, gen, report, full)
+
+    def _hints_done(self, gen: int, report: engine.Report, full) -> None:
+        if gen != self._gen or self.report is not report:
+            return
+        self.hints_pending = False
+        if full is None:
+            return
+        self.report = full
+        items = views.warning_items(full)
+        if self.arith_export is not None:
+            items += views.arith_warning_items(self.arith_export)
+        self.query_one(WarningList).show(items)
+        if self.view in views.PAIR_VIEWS:
+            self.show_plot()      # the difference views show the pair's hint
 
     def _impulse(self):
         """The current report's impulse responses, made on first use (the time views)."""

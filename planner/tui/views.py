@@ -19,7 +19,7 @@ from planner.timeresp import impulse_responses
 from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
-__all__ = ["VIEWS", "DRIVER_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
+__all__ = ["VIEWS", "DRIVER_VIEWS", "PAIR_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
            "crossing_pairs", "phase_hint", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
            "arith_warning_items", "solve_preview"]
 
@@ -29,6 +29,9 @@ VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis",
 
 #: The views that need drivers (the acoustic sum): left out while no band has one.
 DRIVER_VIEWS = ("electrical", "drivers", "offaxis")
+
+#: The views of one pair of bands at their crossing (they show the engine's phase hint).
+PAIR_VIEWS = ("phase difference", "level difference")
 
 #: The views drawn against time (ms) rather than frequency.
 TIME_VIEWS = ("impulse", "step")

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
+from rich.cells import cell_len
 from rich.segment import Segment
 from rich.style import Style
 from rich.text import Span, Text
@@ -29,7 +30,28 @@ from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
 __all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "DriverForm", "FilterForm",
-           "PlotView", "Readout", "CheckBar", "WarningList", "field_text"]
+           "PlotView", "Readout", "CheckBar", "WarningList", "field_text", "show_text"]
+
+
+def show_text(widget: Static, text: str) -> None:
+    """Show ``text`` in ``widget``, doing no work when it is already shown.
+
+    Every change of a widget's size makes Textual arrange the whole screen again (several
+    ms at 120x40, more than the analysis of a keypress), so the layout is asked for only
+    when the height may change: a different number of lines, or a line that does not
+    fit the width (it wraps).
+    """
+    old = widget.content
+    if isinstance(old, str) and text == old:
+        return
+    width = widget.content_size.width
+
+    def fits(t: str) -> bool:
+        return all(cell_len(line) <= width for line in t.split("\n"))
+
+    same = (isinstance(old, str) and width > 0 and old.count("\n") == text.count("\n")
+            and fits(old) and fits(text))
+    widget.update(text, layout=not same)
 
 
 class TitleBar(Static):
@@ -38,8 +60,13 @@ class TitleBar(Static):
     def show(self, name: str, path: str | None, dirty: bool, fs_hz: float, view: str) -> None:
         where = path or "demo, not saved yet"
         mark = " [modified]" if dirty else ""
+        key = (where, mark, fs_hz, name)
+        if key == getattr(self, "_shown", None):
+            return
+        self._shown = key
+        # One line high (the style sheet): a new title never changes the layout.
         self.update(Text.assemble(("crossplan ", "bold"), f"{where}{mark}",
-                                  f"  {fs_hz / 1000:g} kHz  {name}"))
+                                  f"  {fs_hz / 1000:g} kHz  {name}"), layout=False)
 
 
 # -- lists ----------------------------------------------------------------------------------
@@ -59,12 +86,21 @@ class _PickList(OptionList):
             self.index = index
 
     def set_items(self, prompts: list[str], selected: int | None, empty: str) -> None:
+        old = getattr(self, "_prompts", None)
         with self.prevent(OptionList.OptionHighlighted):
-            if prompts:
+            if prompts and old is not None and len(old) == len(prompts):
+                # As many rows as shown: only the changed ones are replaced, so the list
+                # keeps its size and the screen is not arranged again.
+                for i, (a, b) in enumerate(zip(old, prompts)):
+                    if a != b:
+                        self.replace_option_prompt_at_index(i, Text(b))
+            elif prompts:
                 self.set_options([_plain(p) for p in prompts])
-                self.highlighted = min(selected or 0, len(prompts) - 1)
             else:
                 self.set_options([Option(Text(empty), disabled=True)])
+            if prompts:
+                self.highlighted = min(selected or 0, len(prompts) - 1)
+        self._prompts = list(prompts) if prompts else None
 
     @on(OptionList.OptionHighlighted)
     def _moved(self, event: OptionList.OptionHighlighted) -> None:
@@ -216,7 +252,7 @@ class _Form(Vertical):
 
     def refuse(self, message: str | None, name: str | None = None) -> None:
         """Show why a typed value was refused (the project is unchanged), or clear it."""
-        self.query_one(".refusal", Static).update(f"refused: {message}" if message else "")
+        show_text(self.query_one(".refusal", Static), f"refused: {message}" if message else "")
         self.set_class(bool(message), "-refused")
         for r in self.query(FieldRow):
             r.input.set_class(bool(message) and r.field_name == name, "-refused")
@@ -409,7 +445,7 @@ class Readout(Static):
         super().__init__("", markup=False, **kw)
 
     def show(self, data: PlotData | None) -> None:
-        self.update(readout(data) if data is not None else "")
+        show_text(self, readout(data) if data is not None else "")
 
 
 # -- checks ---------------------------------------------------------------------------------
@@ -431,18 +467,18 @@ class CheckBar(Static):
              progress: tuple[float, str] | None = None, hint: str | None = None,
              doing: str = "designing") -> None:
         if progress is not None:
-            self.update(progress_text(*progress, doing=doing) if hint is None
-                        else progress_text(*progress, hint=hint, doing=doing))
+            show_text(self, progress_text(*progress, doing=doing) if hint is None
+                      else progress_text(*progress, hint=hint, doing=doing))
             self.set_class(False, "-fail")
             return
         if error:
-            self.update(f"analysis FAIL: {error}")
+            show_text(self, f"analysis FAIL: {error}")
             return
         if lines is None:
-            self.update("analysing ...")
+            show_text(self, "analysing ...")
             return
         text = "\n".join(lines)
-        self.update(text + ("  (analysing ...)" if busy else ""))
+        show_text(self, text + ("  (analysing ...)" if busy else ""))
         self.set_class(" FAIL" in text, "-fail")
 
 
@@ -455,11 +491,33 @@ class WarningList(OptionList):
             self.item = item
 
     def show(self, items: list[WarningItem]) -> None:
+        old = getattr(self, "_items", None)
+        if old is not None and [(w.text, w.band, w.filter) for w in items] == \
+                [(w.text, w.band, w.filter) for w in old]:
+            return          # the same warnings: nothing to lay out again
         self._items = items
         self.border_title = f"Warnings ({len(items)})" if items else "Warnings: none"
+        texts = [f"! {w.text}" for w in items]
         with self.prevent(OptionList.OptionHighlighted):
-            self.set_options([_plain(f"! {w.text}") for w in items]
-                             or [Option(Text("no warnings"), disabled=True)])
+            if old and len(old) == len(items) and self._full(old) and self._full(items):
+                # As many warnings, and the list at its tallest before and after: the new
+                # texts replace the old in place and the screen is not arranged again.
+                for i, (a, t) in enumerate(zip(old, texts)):
+                    if f"! {a.text}" != t:
+                        self.replace_option_prompt_at_index(i, Text(t))
+            else:
+                self.set_options([_plain(t) for t in texts]
+                                 or [Option(Text("no warnings"), disabled=True)])
+
+    def _full(self, items: list[WarningItem]) -> bool:
+        """Whether ``items`` fill the list's largest height (``max-height``) for sure: each
+        text takes at least ``ceil(length / width)`` lines however it wraps."""
+        top = self.styles.max_height
+        width = self.scrollable_content_region.width
+        if top is None or not top.is_cells or width <= 0:
+            return False
+        lines = sum(-(-cell_len(f"! {w.text}") // width) for w in items)
+        return lines >= top.value
 
     @on(OptionList.OptionSelected)
     def _picked(self, event: OptionList.OptionSelected) -> None:

@@ -200,3 +200,20 @@ def test_every_fix_a_hint_names_is_checked_by_a_full_analysis():
         rr = engine.analyse(x.project, warnings=False)
         assert x.ok == rr.ok
         assert x.worst_deg == max(abs(y.phase_diff_deg) for y in rr.checked_crossings)
+
+
+def test_the_check_first_and_the_hints_after_give_the_warnings_of_one_pass():
+    # The editor shows the check at once and the hints a moment later: the two steps
+    # must end where one analysis with hints does.
+    from planner.engine.warnings import PENDING_HINT
+
+    p = project.from_dict(_old_three_way())
+    quick = engine.analyse(p, hints=False)
+    (w,) = [w for w in quick.warnings if w.code == "phase"]
+    assert w.text.endswith(PENDING_HINT) and engine.hints_pending(quick)
+    later = engine.phase_hints(quick)
+    whole = engine.analyse(p)
+    assert [(x.text, x.band, x.code) for x in later.warnings] == \
+        [(x.text, x.band, x.code) for x in whole.warnings]
+    assert not engine.hints_pending(later)
+    assert engine.hints_pending(quick)            # the first report is left as it was

@@ -1,0 +1,54 @@
+"""The editor's refresh after an edit: the check first, the phase hints after, and lists
+updated in place showing what the analysis says (Pilot at 80x24).
+
+The project is the three-way preset without its tweeter's 350 Hz all-pass and a phase
+limit of 10 deg, so the mid/tweeter crossing (about 19 deg apart) is out of phase and
+its warning carries a hint.
+"""
+
+from planner import project
+from planner.engine.warnings import PENDING_HINT
+from planner.tui.app import CrossplanApp
+from planner.tui.widgets import WarningList
+
+from tests.engine.test_phase_hint import _old_three_way
+from tests.tui.test_app import SIZE
+from tests.tui.tui_helpers import screen_text, settle
+
+
+def _app():
+    return CrossplanApp(project.from_dict(_old_three_way(limit=10.0)), None)
+
+
+def _prompts(app) -> list[str]:
+    wl = app.query_one(WarningList)
+    return [str(wl.get_option_at_index(i).prompt) for i in range(wl.option_count)]
+
+
+async def test_the_phase_hint_follows_the_check_and_is_the_checked_one():
+    app = _app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        assert not app.hints_pending
+        phase = [w.text for w in app.report.warnings if w.code == "phase"]
+        assert phase and all(PENDING_HINT not in t for t in phase)
+        assert any(", checked" in t for t in phase)
+        assert _prompts(app) == [f"! {w.text}" for w in app.report.warnings]
+
+
+async def test_after_nudging_a_crossover_the_warnings_shown_are_the_new_ones():
+    app = _app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        before = _prompts(app)
+        app.query_one("#bands").focus()
+        await pilot.press("down", "down")              # the tweeter
+        app.query_one("#chain").focus()
+        await pilot.press("right")                     # its highpass up 1/12 octave
+        await settle(app, pilot)
+        after = _prompts(app)
+        assert after != before
+        assert after == [f"! {w.text}" for w in app.report.warnings]
+        assert app.report.project is app.project and not app.hints_pending
+        shown = " ".join(screen_text(app).split())
+        assert after[0][:30] in shown                  # the list on screen shows it
