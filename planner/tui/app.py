@@ -139,6 +139,11 @@ _Q_STEP = 1.10
 #: Show "analysing ..." when a job runs longer than this (s).
 _BUSY_AFTER_S = 0.2
 
+#: An analysis that took less than this (ms, without the phase hints) is made on the UI
+#: thread next time, when the project has no FIR to design (see CrossplanApp._inline):
+#: within one frame (16.7 ms at 60 frames/s) with room for the drawing.
+_INLINE_MS = 8.0
+
 
 class EditorCommands(Provider):
     """The command palette's list: every editor action, by its title."""
@@ -188,6 +193,9 @@ class CrossplanApp(App):
         self._impulse_cache = None   # (report, its TimeResponse) for the time views
         self.cursor_hz = self._default_cursor(project)
         self.analysis_ms: float | None = None
+        #: CPU time of the last analysis on its own thread (ms; without the time spent
+        #: waiting for the UI thread), which decides where the next one runs (_inline)
+        self.analysis_cpu_ms: float | None = None
         #: the shown report's phase warnings still wait for their hints (_find_hints)
         self.hints_pending = False
         self._gen = 0
@@ -294,8 +302,34 @@ class CrossplanApp(App):
         gen = self._gen
         self._busy = True
         self.hints_pending = False
+        if self._inline(self.project):
+            self._analyse_now(self.project, gen)
+            return
         self.set_timer(_BUSY_AFTER_S, partial(self._show_busy, gen))
         self._analyse(self.project, gen)
+
+    def _inline(self, project: Project) -> bool:
+        """Whether ``project`` is analysed on the UI thread: no FIR to design (IIR designs
+        take microseconds) and the last analysis quick (under :data:`_INLINE_MS`), so the
+        screen shows the new check in the same frame, without two thread hand-overs."""
+        ms = self.analysis_cpu_ms
+        return (ms is not None and ms < _INLINE_MS
+                and not any(f.family == "fir" for b in project.bands for f in b.filters
+                            if not f.bypass))
+
+    def _analyse_now(self, project: Project, gen: int) -> None:
+        """:meth:`_analyse` on the UI thread (see :meth:`_inline`)."""
+        t0, c0 = time.perf_counter(), time.thread_time()
+        try:
+            report_ = engine.analyse(project, hints=False)
+            rx = None
+            if project.analysis.arith is not None:
+                rx = export.export_rate(project, project.sample_rate, project.analysis.arith)
+        except CrossplanError as e:
+            self._analysis_failed(gen, e)
+            return
+        self._analysis_done(gen, report_, (time.perf_counter() - t0) * 1000.0, rx,
+                            (time.thread_time() - c0) * 1000.0)
 
     def _check_lines(self) -> tuple[str, ...] | None:
         if self.report is None:
@@ -313,7 +347,7 @@ class CrossplanApp(App):
     def _analyse(self, project: Project, gen: int) -> None:
         """Design and check ``project`` in a thread; long designs report progress and stop
         when a newer analysis starts or the user cancels (Escape)."""
-        t0 = time.perf_counter()
+        t0, c0 = time.perf_counter(), time.thread_time()
         shown = [-1, ""]
 
         def report(fraction: float, text: str) -> None:
@@ -341,7 +375,8 @@ class CrossplanApp(App):
             self.call_from_thread(self._analysis_failed, gen, e)
             return
         self.call_from_thread(self._analysis_done, gen, report_,
-                              (time.perf_counter() - t0) * 1000.0, rx)
+                              (time.perf_counter() - t0) * 1000.0, rx,
+                              (time.thread_time() - c0) * 1000.0)
 
     def _design_progress(self, gen: int, fraction: float, text: str) -> None:
         if gen == self._gen and self._busy:
@@ -381,9 +416,11 @@ class CrossplanApp(App):
                                                        self.cursor_hz, None)
         self.query_one(Readout).update("")
 
-    def _analysis_done(self, gen: int, report: engine.Report, ms: float, rx=None) -> None:
+    def _analysis_done(self, gen: int, report: engine.Report, ms: float, rx=None,
+                       cpu_ms: float | None = None) -> None:
         if gen != self._gen or report.project is not self.project:
             return
+        self.analysis_cpu_ms = cpu_ms
         self._busy = self._designing = False
         self.report = report
         self.arith_export = rx

@@ -52,3 +52,37 @@ async def test_after_nudging_a_crossover_the_warnings_shown_are_the_new_ones():
         assert app.report.project is app.project and not app.hints_pending
         shown = " ".join(screen_text(app).split())
         assert after[0][:30] in shown                  # the list on screen shows it
+
+
+async def test_a_quick_iir_project_is_analysed_before_the_key_returns():
+    # IIR designs take microseconds: once an analysis is known to be quick, the next one
+    # runs on the UI thread, so the key's own frame shows it (no thread hand-over).
+    app = _app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        assert app.analysis_cpu_ms is not None
+        app.analysis_cpu_ms = 1.0                       # as a quick analysis leaves it
+        threaded = []
+        app._analyse = lambda *args: threaded.append(args)   # the worker, were it used
+        app.query_one("#chain").focus()
+        await pilot.press("right")
+        assert threaded == []
+        assert app.report is not None and app.report.project is app.project
+        await settle(app, pilot)
+
+
+async def test_a_project_with_an_fir_is_analysed_off_the_ui_thread():
+    from planner.tui.app import _INLINE_MS
+
+    d = _old_three_way(limit=10.0)
+    d["bands"][0]["filters"].append({"type": "lowpass", "family": "fir", "method": "window",
+                                     "freq": 8000, "taps": 63})
+    app = CrossplanApp(project.from_dict(d), None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.analysis_cpu_ms = 1.0
+        assert not app._inline(app.project)
+        app.analysis_cpu_ms = 2 * _INLINE_MS           # a slow one: the next in a thread too
+        assert not app._inline(project.from_dict(_old_three_way()))
+        app.analysis_cpu_ms = 1.0
+        assert app._inline(project.from_dict(_old_three_way()))
