@@ -111,7 +111,12 @@ class BandRun:
             if self._tail is not None:
                 full[:len(self._tail)] += self._tail
             y, self._tail = full[:n], full[n:]
-        y = y * self.gain
+        if self.gain != 1.0:
+            # In place where y is this block's own result (sosfilt or the convolution);
+            # a copy where it is still the caller's block.
+            y = y * self.gain if y is blk or y.base is blk else np.multiply(y, self.gain, out=y)
+        elif y is blk:
+            y = y.copy()
         if self.whole:
             if self._line is None:
                 self._line = np.zeros((self.whole,) + y.shape[1:])
@@ -179,15 +184,23 @@ def _run_blocks(blocks: Iterable[np.ndarray], n: int, rx: RateExport, plan: Dela
     start = 0
     for blk in blocks:
         blk = np.asarray(blk, dtype=np.float64)
-        s = None
+        live = []
         for k, (b, run) in enumerate(zip(rx.bands, runs)):
             y = run.process(blk)
             emit(k, start, y)
             if b.active:
-                s = y.copy() if s is None else s + y
+                live.append(y)
             if progress is not None:
                 progress(start * nb + (k + 1) * len(blk), n * nb)
-        emit(-1, start, np.zeros_like(blk) if s is None else s)
+        if not live:
+            s = np.zeros_like(blk)
+        elif len(live) == 1:
+            s = live[0].copy()
+        else:
+            s = live[0] + live[1]       # a new array: the bands' own blocks stay as emitted
+            for y in live[2:]:
+                s += y
+        emit(-1, start, s)
         start += len(blk)
 
 
