@@ -2,7 +2,8 @@
 
 What the editor does after a typed value: make the new project
 (planner.edits, checked like a file), analyse it (designs are cached; only
-the edited filter is redesigned), build the plot data, draw the plot at the
+the edited filter is redesigned; the phase hints come in a second step, timed
+apart), build the plot data, draw the plot at the
 plot's size (planner.present.plots) and turn it into Rich text as the plot
 widget does. Baseline, in the same process: the band responses alone with
 scipy.signal.sosfreqz called band by band on the same grid. Prints
@@ -65,7 +66,7 @@ def main() -> None:
             state["k"] += 1
             f = 900.0 * (1.0 + 1e-4 * (state["k"] % 997))
             p = edits.set_filter_params(state["p"], 1, 1, freq=f)
-            r = engine.analyse(p)
+            r = engine.analyse(p, hints=False)     # as the editor: the hints follow later
             d = views.plot_data(r, "magnitude", 1, 900.0)
             c = freq_canvas(d.series, width=width, height=height, ylabel=d.unit, ylim=d.ylim,
                             title=d.title, color=True, marks_hz=(*d.marks_hz, d.cursor_hz),
@@ -77,13 +78,17 @@ def main() -> None:
         edits.set_filter_params(state["p"], 1, 1, freq=901.0)
 
     def analyse_only():
-        engine.analyse(state["p"])
+        engine.analyse(state["p"], hints=False)
+
+    def hints_only(r=engine.analyse(proj, hints=False)):
+        engine.phase_hints(r)
 
     t_base = best(baseline)
     print(f"4 bands x {designs[0].n_sections} sections, {len(freqs)} points")
     print(f"baseline scipy.signal.sosfreqz band by band: {t_base:7.2f} ms")
     print(f"edit (checked new project):                  {best(edit_only):7.2f} ms")
     print(f"analyse (responses, sum, crossings, checks): {best(analyse_only):7.2f} ms")
+    print(f"then the phase hints (after the screen drew): {best(hints_only):7.2f} ms")
     for w, h in ((50, 17), (120, 40)):
         t = best(refresh(w, h))
         print(f"edit -> analyse -> plot text at {w}x{h}:{' ' * (10 - len(f'{w}x{h}'))}"
