@@ -18,7 +18,7 @@ import re
 
 from planner.errors import ProjectError
 
-__all__ = ["parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
+__all__ = ["ms_to_samples", "parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
            "format_hz", "outside_range_note", "UNITS", "FAR_OUTSIDE_OCT"]
 
 #: Units a field may have, and the unit words accepted for each (lower case).
@@ -44,6 +44,24 @@ _AMBIGUOUS = re.compile(r"^\s*[+-]?(?:\d+,\d{3}(?!\d)|\d*[.,]\d*[.,])")
 # number, optional SI prefix, optional unit word; spaces allowed between.
 _RE = re.compile(r"""^\s*(?P<num>[+-]?(?:\d+(?:[.,]\d*)?|[.,]\d+)(?:e[+-]?\d+)?)
                      \s*(?P<rest>[a-zµ]*)\s*$""", re.X | re.I)
+
+
+def ms_to_samples(ms: float, fs_hz: float) -> float:
+    """``ms * fs_hz / 1000`` samples, as the exact product of the two numbers as they are
+    written (their shortest decimal forms), rounded once to the nearest float.
+
+    Plain float arithmetic rounds twice and can land one unit in the last place away,
+    which a text export then prints as ``2.3217600000000003`` for 0.04837 ms at 48 kHz;
+    this gives ``2.32176``. The two differ by at most one unit in the last place.
+    """
+    from decimal import Decimal, localcontext
+
+    ms, fs_hz = float(ms), float(fs_hz)
+    if not (math.isfinite(ms) and math.isfinite(fs_hz)):
+        return ms * fs_hz / 1000.0
+    with localcontext() as ctx:
+        ctx.prec = 80           # exact: two 17-digit numbers and a division by 1000
+        return float(Decimal(repr(ms)) * Decimal(repr(fs_hz)) / 1000)
 
 
 def parse(text: str, unit: str = "", field: str = "value") -> float:

@@ -122,3 +122,27 @@ def test_a_frequency_within_two_octaves_of_the_range_gets_no_note():
 
 def test_a_frequency_far_above_the_range_gets_a_note():
     assert "octaves above" in units.outside_range_note(90000.0, 20.0, 20000.0)
+
+
+def test_ms_to_samples_is_the_decimal_product_rounded_once():
+    # Reference: Python's fractions (exact rational arithmetic) on the numbers as written.
+    from fractions import Fraction
+
+    from hypothesis import given, strategies as st
+
+    @given(st.floats(0.0, 1000.0, allow_nan=False), st.sampled_from([44100.0, 48000.0,
+                                                                      88200.0, 96000.0,
+                                                                      192000.0, 22050.0]))
+    def check(ms, fs):
+        exact = Fraction(repr(ms)) * Fraction(repr(fs)) / 1000
+        got = units.ms_to_samples(ms, fs)
+        assert got == float(exact)                       # correctly rounded
+        assert abs(got - ms * fs / 1000.0) <= 2 * math.ulp(got) + 1e-300   # plain: 1-2 ulp
+
+    check()
+
+
+def test_ms_to_samples_prints_as_typed():
+    # 0.04837 ms at 48 kHz: plain float arithmetic gives 2.3217600000000003.
+    assert repr(units.ms_to_samples(0.04837, 48000)) == "2.32176"
+    assert repr(units.ms_to_samples(0.01753, 96000)) == "1.68288"

@@ -15,6 +15,7 @@ from functools import lru_cache
 import numpy as np
 
 from planner import filters as fk
+from planner import units
 from planner.dsp import fir as dfir
 from planner.dsp.response import BandResponses, PointEvaluator, band_responses
 from planner.errors import CrossplanError
@@ -93,7 +94,7 @@ def design_band(band: Band, fs_hz: float) -> BandDesign:
             latency += dfir.latency_samples(d.fir)
             linear = linear and dfir.is_linear_phase(d.fir)
     return BandDesign(np.vstack(sos) if sos else np.zeros((0, 6)), fir, band.gain_db,
-                      band.delay_ms * fs_hz / 1000.0, band.invert, latency, linear,
+                      units.ms_to_samples(band.delay_ms, fs_hz), band.invert, latency, linear,
                       tuple(owners))
 
 

@@ -79,3 +79,17 @@ def test_fixed_text_gives_the_word_and_the_exact_value(tmp_path, arith, frac):
         k = np.asarray(rx.bands[i].shifts or [0] * len(words))
         ref = _design_rows(rx.project, i, 48000)[:, 3:]
         np.testing.assert_array_equal(words[:, 3:], np.round(ref * 2.0 ** (frac - k[:, None])))
+
+
+def test_a_delay_typed_in_ms_prints_as_its_decimal_product(tmp_path):
+    # 0.04837 ms at 48 kHz is 2.32176 samples (the decimal product, Python's fractions);
+    # plain float arithmetic made it 2.3217600000000003 in the text.
+    from fractions import Fraction
+
+    d = two_way(4, fc=2200.0)
+    d["bands"][1]["delay_ms"] = 0.04837
+    res = export.write_export(project.from_dict(d), [48000], "text", tmp_path)
+    text = res.files[0].read_text()
+    (value,) = re.findall(r"delay_samples\s+(\S+)", _blocks(text)[1])
+    assert value == "2.32176"
+    assert float(value) == float(Fraction("0.04837") * 48000 / 1000)
