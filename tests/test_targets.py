@@ -57,3 +57,21 @@ def test_a_file_with_bad_lines_is_refused_naming_the_line(tmp_path):
     (tmp_path / "bad.txt").write_text("100 1\n50 2\n", encoding="utf-8")
     with pytest.raises(ProjectError, match="bad.txt: line 2"):
         parse_target("bad.txt", tmp_path)
+
+
+def test_the_magnitude_view_draws_the_target_the_sum_is_checked_against():
+    from planner import engine, project
+    from planner.present.views import view_series
+    from tests.conftest import two_way
+
+    d = two_way(4)
+    d["analysis"]["target"] = "tilt:-1"
+    r = engine.analyse(project.from_dict(d))
+    series, unit, _ = view_series(r, "magnitude")
+    (t,) = [s for s in series if s.label == "target tilt:-1"]
+    # The tilt's definition, written out: -1 dB per octave about 1 kHz.
+    np.testing.assert_allclose(t.y, -1.0 * np.log2(t.x / 1000.0), atol=1e-12)
+    assert series[-1].label == "sum"                 # the sum stays last, drawn on top
+    d["analysis"].pop("target")
+    plain, _, _ = view_series(engine.analyse(project.from_dict(d)), "magnitude")
+    assert not any(s.label.startswith("target") for s in plain)

@@ -17,7 +17,8 @@ def view_series(r: Report, view: str) -> tuple[list[Series], str, tuple | None]:
     """Series, y unit and y range of a view (:data:`planner.defaults.PLOT_VIEWS`).
 
     ``magnitude``, ``phase`` and ``delay`` show the report's bands and sum
-    (acoustic when a band has a driver); ``electrical`` the bands without
+    (acoustic when a band has a driver), ``magnitude`` also the target curve
+    (``analysis.target``) when there is one; ``electrical`` the bands without
     their drivers; ``drivers`` the drivers alone, relative to the reference
     level; ``offaxis`` the sum at a few vertical angles. A view with nothing
     to show (drivers of an electrical report) has no series.
@@ -28,6 +29,8 @@ def view_series(r: Report, view: str) -> tuple[list[Series], str, tuple | None]:
     if view == "magnitude":
         for n, h in zip(names, r.responses.h):
             out.append(Series(n, f, db(h)))
+        if r.target_db is not None:          # the curve the sum is checked against
+            out.append(Series(f"target {r.target_name}", f, np.asarray(r.target_db, float)))
         out.append(Series("sum", f, db(r.sum_h), bold=True))
         top = max(6.0, float(np.ceil(max(s.y.max() for s in out) / 6) * 6))
         return out, "dB", (-42.0, top)
