@@ -38,7 +38,7 @@ import numpy as np
 from planner.dsp.response_text import parse_response_text
 from planner.errors import CrossplanError, ProjectError
 
-__all__ = ["Target", "parse_target", "BUILT_IN"]
+__all__ = ["Target", "parse_target", "project_target", "BUILT_IN"]
 
 #: The built-in target forms, for help texts.
 BUILT_IN = ("flat", "tilt:DB_PER_OCTAVE", "shelf:DB@HZ", "tilt:DB+shelf:DB@HZ")
@@ -96,6 +96,25 @@ def _file(path: str, base_dir: str | os.PathLike | None):
         raise ProjectError(f"{path}: a target needs at least 2 lines, it has {len(lf)}",
                            field="target")
     return lambda f: np.interp(np.log(f), lf, lv)
+
+
+def project_target(project) -> Target:
+    """The target a project's sum is checked against: its ``analysis.target`` (read beside
+    the project file), or flat when it has none. The solvers follow it unless told
+    otherwise, so that what they make passes the project's own check.
+
+    Raises
+    ------
+    ProjectError
+        ``field='analysis.target'``: the curve cannot be read (a file gone since loading).
+    """
+    t = project.analysis.target
+    if t is None:
+        return parse_target("flat")
+    try:
+        return parse_target(t, project.source_dir)
+    except CrossplanError as e:
+        raise e.at("analysis") from None
 
 
 def parse_target(text: str, base_dir: str | os.PathLike | None = None) -> Target:

@@ -62,9 +62,10 @@ def add_arguments(p, name):
         p.add_argument("--move", default=None, metavar="HZ[,HZ]",
                        help="only these crossover or all-pass frequencies may move "
                             "(default: all)")
-        p.add_argument("--target", default="flat", metavar="TARGET",
-                       help="the curve the sum should follow: flat (default), tilt:DB, "
-                            "shelf:DB@HZ or a text file of 'freq_hz level_db' lines")
+        p.add_argument("--target", default=None, metavar="TARGET",
+                       help="the curve the sum should follow: flat, tilt:DB, shelf:DB@HZ or "
+                            "a text file of 'freq_hz level_db' lines (default: the "
+                            "project's analysis.target, flat when it has none)")
     else:
         p.add_argument("--target", required=True, metavar="TARGET",
                        help="flat, tilt:DB (per octave about 1 kHz), shelf:DB@HZ (a low "
@@ -131,9 +132,10 @@ def _run(args) -> int:
     out = _out_path(args)
     proj = load_project(args.file)
     # The numerical core is imported when the command runs (start-up time).
-    from planner.solve import parse_target
+    from planner.solve import parse_target, project_target
 
-    target = parse_target(args.target, Path(args.file).resolve().parent)
+    target = (project_target(proj) if args.target is None
+              else parse_target(args.target, Path(args.file).resolve().parent))
     if args.command == "align":
         return _align(args, proj, target, out)
     return _fit(args, proj, target, out)

@@ -10,6 +10,6 @@ the input.
 
 from planner.solve.alignment import Alignment, Bounds, align
 from planner.solve.eqfit import Fit, fit
-from planner.targets import Target, parse_target
+from planner.targets import Target, parse_target, project_target
 
-__all__ = ["Alignment", "Bounds", "align", "Fit", "fit", "Target", "parse_target"]
+__all__ = ["Alignment", "Bounds", "align", "Fit", "fit", "Target", "parse_target", "project_target"]

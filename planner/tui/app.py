@@ -935,7 +935,8 @@ class CrossplanApp(App):
     # -- solvers --------------------------------------------------------------------------
 
     def action_solve(self, kind: str, bank: str | None = None) -> None:
-        """Run ``align`` or ``fit`` (flat target) in a worker; Escape cancels it."""
+        """Run ``align`` or ``fit`` (to the project's target, flat when it has none) in a
+        worker; Escape cancels it."""
         if self._solving:
             self.notify(f"{self._solving} is running (Escape stops it)", timeout=3)
             return
@@ -955,7 +956,7 @@ class CrossplanApp(App):
     def _solve(self, kind: str, project: Project, band: int, bank: str | None) -> None:
         # The solvers are imported when first used (start-up time).
         from planner.solve import alignment, eqfit
-        from planner.targets import parse_target
+        from planner.targets import project_target
 
         shown = [-1]
 
@@ -966,10 +967,11 @@ class CrossplanApp(App):
 
         try:
             with progress.scope(report=report, cancel=lambda: self._solve_cancel):
+                target = project_target(project)
                 if kind == "align":
-                    result = alignment.align(project)
+                    result = alignment.align(project, target_fn=target)
                 else:
-                    result = eqfit.fit(project, parse_target("flat"),
+                    result = eqfit.fit(project, target,
                                        bands=[band] if bank else None, bank=bank)
         except DesignCancelled:
             result = None

@@ -118,3 +118,19 @@ def test_a_result_written_elsewhere_still_finds_its_driver_files(tmp_path, capsy
     assert written["bands"][0]["driver"]["file"] == "../../drv/w.txt"
     assert pj.load(out).bands[0].driver is not None      # and it loads from there
     assert Path(out.parent / written["bands"][0]["driver"]["file"]).exists()
+
+
+def test_align_follows_the_projects_own_target_unless_told_otherwise(write_project, capsys):
+    # The check holds the sum to analysis.target, so align does too by default; a -1 dB
+    # per octave tilt about 1 kHz leans the trims (the tweeter down), a flat one does not.
+    d = two_way(order=4, fc=2000.0)
+    d["analysis"]["target"] = "tilt:-1"
+    f = write_project(d, "tilted.json")
+    args = ["align", str(f), "--vary", "gain", "--trim-db", "6", "--overwrite", "--out"]
+    main(args + [str(f.with_name("own.json"))])
+    own = json.loads(f.with_name("own.json").read_text())["bands"]
+    assert own[1].get("gain_db", 0) < own[0].get("gain_db", 0) - 1.0
+    assert "tilt:-1" in capsys.readouterr().out
+    main(args + [str(f.with_name("flat.json")), "--target", "flat"])
+    # An LR4 pair already sums flat: no trim does better, so nothing is written.
+    assert not f.with_name("flat.json").exists()

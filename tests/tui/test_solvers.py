@@ -178,3 +178,34 @@ async def test_an_undo_while_the_preview_is_open_means_nothing_is_applied():
         assert app.project is before                        # the result was for another one
         assert any("changed while the preview was open" in n.message
                    for n in app._notifications)
+
+
+async def test_the_solvers_follow_the_projects_target(monkeypatch):
+    # The sum is checked against analysis.target, so A and F aim at it too (flat: none).
+    from planner.solve import alignment, eqfit
+
+    seen = []
+    real_align, real_fit = alignment.align, eqfit.fit
+
+    def align(project, *a, target_fn=None, **k):
+        seen.append(("align", target_fn.name))
+        return real_align(project, *a, target_fn=target_fn, **k)
+
+    def fit(project, target, *a, **k):
+        seen.append(("fit", target.name))
+        return real_fit(project, target, *a, **k)
+
+    monkeypatch.setattr(alignment, "align", align)
+    monkeypatch.setattr(eqfit, "fit", fit)
+    p = project.load_preset("two-way")
+    p = edits.set_analysis(p, target="tilt:-0.5")
+    app = CrossplanApp(p, None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await run_solver(app, pilot, "A")
+        await pilot.press("escape")
+        await settle(app, pilot)
+        await run_solver(app, pilot, "F")
+        await pilot.press("escape")
+        await settle(app, pilot)
+    assert seen == [("align", "tilt:-0.5"), ("fit", "tilt:-0.5")]
