@@ -343,7 +343,7 @@ class CrossplanApp(App):
         if self._busy and gen == self._gen:
             self.query_one(CheckBar).show(self._check_lines(), busy=True)
 
-    @work(thread=True, exclusive=True, group="analysis")
+    @work(thread=True, exclusive=True, group="analysis", description="_analyse")
     def _analyse(self, project: Project, gen: int) -> None:
         """Design and check ``project`` in a thread; long designs report progress and stop
         when a newer analysis starts or the user cancels (Escape)."""
@@ -435,7 +435,7 @@ class CrossplanApp(App):
         if self.hints_pending:
             self.call_after_refresh(self._find_hints, report, gen)
 
-    @work(thread=True, exclusive=True, group="analysis")
+    @work(thread=True, exclusive=True, group="analysis", description="_find_hints")
     def _find_hints(self, report: engine.Report, gen: int) -> None:
         """The phase hints of ``report`` (its fixes tried and checked), in a thread; an edit
         made meanwhile drops them (its own analysis brings its own)."""
@@ -571,7 +571,7 @@ class CrossplanApp(App):
                 return pt
         return None
 
-    @work(exclusive=True, group="mates")
+    @work(exclusive=True, group="mates", description="_offer_mates")
     async def _offer_mates(self, old: Project, new: Project, label: str, point) -> None:
         """Ask whether the rest of a crossover point moves with the filter typed into."""
         i, j = self.band_i, self.filter_i
@@ -597,7 +597,7 @@ class CrossplanApp(App):
         for note in _range_notes(new, "filter", "freq", i, j):
             self.notify(f"note: {note}", severity="warning", timeout=8)
 
-    @work(exclusive=True, group="mates")
+    @work(exclusive=True, group="mates", description="action_move_crossover")
     async def action_move_crossover(self) -> None:
         """Pick a crossover point and type its new frequency: every filter of it moves."""
         points = crossover_points(self.project)
@@ -631,7 +631,7 @@ class CrossplanApp(App):
         if event.row.target == "filter":
             self.action_pick(event.field)
 
-    @work(exclusive=True, group="pick")
+    @work(exclusive=True, group="pick", description="action_pick")
     async def action_pick(self, name: str = "type", then_chain: bool = False) -> None:
         """Pick the selected filter's type or family from a list (one edit)."""
         f = self._selected_filter()
@@ -863,7 +863,7 @@ class CrossplanApp(App):
         self.time_span_ms = min(max(now * factor, 0.05), full)
         self.show_plot()
 
-    @work(exclusive=True, group="pick")
+    @work(exclusive=True, group="pick", description="action_pick_pair")
     async def action_pick_pair(self) -> None:
         """Pick the two bands the difference views compare (and show the phase difference)."""
         if self.report is None:
@@ -952,7 +952,7 @@ class CrossplanApp(App):
             self.query_one(CheckBar).show(None, progress=(fraction, text or self._solving),
                                           hint=self._SOLVE_HINT, doing="searching")
 
-    @work(thread=True, exclusive=True, group="solve")
+    @work(thread=True, exclusive=True, group="solve", description="_solve")
     def _solve(self, kind: str, project: Project, band: int, bank: str | None) -> None:
         # The solvers are imported when first used (start-up time).
         from planner.solve import alignment, eqfit
@@ -981,7 +981,7 @@ class CrossplanApp(App):
         self.call_from_thread(self._solve_done, kind, project,
                               None if self._solve_cancel else result, None)
 
-    @work(exclusive=True, group="solve-preview")
+    @work(exclusive=True, group="solve-preview", description="_solve_done")
     async def _solve_done(self, kind: str, project: Project, result,
                           error: CrossplanError | None) -> None:
         self._solving = None
@@ -1069,7 +1069,7 @@ class CrossplanApp(App):
         else:
             self.files.save(self.path)
 
-    @work
+    @work(description="action_save_as")
     async def action_save_as(self) -> bool:
         """Ask for a path and save there (asks before overwriting)."""
         path = await self.push_screen_wait(PathScreen("Save the project as:", self.path or ""))
@@ -1082,7 +1082,7 @@ class CrossplanApp(App):
                 return False
         return await self._write(path)
 
-    @work(exclusive=True, group="export")
+    @work(exclusive=True, group="export", description="action_export")
     async def action_export(self) -> None:
         """Ask for a folder and a format, then export at the project's rate."""
         p = self.project
@@ -1102,7 +1102,7 @@ class CrossplanApp(App):
         self.notify(f"exporting {fmt} to {folder} ...", timeout=2)
         self._export(p, folder, fmt)
 
-    @work(thread=True, exclusive=True, group="export-run")
+    @work(thread=True, exclusive=True, group="export-run", description="_export")
     def _export(self, p: Project, folder: str, fmt: str) -> None:
         try:
             res = export.write_export(p, [p.sample_rate], fmt, folder,
@@ -1121,7 +1121,7 @@ class CrossplanApp(App):
         self.call_from_thread(self.notify, f"exported to {folder}: {names}{state}",
                               timeout=10)
 
-    @work
+    @work(description="action_open")
     async def action_open(self) -> None:
         """Open a project file (asks first when there are unsaved edits)."""
         if self.history.dirty and not await self._settle_unsaved("open another file"):
@@ -1158,7 +1158,7 @@ class CrossplanApp(App):
             return await self._write(self.path)
         return False
 
-    @work
+    @work(description="action_quit")
     async def action_quit(self) -> None:
         """Quit; with unsaved edits, ask first (save, discard or keep editing)."""
         if self.history.dirty and not await self._settle_unsaved("quit"):

@@ -356,7 +356,7 @@ class CompareScreen(_DismissOnce, Screen[None]):
         self.running = True
         self._compare(self._project, max(70, self.app.size.width - 2))
 
-    @work(thread=True, exclusive=True, group="compare")
+    @work(thread=True, exclusive=True, group="compare", description="_compare")
     def _compare(self, project: Project, width: int) -> None:
         shown = [-1]
 
