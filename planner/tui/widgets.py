@@ -380,7 +380,7 @@ class PlotView(Widget):
     """A plot of :class:`PlotData`, drawn at the widget's own size.
 
     Textual asks for it line by line (``render_line``): the drawn plot's runs
-    are turned into strips of segments once per data and size, so a repaint
+    are turned into strips of segments once per data, size and colour setting, so a repaint
     that changes neither (a layout pass after an edit elsewhere) costs nothing.
     """
 
@@ -389,7 +389,7 @@ class PlotView(Widget):
     def __init__(self, color: bool, **kw) -> None:
         super().__init__(**kw)
         self.color = color
-        self._drawn: tuple = (None, None, None)      # (data, size, strips)
+        self._drawn: tuple = (None, None, None, None)      # (data, size, color, strips)
 
     def _canvas(self) -> Canvas | Text:
         d = self.data
@@ -411,10 +411,10 @@ class PlotView(Widget):
         return c if isinstance(c, Text) else canvas_text(c)
 
     def render_line(self, y: int) -> Strip:
-        data, size, strips = self._drawn
-        if data is not self.data or size != self.size:
+        data, size, color, strips = self._drawn
+        if data is not self.data or size != self.size or color != self.color:
             strips = self._strips()
-            self._drawn = (self.data, self.size, strips)
+            self._drawn = (self.data, self.size, self.color, strips)
         if 0 <= y < len(strips):
             return strips[y]
         return Strip.blank(self.size.width, self.rich_style)

@@ -80,3 +80,21 @@ async def test_the_difference_view_shows_the_engines_delay_hint_for_its_pair():
         assert app.query_one("#plot").data.hint == want
         assert "add delay_ms 0.3 to woofer" in " ".join(
             str(app.query_one("#readout").render()).split())
+
+
+async def test_turning_colour_off_redraws_a_plot_already_drawn():
+    # The plot keeps its drawn strips per data and size; the colour setting is part of
+    # that key, or a plot drawn in colour would stay so.
+    app = CrossplanApp(project.load_preset("three-way"), None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        plot = app.query_one("#plot")
+        plot.color = True                                # as without NO_COLOR
+        plot.refresh()
+        await pilot.pause()
+        assert "w woofer" not in screen_text(app)        # drawn in colour: braille marks
+        plot.color = False
+        plot.refresh()
+        await pilot.pause()
+        legend = "".join(plot.render_line(y).text for y in range(plot.size.height))
+        assert "w woofer" in legend and "m mid" in legend
