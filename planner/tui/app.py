@@ -139,6 +139,13 @@ _Q_STEP = 1.10
 #: Show "analysing ..." when a job runs longer than this (s).
 _BUSY_AFTER_S = 0.2
 
+
+def _analysis_size(p: Project) -> tuple:
+    """What an analysis's cost grows with: bands, grid points, filters, drivers."""
+    return (len(p.bands), p.analysis.points, sum(len(b.filters) for b in p.bands),
+            int(p.has_drivers))
+
+
 #: An analysis that took less than this (ms, without the phase hints) is made on the UI
 #: thread next time, when the project has no FIR to design (see CrossplanApp._inline):
 #: within one frame (16.7 ms at 60 frames/s) with room for the drawing.
@@ -196,6 +203,7 @@ class CrossplanApp(App):
         #: CPU time of the last analysis on its own thread (ms; without the time spent
         #: waiting for the UI thread), which decides where the next one runs (_inline)
         self.analysis_cpu_ms: float | None = None
+        self._analysed_size: tuple | None = None     # _analysis_size of that analysis
         #: the shown report's phase warnings still wait for their hints (_find_hints)
         self.hints_pending = False
         self._gen = 0
@@ -310,10 +318,14 @@ class CrossplanApp(App):
 
     def _inline(self, project: Project) -> bool:
         """Whether ``project`` is analysed on the UI thread: no FIR to design (IIR designs
-        take microseconds) and the last analysis quick (under :data:`_INLINE_MS`), so the
-        screen shows the new check in the same frame, without two thread hand-overs."""
+        take microseconds), the last analysis quick (under :data:`_INLINE_MS`) and this one
+        no bigger (bands, points, filters, drivers), so the screen shows the new check in
+        the same frame, without two thread hand-overs."""
         ms = self.analysis_cpu_ms
-        return (ms is not None and ms < _INLINE_MS
+        last = self._analysed_size
+        size = _analysis_size(project)
+        return (ms is not None and ms < _INLINE_MS and last is not None
+                and all(a <= b for a, b in zip(size, last))    # no bigger than the last one
                 and not any(f.family == "fir" for b in project.bands for f in b.filters
                             if not f.bypass))
 
@@ -421,6 +433,7 @@ class CrossplanApp(App):
         if gen != self._gen or report.project is not self.project:
             return
         self.analysis_cpu_ms = cpu_ms
+        self._analysed_size = _analysis_size(report.project)
         self._busy = self._designing = False
         self.report = report
         self.arith_export = rx

@@ -86,3 +86,17 @@ async def test_a_project_with_an_fir_is_analysed_off_the_ui_thread():
         assert not app._inline(project.from_dict(_old_three_way()))
         app.analysis_cpu_ms = 1.0
         assert app._inline(project.from_dict(_old_three_way()))
+
+
+async def test_a_bigger_project_than_the_last_analysed_goes_to_a_thread():
+    # The last analysis's time says nothing of one with more points or bands.
+    from planner import edits
+
+    app = _app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        app.analysis_cpu_ms = 1.0
+        p = app.project
+        assert app._inline(p)
+        assert not app._inline(edits.set_analysis(p, points=4 * p.analysis.points))
+        assert app._inline(edits.remove_filter(p, 0, 0))          # smaller: on the UI thread
