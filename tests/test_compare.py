@@ -326,12 +326,14 @@ class TestEndOfRange:
         assert calls and max(calls) < 100
 
     def test_the_subsonic_filter_stays_in_both_builds(self, two_way_preset):
-        # The IIR build is the project itself (the same flatness as the check's voiced sum:
-        # builds keep every EQ filter, voicing included), and the FIR build still holds the
-        # BW2 highpass's sections.
+        # The IIR build is the project itself: its sum is judged as the check judges the
+        # project's (voicing set aside), so the flatness is the check's; and the FIR build
+        # still holds the BW2 highpass's sections.
         c = compare.compare_project(two_way_preset)
         r = engine.analyse(two_way_preset)
-        assert c.iir_sum.max_dev_db == pytest.approx(r.voiced["max_dev_db"], abs=1e-12)
+        assert c.iir_sum.voicing_set_aside and c.fir_sum.voicing_set_aside
+        assert c.iir_sum.max_dev_db == pytest.approx(r.max_dev_db, abs=1e-12)
+        assert r.voiced["max_dev_db"] != pytest.approx(r.max_dev_db, abs=0.1)  # it matters
         bw2 = iir.butterworth_sos("highpass", 2, 25.0, FS)
         woofer = c.fir_sum.designs[0]
         assert any(np.allclose(row, bw2[0]) for row in woofer.sos)
@@ -419,3 +421,21 @@ def test_an_equivalent_beyond_the_cap_is_reported_at_once_with_kaisers_estimate(
 def compare_max_taps():
     from planner.defaults import COMPARE_MAX_TAPS
     return COMPARE_MAX_TAPS
+
+
+def test_the_builds_are_judged_from_the_projects_target_as_the_check():
+    # An all-IIR project's IIR build is the project: with a tilt target its flatness is
+    # the check's deviation from the tilt, not from 0 dB, and the text says so.
+    from planner.present.text import compare_text
+    from tests.conftest import two_way
+
+    d = two_way(4, fc=2000.0)
+    d["analysis"]["target"] = "tilt:-1"
+    p = project.from_dict(d)
+    c = compare.compare_project(p)
+    r = engine.analyse(p)
+    assert c.iir_sum.target == "tilt:-1" and not c.iir_sum.voicing_set_aside
+    assert c.iir_sum.max_dev_db == pytest.approx(r.max_dev_db, abs=1e-12)
+    # the LR4 sum is flat, so from a -1 dB/octave tilt it is off by about 10 dB at 20 Hz
+    assert abs(c.iir_sum.max_dev_db) > 5.0
+    assert "from the target tilt:-1" in compare_text(c)

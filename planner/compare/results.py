@@ -200,7 +200,13 @@ class Build:
         then the figures are None.
     max_dev_db, at_hz, ripple_db : float or None
         Flatness of the sum of the active bands on the analysis grid
-        (:func:`planner.dsp.analysis.flatness`).
+        (:func:`planner.dsp.analysis.flatness`), judged as the check judges the
+        project's sum: from ``target`` (the project's ``analysis.target``; None:
+        0 dB) and with the filters marked voicing set aside.
+    target : str or None
+    voicing_set_aside : bool
+        Whether the project has voicing filters, set aside for the figures
+        (``designs`` keeps them: the bands as they would run).
     latency_samples, latency_ms : float or None
         Common latency of the crossovers after alignment.
     inverted : list of str
@@ -226,10 +232,13 @@ class Build:
     align_samples: list[float] = field(default_factory=list)
     inverted: list[str] = field(default_factory=list)
     designs: list[BandDesign] | None = field(default=None, repr=False, compare=False)
+    target: str | None = None
+    voicing_set_aside: bool = False
 
     def to_dict(self) -> dict:
         return {"family": self.family, "complete": self.complete, "missing": self.missing,
                 "max_dev_db": self.max_dev_db, "at_hz": self.at_hz, "ripple_db": self.ripple_db,
+                "target": self.target, "voicing_set_aside": self.voicing_set_aside,
                 "latency_samples": self.latency_samples, "latency_ms": self.latency_ms,
                 "align_samples": self.align_samples, "inverted": self.inverted}
 

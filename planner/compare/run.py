@@ -105,14 +105,15 @@ def compare_chain(sos: np.ndarray, fir: np.ndarray | None, fs_hz: float, design:
     return _ChainResult("fir", spec, other, own)
 
 
-def _parts(band, fs: float, kept: set[int] = frozenset()):
+def _parts(band, fs: float, kept: set[int] = frozenset(), voicing: bool = True):
     """(crossover sos, crossover fir, EQ sos, EQ fir, label, kept labels) of a band's live filters.
 
-    The filters at the positions ``kept`` (end-of-range ones) go with the EQ.
+    The filters at the positions ``kept`` (end-of-range ones) go with the EQ. With
+    ``voicing=False`` the filters marked voicing are left out (as the check judges).
     """
     xs, xf, es, ef, labels, kept_labels = [], None, [], None, [], []
     for k, f in enumerate(band.filters):
-        if f.bypass:
+        if f.bypass or (f.voicing and not voicing):
             continue
         d = engine.design_filter(f, fs)
         if k in kept:
@@ -213,18 +214,24 @@ def compare_project(project: Project, ripple_db: float = DEFAULT_RIPPLE_DB,
                                     end_of_range=kept))
     if progress is not None:
         progress(1.0)
+    judged = parts
+    if project.without_voicing() is not project:     # judged with the voicing set aside
+        judged = [_parts(b, fs, e, voicing=False) for b, e in zip(project.bands, ends)]
     return Comparison(project.name, fs, r, a, iir_family, bands,
-                      _build(project, rep, parts, bands, "iir"),
-                      _build(project, rep, parts, bands, "fir"))
+                      _build(project, rep, parts, bands, "iir", judged),
+                      _build(project, rep, parts, bands, "fir", judged))
 
 
 def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComparison],
-           family: str) -> Build:
+           family: str, judged=None) -> Build:
     """Every band's crossover replaced by its ``family`` side; EQ, gain, delay, polarity kept.
 
     With drivers the build's sum is acoustic (each band times its driver), as
-    the check's.
+    the check's. Its flatness is judged as the check's: from the project's
+    target, on the bands built from ``judged`` (the parts without the voicing
+    filters; default ``parts``).
     """
+    judged = parts if judged is None else judged
     fs = float(project.sample_rate)
     missing = [b.name for b in bands if b.status == NOT_MET]
     if missing:
@@ -241,28 +248,40 @@ def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComp
         delta.append(side.latency_samples - own_side.latency_samples)
     top = max(delta) if delta else 0.0
     align = [top - d for d in delta]
-    designs = []
-    for (b, (xs, xf, es, ef, _, _), own, side, al) in zip(bands, parts, rep.designs, chains,
-                                                          align):
-        if side is None:
-            designs.append(own)
-            continue
-        sos = np.vstack([es, side.sos]) if len(es) else side.sos
-        f = side.fir
-        if ef is not None:
-            f = ef if f is None else np.convolve(ef, f)
-        designs.append(BandDesign(sos, f, own.gain_db, own.delay_samples + al, own.invert))
+    def built(which, owns):
+        out = []
+        for (b, (xs, xf, es, ef, _, _), own, side, al) in zip(bands, which, owns, chains,
+                                                              align):
+            if side is None:
+                out.append(own)
+                continue
+            sos = np.vstack([es, side.sos]) if len(es) else side.sos
+            f = side.fir
+            if ef is not None:
+                f = ef if f is None else np.convolve(ef, f)
+            out.append(BandDesign(sos, f, own.gain_db, own.delay_samples + al, own.invert))
+        return out
+
+    designs = built(parts, rep.designs)
+    voiced = judged is not parts
+    checked = designs
+    if voiced:
+        fs_ = project.sample_rate
+        checked = built(judged, [engine.design_band(b, fs_)
+                                 for b in project.without_voicing().bands])
+    target = project.analysis.target
     active = project.active()
     lat = max((s.latency_samples + al for s, al in zip(chains, align) if s is not None),
               default=0.0)
     inverted = [b.name for b in project.bands if b.invert]
     if not any(active):
         return Build(family, True, [], None, None, None, lat, 1000.0 * lat / fs, align,
-                     inverted, designs)
-    bands_h = engine.evaluate(designs, rep.freqs_hz, fs).h
+                     inverted, designs, target, voiced)
+    bands_h = engine.evaluate(checked, rep.freqs_hz, fs).h
     if rep.drivers is not None:          # the acoustic sum, as the check's
         bands_h = bands_h * rep.drivers.all_bands(rep.freqs_hz)
     h = bands_h[np.asarray(active, dtype=bool)].sum(axis=0)
-    dev, at, ripple = an.flatness(rep.freqs_hz, h)
+    t_db = 0.0 if rep.target_db is None else rep.target_db
+    dev, at, ripple = an.flatness(rep.freqs_hz, h, t_db)
     return Build(family, True, [], dev, at, ripple, lat, 1000.0 * lat / fs, align, inverted,
-                 designs)
+                 designs, target, voiced)

@@ -275,8 +275,12 @@ def _build_lines(s) -> list[str]:
     lat = f"{'':<{_LABEL}}latency {s.latency_samples:g} smp = {s.latency_ms:.3f} ms"
     if s.max_dev_db is None:
         return [f"{head:<{_LABEL}}every band is muted", lat]
+    how = [f"from the target {s.target}"] if s.target else []
+    if s.voicing_set_aside:
+        how.append("voicing set aside")
+    how_text = f" ({', '.join(how)})" if how else ""
     return [f"{head:<{_LABEL}}{s.max_dev_db:+.2f} dB at {format_hz(s.at_hz)}, ripple "
-            f"{s.ripple_db:.2f} dB", lat]
+            f"{s.ripple_db:.2f} dB{how_text}", lat]
 
 
 def compare_text(c, width: int = 80) -> str:
