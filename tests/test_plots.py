@@ -197,3 +197,18 @@ def test_plot_to_a_file_writes_no_colour_codes(capsys):
     out = capsys.readouterr().out
     assert "\x1b[" not in out                 # stdout is not a terminal here
     assert "w woofer" in out and "t tweeter" in out
+
+
+def test_nice_ticks_use_the_1_2_5_series_and_fill_a_small_range():
+    # Steps of 1, 2 or 5 x 10^k (the "nice numbers" of P. Heckbert, Graphics Gems, 1990;
+    # cited from memory). A +/-0.55 dB preview with room for 3 labels gets the limits
+    # +/-0.5 and 0, not 0 alone.
+    assert plots.nice_ticks(-0.55, 0.55, 3) == [-0.5, 0.0, 0.5]
+    assert plots.nice_ticks(0, 1, 5) == [0.0, 0.5, 1.0]
+    for lo, hi, n in ((-42, 6, 4), (-0.3, 0.7, 6), (20, 95, 5), (-1e-3, 2e-3, 4)):
+        t = plots.nice_ticks(lo, hi, n)
+        assert 1 <= len(t) <= n and all(lo - 1e-12 <= x <= hi + 1e-12 for x in t)
+        step = t[1] - t[0] if len(t) > 1 else None
+        if step:
+            mant = step / 10 ** np.floor(np.log10(step))
+            assert min(abs(mant - m) for m in (1, 2, 5)) < 1e-9, (lo, hi, n, t)

@@ -151,15 +151,21 @@ def downsample_log(x: np.ndarray, y: np.ndarray, n: int) -> tuple[np.ndarray, np
 
 
 def nice_ticks(lo: float, hi: float, max_ticks: int) -> list[float]:
-    """Round tick values (steps of 1, 2, 3, 5, 6 x 10^k) covering [lo, hi], at most ``max_ticks``."""
+    """Round tick values (steps of 1, 2 or 5 x 10^k) inside [lo, hi], at most ``max_ticks``."""
     span = hi - lo
     if not np.isfinite(span) or span <= 0 or max_ticks < 2:
         return [lo, hi] if np.isfinite(span) else []
     raw = span / (max_ticks - 1)
     mag = 10.0 ** np.floor(np.log10(raw))
-    step = next(m * mag for m in (1, 2, 3, 5, 6, 10, 20) if m * mag >= raw)
-    first = np.ceil(lo / step) * step
-    ticks = np.arange(first, hi + step * 1e-9, step)
+    # The finest round step whose ticks inside [lo, hi] are at most max_ticks: a step a
+    # little under span / (max_ticks - 1) still fits when the range does not start on one
+    # (+/-0.55 takes -0.5, 0, 0.5 for 3 ticks).
+    for m in (0.5, 1, 2, 5, 10, 20):
+        step = m * mag
+        first = np.ceil(lo / step - 1e-9) * step
+        ticks = np.arange(first, hi + step * 1e-9, step)
+        if len(ticks) <= max_ticks:
+            break
     return [float(round(t, 10)) + 0.0 for t in ticks]
 
 
@@ -442,7 +448,7 @@ def freq_canvas(series: Sequence[Series], width: int = 80, height: int = 20,
     if ylabel == "deg" and y_range == (-180.0, 180.0):
         y_ticks = (-180.0, -90.0, 0.0, 90.0, 180.0)
     else:
-        y_ticks = tuple(nice_ticks(y_range[0], y_range[1], max(2, (height - 4) // 3)))
+        y_ticks = tuple(nice_ticks(y_range[0], y_range[1], max(3, (height - 4) // 3)))
     lo, hi = 10 ** x_range[0], 10 ** x_range[1]
     x_ticks = tuple((float(np.log10(t)), _tick_label(t)) for t in _FREQ_TICKS
                     if lo * 0.9999 <= t <= hi * 1.0001)
