@@ -41,7 +41,7 @@ from planner.engine.result import (BandResult, CheckResult, CrossingResult, Repo
 from planner.engine.warnings import PENDING_HINT, warnings_of
 from planner.errors import CrossplanError, ProjectError
 from planner.model import Band, Project
-from planner.targets import parse_target
+from planner.targets import project_target
 
 __all__ = ["analyse", "check_points", "hints_pending", "phase_hints", "start_grid", "target_level",
            "voicing_labels"]
@@ -87,13 +87,7 @@ def target_level(project: Project):
     ProjectError
         ``field='analysis.target'``: the curve cannot be read (a file gone since loading).
     """
-    t = project.analysis.target
-    if t is None:
-        return None
-    try:
-        return parse_target(t, project.source_dir)
-    except CrossplanError as e:
-        raise e.at("analysis") from None
+    return None if project.analysis.target is None else project_target(project)
 
 
 def _sample(project: Project, designs: list[BandDesign], active: list[bool], response, point,
