@@ -364,7 +364,7 @@ def _move(project: Project, target_fn, vary: set, bounds: Bounds, what: str) -> 
     p = project
 
     def score(cand: Project) -> float:
-        r = engine.analyse(cand)
+        r = engine.analyse(cand, warnings=False)     # a trial: its figures only
         (j, *_), _ = _inner(r, target_fn(r.freqs_hz), inner_vary, bounds)
         return j
 
@@ -458,7 +458,7 @@ def align(project: Project, vary=ALIGN_DEFAULT, bounds: Bounds = Bounds(),
     for what in ("freq", "allpass"):
         if what in vary:
             p = _move(p, target_fn, vary, bounds, what)
-    base = before if p is project else engine.analyse(p)
+    base = before if p is project else engine.analyse(p, warnings=False)
     (_, d, g, s), prob = _inner(base, target_fn(base.freqs_hz), vary, bounds, share=(0.7, 0.3))
     cand = _apply(p, prob, d, g, s)
     after = engine.analyse(cand)

@@ -169,7 +169,7 @@ class _Chain:
         if split:
             zero = replace(zero, bands=tuple(replace(b, gain_db=0.0) if k in split else b
                                              for k, b in enumerate(zero.bands)))
-        self.report0 = engine.analyse(zero)
+        self.report0 = engine.analyse(zero, warnings=False)   # the responses only
         self.f = self.report0.freqs_hz
         self.w = 2 * np.pi * self.f / self.fs
         self.act = [int(i) for i in np.flatnonzero(self.report0.active)]
