@@ -212,6 +212,26 @@ class _Problem:
         s = np.zeros((dd.shape[0], len(self.f)), dtype=complex)
         for k in range(self.n):                  # a loop over bands, not frequencies
             s += (g[k] * self.h[k]) * np.exp(-1j * np.outer(dd[:, k], self.w))
+        return self._score(s, dd, signs)
+
+    def scan(self, k: int, delays_k_s: np.ndarray, delays_s: np.ndarray, gains_db, signs):
+        """:meth:`batch` for the rows that are ``delays_s`` (n,) with band ``k``'s delay
+        replaced by each of ``delays_k_s`` (m,): the other bands' sum is made once, so
+        only band ``k``'s term is evaluated per row."""
+        d = (np.asarray(delays_s, float) - self.d0) * self.fs        # (n,) samples
+        dk = (np.asarray(delays_k_s, float) - self.d0[k]) * self.fs  # (m,) samples
+        g = 10 ** (np.asarray(gains_db, float) / 20) * np.asarray(signs, float)
+        rest = np.zeros(len(self.f), dtype=complex)
+        for i in range(self.n):                  # a loop over bands, not frequencies
+            if i != k:
+                rest += (g[i] * self.h[i]) * np.exp(-1j * d[i] * self.w)
+        s = rest[None] + (g[k] * self.h[k]) * np.exp(-1j * np.outer(dk, self.w))
+        dd = np.repeat(d[None], len(dk), axis=0)
+        dd[:, k] = dk
+        return self._score(s, dd, signs)
+
+    def _score(self, s: np.ndarray, dd: np.ndarray, signs) -> np.ndarray:
+        """The objective of sums ``s`` (m, n_freqs) made with band delays ``dd`` (m, n)."""
         j = ((an.db(s) - self.target) ** 2) @ self.wt
         if self.overlaps:
             flip = np.where(np.asarray(signs) < 0, np.pi, 0.0)
@@ -266,9 +286,7 @@ def _search_continuous(prob: _Problem, signs, vary: set, bounds: Bounds, d0, g0)
             for k in range(n):
                 cands = np.unique(np.r_[np.arange(0.0, dmax[k] + 1e-12, per[k] / SCAN_STEPS),
                                         d[k]])
-                rows = np.repeat(d[None], len(cands), axis=0)
-                rows[:, k] = cands
-                d[k] = cands[int(np.argmin(prob.batch(rows, g, signs)))]
+                d[k] = cands[int(np.argmin(prob.scan(k, cands, d, g, signs)))]
     x0, lo, hi = [], [], []
     if "delay" in vary:
         x0 += list(d * 1e3)

@@ -183,3 +183,23 @@ def test_the_input_project_is_not_changed():
     before = copy.deepcopy(pj.to_dict(p))
     align(p)
     assert pj.to_dict(p) == before
+
+
+def test_the_one_band_delay_scan_scores_as_the_full_batch():
+    # The scan makes the other bands' sum once; its objective must be the batch's (the
+    # same rows written out in full), to rounding.
+    from planner import engine
+    from planner.solve.alignment import _Problem
+
+    d = two_way(order=4, fc=2000.0)
+    d["bands"][1]["delay_ms"] = 0.1
+    r = engine.analyse(pj.from_dict(d))
+    prob = _Problem(r, np.zeros(len(r.freqs_hz)))
+    base = np.array([2e-4, 0.0])
+    gains, signs = np.array([0.7, -1.2]), np.array([1.0, -1.0])
+    cands = np.linspace(0.0, 1e-3, 41)
+    for k in range(2):
+        rows = np.repeat(base[None], len(cands), axis=0)
+        rows[:, k] = cands
+        full = prob.batch(rows, gains, signs)
+        np.testing.assert_allclose(prob.scan(k, cands, base, gains, signs), full, rtol=1e-12)
