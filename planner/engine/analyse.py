@@ -37,7 +37,7 @@ from planner.dsp.response import BandResponses, log_derivative
 from planner.engine.acoustic import AcousticPoints, Drivers, band_acoustics
 from planner.engine.design import BandDesign, design_band, evaluate, point_evaluator
 from planner.engine.result import (BandResult, CheckResult, CrossingResult, Report,
-                                   check_state)
+                                   check_state, sum_within)
 from planner.engine.warnings import PENDING_HINT, warnings_of
 from planner.errors import CrossplanError, ProjectError
 from planner.model import Band, Project
@@ -293,7 +293,7 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
         max_dev, at, ripple = an.flatness(freqs, checked_sum * rel)
     else:
         max_dev, at, ripple = float("-inf"), float(freqs[0]), 0.0
-    flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+    flat_ok = sum_within(max_dev, a.flatness_db)
     voiced_fig = None
     if voiced and act_idx:
         vd, vat, vr = an.flatness(freqs, sum_h * rel)

@@ -21,7 +21,7 @@ from planner.engine.design import BandDesign
 from planner.model import Project
 
 __all__ = ["CrossingResult", "BandResult", "CheckResult", "STATE_TEXT", "Warning_", "Report",
-           "check_state"]
+           "check_state", "sum_within"]
 
 
 @dataclass(frozen=True)
@@ -113,6 +113,11 @@ class CheckResult:
     def text(self) -> str:
         """``"ok"``, ``"warn"`` or ``"FAIL"``."""
         return STATE_TEXT[self.state]
+
+
+def sum_within(max_dev_db: float, limit_db: float) -> bool:
+    """The sum check's rule: its largest deviation is a number and within +/- ``limit_db``."""
+    return bool(np.isfinite(max_dev_db) and abs(max_dev_db) <= limit_db)
 
 
 def check_state(within: bool, enforced: bool) -> str:

@@ -15,13 +15,13 @@ import numpy as np
 from planner import config
 from planner import filters as fk
 from planner import project as pj
-from planner.errors import CrossplanError
-from planner.model import Band
 from planner.dsp import analysis as an
 from planner.engine.design import design_band, evaluate
-from planner.engine.result import Report, Warning_
+from planner.engine.result import Report, Warning_, sum_within
 from planner.engine.rounding import fraction_warnings
 from planner.engine.safety import driver_warnings
+from planner.errors import CrossplanError
+from planner.model import Band
 from planner.units import format_hz
 
 __all__ = ["warnings_of", "LATENCY_TOL_SAMPLES", "phase_fixes", "PhaseFix", "PENDING_HINT"]
@@ -218,7 +218,7 @@ def _screened(r: Report, c, candidates: list) -> list[PhaseFix]:
     grid = np.concatenate([freqs, [x.freq_hz for x in xs]])
     deltas = [(i, b) for *_, delta in candidates for i, b in delta.items()]
     turns = evaluate([design_band(b, fs) for _, b in deltas], grid, fs).h
-    rel = 1.0 if r.target_db is None else 10.0 ** (-np.asarray(r.target_db) / 20.0)
+    t_db = 0.0 if r.target_db is None else r.target_db
     others_ok = all(ch.state != "fail" for ch in r.checks if ch.name not in ("sum", "crossings"))
     before = np.array([x.phase_diff_deg for x in xs], dtype=float)
     first = np.array([x.band_index[0] for x in xs], dtype=int)
@@ -235,8 +235,8 @@ def _screened(r: Report, c, candidates: list) -> list[PhaseFix]:
                 total += h[i] * (g[:nf] - 1.0)
             ang = np.degrees(np.angle(g[nf:]))
             turn_deg += np.where(first == i, ang, 0.0) - np.where(second == i, ang, 0.0)
-        max_dev, _, _ = an.flatness(freqs, total * rel)
-        flat_ok = bool(np.isfinite(max_dev) and abs(max_dev) <= a.flatness_db)
+        max_dev, _, _ = an.flatness(freqs, total, t_db)
+        flat_ok = sum_within(max_dev, a.flatness_db)
         after = np.abs(an.wrap_deg(before + turn_deg))
         worst = float(after.max()) if len(after) else 0.0
         same = float(after[mine].min()) if mine.any() else None
