@@ -266,8 +266,7 @@ def _build(project: Project, rep: engine.Report, parts, bands: Sequence[BandComp
     voiced = judged is not parts
     checked = designs
     if voiced:
-        fs_ = project.sample_rate
-        checked = built(judged, [engine.design_band(b, fs_)
+        checked = built(judged, [engine.design_band(b, fs)
                                  for b in project.without_voicing().bands])
     target = project.analysis.target
     active = project.active()
