@@ -146,6 +146,20 @@ def _analysis_size(p: Project) -> tuple:
             int(p.has_drivers))
 
 
+def _analysis_of(project: Project) -> tuple:
+    """``(report, wall ms, target-arithmetic export or None, CPU ms)`` of ``project``, for
+    :meth:`CrossplanApp._analysis_done`: the check bar and plot first, the phase hints
+    later (:meth:`CrossplanApp._find_hints`). The CPU time is the calling thread's, so it
+    leaves out time spent waiting for the other thread."""
+    t0, c0 = time.perf_counter(), time.thread_time()
+    report = engine.analyse(project, hints=False)
+    rx = None
+    if project.analysis.arith is not None:
+        rx = export.export_rate(project, project.sample_rate, project.analysis.arith)
+    return (report, (time.perf_counter() - t0) * 1000.0, rx,
+            (time.thread_time() - c0) * 1000.0)
+
+
 #: An analysis that took less than this (ms, without the phase hints) is made on the UI
 #: thread next time, when the project has no FIR to design (see CrossplanApp._inline):
 #: within one frame (16.7 ms at 60 frames/s) with room for the drawing.
@@ -331,17 +345,12 @@ class CrossplanApp(App):
 
     def _analyse_now(self, project: Project, gen: int) -> None:
         """:meth:`_analyse` on the UI thread (see :meth:`_inline`)."""
-        t0, c0 = time.perf_counter(), time.thread_time()
         try:
-            report_ = engine.analyse(project, hints=False)
-            rx = None
-            if project.analysis.arith is not None:
-                rx = export.export_rate(project, project.sample_rate, project.analysis.arith)
+            done = _analysis_of(project)
         except CrossplanError as e:
             self._analysis_failed(gen, e)
             return
-        self._analysis_done(gen, report_, (time.perf_counter() - t0) * 1000.0, rx,
-                            (time.thread_time() - c0) * 1000.0)
+        self._analysis_done(gen, *done)
 
     def _check_lines(self) -> tuple[str, ...] | None:
         if self.report is None:
@@ -359,7 +368,6 @@ class CrossplanApp(App):
     def _analyse(self, project: Project, gen: int) -> None:
         """Design and check ``project`` in a thread; long designs report progress and stop
         when a newer analysis starts or the user cancels (Escape)."""
-        t0, c0 = time.perf_counter(), time.thread_time()
         shown = [-1, ""]
 
         def report(fraction: float, text: str) -> None:
@@ -373,22 +381,14 @@ class CrossplanApp(App):
 
         try:
             with progress.scope(report=report, cancel=cancel):
-                # The check bar and plot first; the phase hints (each fix tried) after the
-                # screen has shown them (_find_hints).
-                report_ = engine.analyse(project, hints=False)
-                rx = None
-                if project.analysis.arith is not None:
-                    rx = export.export_rate(project, project.sample_rate,
-                                            project.analysis.arith)
+                done = _analysis_of(project)
         except DesignCancelled:
             self.call_from_thread(self._design_cancelled, gen)
             return
         except CrossplanError as e:
             self.call_from_thread(self._analysis_failed, gen, e)
             return
-        self.call_from_thread(self._analysis_done, gen, report_,
-                              (time.perf_counter() - t0) * 1000.0, rx,
-                              (time.thread_time() - c0) * 1000.0)
+        self.call_from_thread(self._analysis_done, gen, *done)
 
     def _design_progress(self, gen: int, fraction: float, text: str) -> None:
         if gen == self._gen and self._busy:
@@ -439,14 +439,18 @@ class CrossplanApp(App):
         self.arith_export = rx
         self.analysis_ms = ms
         self.query_one(CheckBar).show(self._check_lines())
-        items = views.warning_items(report)
-        if rx is not None:
-            items += views.arith_warning_items(rx)
-        self.query_one(WarningList).show(items)
+        self._show_warnings()
         self.show_plot()
         self.hints_pending = engine.hints_pending(report)
         if self.hints_pending:
             self.call_after_refresh(self._find_hints, report, gen)
+
+    def _show_warnings(self) -> None:
+        """The warning list: the shown report's, then the target arithmetic's."""
+        items = views.warning_items(self.report)
+        if self.arith_export is not None:
+            items += views.arith_warning_items(self.arith_export)
+        self.query_one(WarningList).show(items)
 
     @work(thread=True, exclusive=True, group="analysis", description="_find_hints")
     def _find_hints(self, report: engine.Report, gen: int) -> None:
@@ -467,10 +471,7 @@ class CrossplanApp(App):
         if full is None:
             return
         self.report = full
-        items = views.warning_items(full)
-        if self.arith_export is not None:
-            items += views.arith_warning_items(self.arith_export)
-        self.query_one(WarningList).show(items)
+        self._show_warnings()
         if self.view in views.PAIR_VIEWS:
             self.show_plot()      # the difference views show the pair's hint
 

@@ -76,6 +76,14 @@ def _plain(text: str) -> Option:
     return Option(Text(text))
 
 
+def _replace_changed(options: OptionList, old: list[str], new: list[str]) -> None:
+    """Replace the prompts of ``options`` that differ from ``old`` by those of ``new`` (as
+    many of each), in place: the list keeps its options and its size."""
+    for i, (a, b) in enumerate(zip(old, new)):
+        if a != b:
+            options.replace_option_prompt_at_index(i, Text(b))
+
+
 class _PickList(OptionList):
     """An option list whose highlight is the app's selection; moving it posts ``Picked``."""
 
@@ -89,11 +97,8 @@ class _PickList(OptionList):
         old = getattr(self, "_prompts", None)
         with self.prevent(OptionList.OptionHighlighted):
             if prompts and old is not None and len(old) == len(prompts):
-                # As many rows as shown: only the changed ones are replaced, so the list
-                # keeps its size and the screen is not arranged again.
-                for i, (a, b) in enumerate(zip(old, prompts)):
-                    if a != b:
-                        self.replace_option_prompt_at_index(i, Text(b))
+                # As many rows as shown: the list keeps its size, the screen its layout.
+                _replace_changed(self, old, prompts)
             elif prompts:
                 self.set_options([_plain(p) for p in prompts])
             else:
@@ -502,9 +507,7 @@ class WarningList(OptionList):
             if old and len(old) == len(items) and self._full(old) and self._full(items):
                 # As many warnings, and the list at its tallest before and after: the new
                 # texts replace the old in place and the screen is not arranged again.
-                for i, (a, t) in enumerate(zip(old, texts)):
-                    if f"! {a.text}" != t:
-                        self.replace_option_prompt_at_index(i, Text(t))
+                _replace_changed(self, [f"! {w.text}" for w in old], texts)
             else:
                 self.set_options([_plain(t) for t in texts]
                                  or [Option(Text("no warnings"), disabled=True)])
