@@ -46,6 +46,13 @@ def theirs(path):
     return path.read_bytes()
 
 
+async def muted_and_autosaved(app, pilot, path):
+    """The editor up, the woofer muted (an unsaved edit), and its autosave written."""
+    await settle(app, pilot)
+    await mute_woofer(app, pilot)
+    assert await wait_for(lambda: autosave.find(path) is not None, pilot)
+
+
 async def wait_for(cond, pilot, timeout_s=5.0):
     for _ in range(int(timeout_s / 0.02)):
         if cond():
@@ -118,9 +125,7 @@ async def test_crash_leaves_an_autosave_and_the_next_start_restores_it(two_way_f
     before = two_way_file.read_bytes()
     app = open_app(two_way_file)
     async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await mute_woofer(app, pilot)
-        assert await wait_for(lambda: autosave.find(two_way_file) is not None, pilot)
+        await muted_and_autosaved(app, pilot, two_way_file)
         app.exit(1)                           # a crash: no save, no question, no clean-up
     assert two_way_file.read_bytes() == before
     assert autosave.find(two_way_file) is not None
@@ -151,24 +156,12 @@ async def test_discarding_the_offered_autosave_removes_it(two_way_file):
         assert autosave.find(two_way_file) is None and not app.project.bands[0].invert
 
 
-async def test_saving_removes_the_autosave(two_way_file):
+@pytest.mark.parametrize("key", ["ctrl+s", "ctrl+z"])   # saving; undo to the saved state
+async def test_saving_or_undoing_to_the_saved_state_removes_the_autosave(two_way_file, key):
     app = open_app(two_way_file)
     async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await mute_woofer(app, pilot)
-        assert await wait_for(lambda: autosave.find(two_way_file) is not None, pilot)
-        await pilot.press("ctrl+s")
-        await settle(app, pilot)
-        assert autosave.find(two_way_file) is None
-
-
-async def test_undo_to_the_saved_state_removes_the_autosave(two_way_file):
-    app = open_app(two_way_file)
-    async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await mute_woofer(app, pilot)
-        assert await wait_for(lambda: autosave.find(two_way_file) is not None, pilot)
-        await pilot.press("ctrl+z")
+        await muted_and_autosaved(app, pilot, two_way_file)
+        await pilot.press(key)
         await settle(app, pilot)
         assert autosave.find(two_way_file) is None
 
@@ -176,9 +169,7 @@ async def test_undo_to_the_saved_state_removes_the_autosave(two_way_file):
 async def test_quitting_and_discarding_on_purpose_removes_the_autosave(two_way_file):
     app = open_app(two_way_file)
     async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await mute_woofer(app, pilot)
-        assert await wait_for(lambda: autosave.find(two_way_file) is not None, pilot)
+        await muted_and_autosaved(app, pilot, two_way_file)
         await pilot.press("q")
         await pilot.pause()
         await pilot.press("d")
