@@ -132,13 +132,18 @@ def test_no_hint_tried_is_ever_claimed_without_checking():
 
 def _cases():
     """Projects with a crossing out of phase, of shapes the hint was not written for:
-    Butterworth and Bessel pairs, delays, a voicing shelf, drivers, 44.1 to 192 kHz."""
+    Butterworth (orders 1, 3, 4, 6), Linkwitz-Riley (2, 4, 8) and Bessel (4, 8) pairs from
+    80 Hz to 15 kHz, delays, a voicing shelf, drivers, 44.1 to 192 kHz."""
     out = []
     for fam, order, fs, fc, delay in (("butterworth", 3, 44100, 1800.0, 0.0),
                                       ("butterworth", 4, 96000, 350.0, 0.3),
                                       ("bessel", 4, 48000, 2500.0, 0.05),
                                       ("linkwitz-riley", 4, 192000, 80.0, 1.5),
-                                      ("linkwitz-riley", 8, 48000, 5000.0, 0.02)):
+                                      ("linkwitz-riley", 8, 48000, 5000.0, 0.02),
+                                      ("butterworth", 1, 44100, 1000.0, 0.0),
+                                      ("linkwitz-riley", 2, 192000, 15000.0, 0.004),
+                                      ("butterworth", 6, 96000, 120.0, 0.8),
+                                      ("bessel", 8, 44100, 9000.0, 0.03)):
         d = two_way(order, fam, fc=fc, fs=fs)
         d["bands"][1]["delay_ms"] = delay
         out.append(d)
@@ -152,7 +157,7 @@ def _cases():
     return out
 
 
-@pytest.mark.parametrize("k", range(7))
+@pytest.mark.parametrize("k", range(11))
 def test_a_change_judged_from_the_report_matches_a_full_analysis_of_it(k):
     # Each candidate is first judged from the report's responses (the crossings'
     # phases turned by the change's own phase, the sum on the report's grid); that
