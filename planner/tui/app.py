@@ -308,8 +308,12 @@ class CrossplanApp(App):
         p = self.project
         dirty = self.history.dirty
         self.query_one(TitleBar).show(p.name, self.path, dirty, p.sample_rate, self.view)
-        self.title = f"crossplan - {Path(self.path).name if self.path else 'demo'}" + \
-            (" *" if dirty else "")
+        # Textual's own title (screenshots are named after it; no widget shows it): setting
+        # it repaints the whole screen, so only when the file changes, and without the
+        # unsaved-changes mark, which the title bar shows.
+        title = f"crossplan - {Path(self.path).name if self.path else 'demo'}"
+        if self.title != title:
+            self.title = title
 
     async def commit(self, new: Project, label: str) -> None:
         """Record an edit and show it."""

@@ -3,7 +3,7 @@ reaches into another, and none holds DSP."""
 
 from __future__ import annotations
 
-from typing import Any
+from typing import Any, NamedTuple
 
 from rich.cells import cell_len
 from rich.segment import Segment
@@ -12,6 +12,7 @@ from rich.text import Span, Text
 from textual import on
 from textual.app import ComposeResult
 from textual.containers import Horizontal, Vertical
+from textual.geometry import Size
 from textual.message import Message
 from textual.reactive import reactive
 from textual.strip import Strip
@@ -29,8 +30,18 @@ from planner.present.plots import Canvas, freq_canvas, time_canvas
 from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
-__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "BandForm", "DriverForm", "FilterForm",
-           "PlotView", "Readout", "CheckBar", "WarningList", "field_text", "show_text"]
+__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "RowSpec", "BandForm", "DriverForm", "FilterForm",
+           "PlotView", "Readout", "CheckBar", "WarningList", "field_text", "set_title", "show_text"]
+
+
+def set_title(widget: Widget, title: str) -> None:
+    """Give ``widget`` the border title ``title``; nothing happens when it already has it.
+
+    Textual repaints a widget whenever its title is assigned, the same text or not, and a
+    form's repaint costs milliseconds: an edit that leaves the title as it was asks for none.
+    """
+    if widget.border_title != title:
+        widget.border_title = title
 
 
 def show_text(widget: Static, text: str) -> None:
@@ -131,7 +142,7 @@ class ChainList(_PickList):
     """The chain of the selected band, one filter label a line."""
 
     def show(self, band: Band, selected: int | None) -> None:
-        self.border_title = f"Chain: {band.name}"
+        set_title(self, f"Chain: {band.name}")
         self.set_items([f"{j + 1} {fk.label(f)}" for j, f in enumerate(band.filters)], selected,
                        "(empty: a adds a filter)")
 
@@ -149,6 +160,39 @@ def field_text(spec_kind: str, unit: str, value: Any) -> str:
     if spec_kind == "floats":
         return ", ".join(units.format(v, digits=6) for v in value)
     return str(value)
+
+
+class FieldInput(Input):
+    """The one-line input of a :class:`FieldRow`: a new value repaints the field only.
+
+    Textual's Input makes its virtual size as wide as its text at every change of value,
+    and a widget whose virtual size changes asks for the whole screen to be arranged again
+    (about 5 ms at 120x40, on every keypress that changes a field's width). A field of one
+    line, of fixed width, never changes the screen's arrangement: the new size is stored
+    without that request (the input scrolls within it as before) and the field repainted.
+    """
+
+    def _watch_value(self, value: str) -> None:
+        self.set_reactive(Input.virtual_size, Size(self.content_width, 1))
+        super()._watch_value(value)
+        self.refresh()
+
+
+class RowSpec(NamedTuple):
+    """What a :class:`FieldRow` shows: a form builds these on every show, and widgets from
+    them only when its fields change (a widget costs far more to make than a tuple)."""
+
+    target: str
+    name: str
+    label: str
+    value: str
+    suggest: tuple = ()
+    help: str = ""
+    pickable: bool = False
+
+    def row(self) -> "FieldRow":
+        return FieldRow(self.target, self.name, self.label, self.value, self.suggest,
+                        self.help, self.pickable)
 
 
 class FieldRow(Horizontal):
@@ -184,8 +228,8 @@ class FieldRow(Horizontal):
     def compose(self) -> ComposeResult:
         yield Label(self._label, classes="field-label")
         sug = SuggestFromList(self._suggest, case_sensitive=False) if self._suggest else None
-        yield Input(self._value, suggester=sug, id=f"{self.target}-{self.field_name}",
-                    select_on_focus=True)
+        yield FieldInput(self._value, suggester=sug, id=f"{self.target}-{self.field_name}",
+                         select_on_focus=True)
 
     @property
     def input(self) -> Input:
@@ -232,12 +276,14 @@ class _Form(Vertical):
         yield Vertical(classes="rows")
         yield Static("", classes="refusal", markup=False)
 
-    async def set_rows(self, signature: tuple, rows: list[FieldRow]) -> None:
-        """Replace the rows when the fields differ; else only update the values."""
+    async def set_rows(self, signature: tuple, specs: list[RowSpec]) -> None:
+        """Replace the rows when the fields differ (``signature``); else only update the
+        values and hints that changed."""
         box = self.query_one(".rows", Vertical)
         if signature != getattr(self, "_signature", None):
             had = self.app.focused
             focus_name = had.id if isinstance(had, Input) and had in box.query(Input) else None
+            rows = [sp.row() for sp in specs]
             await box.remove_children()
             await box.mount_all(rows)
             self._signature = signature
@@ -246,8 +292,11 @@ class _Form(Vertical):
                     if r.input.id == focus_name:
                         r.input.focus()
         else:
-            for old, new in zip(box.query(FieldRow), rows):
-                old.set_value(new._value)
+            for old, new in zip(box.query(FieldRow), specs):
+                if old._value != new.value or old.input.value != new.value:
+                    old.set_value(new.value)        # (a refused text is put back too)
+                if old.tooltip != (new.help or None):
+                    old.tooltip = new.help or None
         self.refuse(None)
 
     @on(FieldRow.Restored)
@@ -257,6 +306,8 @@ class _Form(Vertical):
 
     def refuse(self, message: str | None, name: str | None = None) -> None:
         """Show why a typed value was refused (the project is unchanged), or clear it."""
+        if not message and not self.has_class("-refused"):
+            return          # nothing refused to clear (each row's class was cleared with it)
         show_text(self.query_one(".refusal", Static), f"refused: {message}" if message else "")
         self.set_class(bool(message), "-refused")
         for r in self.query(FieldRow):
@@ -276,13 +327,13 @@ class BandForm(_Form):
     target = "band"
 
     async def show(self, index: int, band: Band) -> None:
-        self.border_title = f"Band {index + 1}: {'inverted' if band.invert else 'normal'} polarity"
+        set_title(self, f"Band {index + 1}: {'inverted' if band.invert else 'normal'} polarity")
         rows = [
-            FieldRow("band", "name", "name", band.name),
-            FieldRow("band", "gain_db", "gain", units.format(band.gain_db, "dB", 6),
-                     help_="band gain in dB, e.g. -2.5"),
-            FieldRow("band", "delay_ms", "delay", units.format(band.delay_ms, "ms", 6),
-                     help_="band delay in ms, e.g. 0.12 or 120us"),
+            RowSpec("band", "name", "name", band.name),
+            RowSpec("band", "gain_db", "gain", units.format(band.gain_db, "dB", 6),
+                    help="band gain in dB, e.g. -2.5"),
+            RowSpec("band", "delay_ms", "delay", units.format(band.delay_ms, "ms", 6),
+                    help="band delay in ms, e.g. 0.12 or 120us"),
         ]
         await self.set_rows(("band",), rows)
 
@@ -299,13 +350,13 @@ class DriverForm(_Form):
         d = band.driver
         raw = dict(d.raw) if d is not None else {}
         model = raw.get("model")
-        self.border_title = ("Driver: none (electrical sum)" if d is None else
-                             f"Driver: {model or 'measured'}")
-        rows = [FieldRow("driver", "model", "model", str(model or ""), list(MODELS),
-                         "a model: " + ", ".join(MODELS) + " (empty: none)"),
-                FieldRow("driver", "file", "file", str(raw.get("file") or ""), (),
-                         "a measurement file (freq_hz level_db [phase_deg] lines), relative "
-                         "to the project file")]
+        set_title(self, "Driver: none (electrical)" if d is None else
+                  f"Driver: {model or 'measured'}")
+        rows = [RowSpec("driver", "model", "model", str(model or ""), tuple(MODELS),
+                        "a model: " + ", ".join(MODELS) + " (empty: none)"),
+                RowSpec("driver", "file", "file", str(raw.get("file") or ""), (),
+                        "a measurement file (freq_hz level_db [phase_deg] lines), relative "
+                        "to the project file")]
         specs = driver_fields(model) if d is not None else ()
         for sp in specs:
             unit = f" {sp.unit}" if sp.unit and sp.rule not in ("freq", "db") else ""
@@ -315,9 +366,9 @@ class DriverForm(_Form):
                 ms = mm / speed_of_sound_m_s(temperature_c)
                 hint = (f"{sp.help}; {mm:g} mm is {ms:.4g} ms at {temperature_c:g} deg C "
                         "(type 0.05 ms to give it in ms)")
-            rows.append(FieldRow("driver", sp.name, _short(sp.name) + unit,
-                                 field_text(sp.rule, sp.unit, raw.get(sp.name)),
-                                 [str(c) for c in sp.choices], hint))
+            rows.append(RowSpec("driver", sp.name, _short(sp.name) + unit,
+                                field_text(sp.rule, sp.unit, raw.get(sp.name)),
+                                tuple(str(c) for c in sp.choices), hint))
         await self.set_rows(("driver", model, d is None, tuple(sp.name for sp in specs)), rows)
 
 
@@ -328,26 +379,26 @@ class FilterForm(_Form):
 
     async def show(self, index: int | None, flt: Filter | None) -> None:
         if flt is None:
-            self.border_title = "Filter: none selected"
+            set_title(self, "Filter: none selected")
             await self.set_rows((), [])
             return
-        self.border_title = f"Filter {index + 1}" + (" (bypassed)" if flt.bypass else "")
+        set_title(self, f"Filter {index + 1}" + (" (bypassed)" if flt.bypass else ""))
         types = [shown for shown, _ in fk.type_choices()]
-        rows = [FieldRow("filter", "type", "type", flt.type.replace("_", " "), types,
-                         "filter type; Enter on it (or t) lists them", pickable=True)]
+        rows = [RowSpec("filter", "type", "type", flt.type.replace("_", " "), tuple(types),
+                        "filter type; Enter on it (or t) lists them", pickable=True)]
         fams = [f for f in families_of(flt.type) if f]
         if fams:
-            rows.append(FieldRow("filter", "family", "family", flt.family or "", fams,
-                                 "one of: " + ", ".join(fams) + " (or LR4, BW2, ...); Enter "
-                                 "on it lists them", pickable=True))
+            rows.append(RowSpec("filter", "family", "family", flt.family or "", tuple(fams),
+                                "one of: " + ", ".join(fams) + " (or LR4, BW2, ...); Enter "
+                                "on it lists them", pickable=True))
         specs: list[FieldSpec] = list(fk.kind_of(flt).fields)
         for s in specs:
             choices = [str(c) for c in s.choices]
             unit = f" {s.unit}" if s.unit and s.rule not in ("freq", "db") else ""
             hint = s.help + (f" ({', '.join(choices)})" if choices else "")
-            rows.append(FieldRow("filter", s.name, _short(s.name) + unit,
-                                 field_text(s.rule, s.unit, flt.params.get(s.name)),
-                                 choices, hint))
+            rows.append(RowSpec("filter", s.name, _short(s.name) + unit,
+                                field_text(s.rule, s.unit, flt.params.get(s.name)),
+                                tuple(choices), hint))
         await self.set_rows((flt.type, flt.family, tuple(s.name for s in specs)), rows)
 
 
@@ -501,7 +552,7 @@ class WarningList(OptionList):
                 [(w.text, w.band, w.filter) for w in old]:
             return          # the same warnings: nothing to lay out again
         self._items = items
-        self.border_title = f"Warnings ({len(items)})" if items else "Warnings: none"
+        set_title(self, f"Warnings ({len(items)})" if items else "Warnings: none")
         texts = [f"! {w.text}" for w in items]
         with self.prevent(OptionList.OptionHighlighted):
             if old and len(old) == len(items) and self._full(old) and self._full(items):

@@ -7,6 +7,7 @@ offset); "two-way" has none.
 
 from planner.tui.app import CrossplanApp
 from planner.tui.screens import SafetyScreen
+from planner.tui.widgets import FieldRow
 from planner import project
 
 from tests.tui.test_app import SIZE, make_app
@@ -47,6 +48,10 @@ async def test_the_offset_can_be_typed_as_a_time_of_flight_in_ms():
         await settle(app, pilot)
         t_c = app.project.acoustics.temperature_c
         assert abs(app.project.bands[1].driver.offset_mm - 0.1 * (331.3 + 0.606 * t_c)) < 1e-3
+        # The field's hint follows the new value (the form keeps its rows and updates them).
+        row = next(r for r in app.query_one("#driver-form").query(FieldRow)
+                   if r.field_name == "offset_mm")
+        assert "is 0.1 ms at" in row.tooltip
 
 
 async def test_a_bad_driver_value_is_refused_in_place():
@@ -67,6 +72,7 @@ async def test_a_model_typed_gives_a_band_a_driver():
     async with app.run_test(size=SIZE) as pilot:
         await settle(app, pilot)
         assert "Driver: none" in app.query_one("#driver-form").border_title
+        assert "Driver: none" in screen_text(app)           # the form's title line shows
         app.query_one("#driver-form").focus_field("model")
         await pilot.press(*"closed-box", "enter")
         await settle(app, pilot)

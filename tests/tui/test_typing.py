@@ -115,3 +115,46 @@ async def test_enter_on_the_family_field_offers_the_list():
         await settle(app, pilot)
         f = app.project.bands[0].filters[0]
         assert (f.family, f.params["order"]) == ("linkwitz-riley", 4)
+
+
+async def test_a_long_typed_value_scrolls_the_field_to_its_end():
+    # The field's input stores its own width without asking for the screen's arrangement
+    # (widgets.FieldInput): typing past its width must still scroll to the cursor.
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await goto_freq_field(app, pilot)
+        field = app.focused
+        text = "1234567890abcdefghijklmnopqrstuvwxyz"
+        await pilot.press(*text)
+        await pilot.pause()
+        assert field.value == text
+        assert field.virtual_size.width == len(text) + 1      # the text and the cursor
+        assert field.scroll_x > 0
+        assert "vwxyz" in screen_text(app) and "12345" not in screen_text(app)
+
+
+async def test_a_nudge_sets_the_field_without_arranging_the_screen_again(monkeypatch):
+    # A crossover nudge changes the width of the frequency field's text (2.4 kHz ->
+    # 2.54 kHz); the field is repainted, and the frame that shows the new check does not
+    # arrange the screen again (a full arrangement costs milliseconds at every key).
+    from textual.screen import Screen
+
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await goto_freq_field(app, pilot)
+        app.query_one("#chain").focus()
+        await settle(app, pilot)
+        field = app.query_one("#filter-freq")
+        before = field.value
+        arranged = []
+        real = Screen._refresh_layout
+        monkeypatch.setattr(Screen, "_refresh_layout",
+                            lambda self, *a, **k: (arranged.append(field.value),
+                                                   real(self, *a, **k))[1])
+        await pilot.press("right")
+        await pilot.pause()
+        assert field.value != before and len(field.value) != len(before)
+        assert field.value not in arranged
+        assert field.virtual_size.width == len(field.value) + 1
