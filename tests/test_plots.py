@@ -212,3 +212,19 @@ def test_nice_ticks_use_the_1_2_5_series_and_fill_a_small_range():
         if step:
             mant = step / 10 ** np.floor(np.log10(step))
             assert min(abs(mant - m) for m in (1, 2, 5)) < 1e-9, (lo, hi, n, t)
+
+
+def test_series_on_one_grid_draw_as_series_on_their_own_copies():
+    # The bins of the log-frequency downsampling are made once per grid and shared by the
+    # series on it: the picture must be the one each series gives with a grid of its own.
+    rng = np.random.default_rng(5)
+    f = np.geomspace(20.0, 20000.0, 3000)
+    ys = [rng.normal(0.0, 3.0, f.size) - 10.0 * k for k in range(4)]
+    ys[2][1234] = -60.0          # a narrow notch, which the downsampling must keep
+    shared = [plots.Series(f"s{k}", f, y) for k, y in enumerate(ys)]
+    own = [plots.Series(f"s{k}", f.copy(), y) for k, y in enumerate(ys)]
+    a = plots.freq_plot(shared, width=70, height=20, color=False)
+    b = plots.freq_plot(own, width=70, height=20, color=False)
+    assert a == b
+    x, y = plots.downsample_log(f, ys[2], 140)
+    assert -60.0 in y and len(x) < 300

@@ -124,21 +124,37 @@ def downsample_log(x: np.ndarray, y: np.ndarray, n: int) -> tuple[np.ndarray, np
     y = np.asarray(y, float)
     if len(x) <= n:
         return x, y
+    keep = _extremes_kept(_log_bins(x, n), y)
+    return x[keep], y[keep]
+
+
+def _log_bins(x: np.ndarray, n: int) -> tuple:
+    """The bins of :func:`downsample_log` for ``x`` (``len(x) > n``): each point's bin, and
+    for a sorted ``x`` the runs of points in the same bin. Series on one grid share them."""
     lx = np.log10(x)
     edges = np.linspace(lx[0], lx[-1], n + 1)
     idx = np.clip(np.searchsorted(edges, lx, side="right") - 1, 0, n - 1)
-    # For each bin choose the sample farthest from the bin mean (vectorised).
-    yz = np.nan_to_num(y)
     counts = np.bincount(idx, minlength=n)
+    runs = None
+    if np.all(idx[1:] >= idx[:-1]):
+        new_run = np.r_[True, idx[1:] != idx[:-1]]
+        runs = (np.flatnonzero(new_run), np.cumsum(new_run) - 1)
+    return n, idx, counts, runs
+
+
+def _extremes_kept(bins: tuple, y: np.ndarray) -> np.ndarray:
+    """Indices :func:`downsample_log` keeps of ``y``: per bin, the point farthest from the
+    bin's mean (vectorised), and the first and last points."""
+    n, idx, counts, runs = bins
+    yz = np.nan_to_num(y)
     sums = np.bincount(idx, weights=yz, minlength=n)
     means = np.divide(sums, counts, out=np.zeros(n), where=counts > 0)
     dev = np.abs(yz - means[idx])
-    if np.all(idx[1:] >= idx[:-1]):
+    if runs is not None:
         # Sorted x (a frequency grid): the bins are runs, so the first sample of
         # each run at its run's largest deviation is found without sorting.
-        starts = np.flatnonzero(np.r_[True, idx[1:] != idx[:-1]])
+        starts, run = runs
         top = np.maximum.reduceat(dev, starts)
-        run = np.cumsum(np.r_[True, idx[1:] != idx[:-1]]) - 1
         at_top = np.flatnonzero(dev == top[run])
         keep = at_top[np.r_[True, run[at_top][1:] != run[at_top][:-1]]]
     else:
@@ -146,8 +162,7 @@ def downsample_log(x: np.ndarray, y: np.ndarray, n: int) -> tuple[np.ndarray, np
         first = np.ones(len(order), bool)
         first[1:] = idx[order][1:] != idx[order][:-1]
         keep = np.sort(order[first])
-    keep = np.unique(np.concatenate([[0], keep, [len(x) - 1]]))
-    return x[keep], y[keep]
+    return np.unique(np.concatenate([[0], keep, [len(y) - 1]]))
 
 
 def nice_ticks(lo: float, hi: float, max_ticks: int) -> list[float]:
@@ -429,8 +444,15 @@ def freq_canvas(series: Sequence[Series], width: int = 80, height: int = 20,
     width, height = max(width, 20), max(height, 6)
     n = max(2 * width, 16)
     xy, kept = [], []
+    shared: dict[int, tuple] = {}        # the bins of each grid (series share the analysis's)
     for i, s in enumerate(series):
-        x, y = downsample_log(s.x, s.y, n)
+        x, y = np.asarray(s.x, float), np.asarray(s.y, float)
+        if len(x) > n:
+            bins = shared.get(id(s.x))
+            if bins is None:
+                bins = shared[id(s.x)] = _log_bins(x, n)
+            keep = _extremes_kept(bins, y)
+            x, y = x[keep], y[keep]
         ok = x > 0
         if not np.any(ok & np.isfinite(y)):
             continue
