@@ -33,6 +33,12 @@ from scipy import optimize, signal
 # The checkout this script sits in, before any installed copy.
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
+# The process keeps freed memory for its next arrays, as the crossplan command does
+# (planner.memory; the baseline runs in the same process).
+from planner.memory import keep_freed_memory  # noqa: E402
+
+keep_freed_memory()
+
 from planner import engine
 from planner import project as pj
 from planner.solve import Bounds, Target, align, fit

@@ -24,7 +24,8 @@ PKG = ROOT / "planner"
 #: longest matching prefix.
 LAYERS: list[tuple[int, tuple[str, ...]]] = [
     (0, ("planner", "planner.errors", "planner.config", "planner.defaults", "planner.units",
-         "planner.progress", "planner.jsonio", "planner.presets", "planner.autosave")),
+         "planner.progress", "planner.jsonio", "planner.presets", "planner.autosave",
+         "planner.memory")),
     (1, ("planner.dsp",)),
     (2, ("planner.model",)),
     (3, ("planner.filters",)),

@@ -149,7 +149,15 @@ def _main(argv: list[str] | None) -> int:
 
 
 def console_main() -> None:
-    """Entry point of the ``crossplan`` console script."""
+    """Entry point of the ``crossplan`` console script (and of ``python -m planner``).
+
+    The process keeps the memory of freed arrays for the next ones
+    (:func:`planner.memory.keep_freed_memory`): the editor and the checks make and free
+    arrays of megabytes at every step.
+    """
+    from planner.memory import keep_freed_memory    # ctypes, only in the command's own process
+
+    keep_freed_memory()
     try:
         code = main()
     except KeyboardInterrupt:       # between the last check and the exit
