@@ -75,7 +75,8 @@ def quadratic_roots(c) -> np.ndarray:
         r2 = np.where(q != 0, c2 / np.where(q != 0, q, 1.0), np.where(c0 != 0, 0.0, np.inf))
     # c0 = 0: a first-order polynomial c1 z + c2 with root -c2 / c1 (and one at infinity).
     lin = (c0 == 0) & (c1 != 0)
-    r2 = np.where(lin, -c2 / np.where(c1 != 0, c1, 1.0), r2)
+    with np.errstate(over="ignore", invalid="ignore"):      # a root beyond float range: inf
+        r2 = np.where(lin, -c2 / np.where(c1 != 0, c1, 1.0), r2)
     return np.stack([r1, r2], axis=1)
 
 
