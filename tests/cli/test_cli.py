@@ -252,3 +252,22 @@ def test_plot_to_a_pipe_has_no_colour_codes(write_project, capsys, monkeypatch):
     assert main(["plot", str(write_project(two_way(4))), "--width", "70", "--height", "18"]) == 0
     out = capsys.readouterr().out
     assert "\x1b[" not in out and "1k" in out
+
+
+def test_a_computing_command_imports_numpy_and_scipy_first(tmp_path):
+    # The fast order (planner.cli._load_numerical_core): numpy and scipy.signal are loaded
+    # near the bottom of the call stack, before any module of the engine or the designs
+    # imports them. Read from `python -X importtime -m planner check FILE`, which lists
+    # every module in the order its import finished.
+    p = tmp_path / "p.json"
+    p.write_text(json.dumps(two_way(4)))
+    out = subprocess.run([sys.executable, "-X", "importtime", "-m", "planner", "check", str(p)],
+                         capture_output=True, text=True, timeout=120,
+                         cwd=str(__import__("pathlib").Path(__file__).parents[2]))
+    assert out.returncode == 0, out.stderr
+    order = [line.split("|")[-1].strip() for line in out.stderr.splitlines()
+             if line.startswith("import time:") and "|" in line]
+    first_planner_core = min(i for i, m in enumerate(order)
+                             if m.startswith(("planner.dsp", "planner.engine", "planner.filters")))
+    assert order.index("scipy.signal") < first_planner_core
+    assert order.index("numpy") < first_planner_core
