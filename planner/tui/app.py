@@ -160,6 +160,10 @@ def _analysis_of(project: Project) -> tuple:
             (time.thread_time() - c0) * 1000.0)
 
 
+#: The phase hints are searched for once the edits have paused this long (s): under a held
+#: key (about 30 presses a second) no search runs between two presses.
+_HINTS_AFTER_S = 0.15
+
 #: An analysis that took less than this (ms, without the phase hints) is made on the UI
 #: thread next time, when the project has no FIR to design (see CrossplanApp._inline):
 #: within one frame (16.7 ms at 60 frames/s) with room for the drawing.
@@ -447,7 +451,14 @@ class CrossplanApp(App):
         self.show_plot()
         self.hints_pending = engine.hints_pending(report)
         if self.hints_pending:
-            self.call_after_refresh(self._find_hints, report, gen)
+            # After a pause in the edits: while a key is held (or typed fast), each search
+            # for hints would hold the interpreter for tens of ms and delay the next key's
+            # check on screen; the edit that ends the run gets them.
+            self.set_timer(_HINTS_AFTER_S, partial(self._hints_after_pause, report, gen))
+
+    def _hints_after_pause(self, report: engine.Report, gen: int) -> None:
+        if gen == self._gen and self.report is report:
+            self._find_hints(report, gen)
 
     def _show_warnings(self) -> None:
         """The warning list: the shown report's, then the target arithmetic's."""

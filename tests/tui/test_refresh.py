@@ -100,3 +100,35 @@ async def test_a_bigger_project_than_the_last_analysed_goes_to_a_thread():
         assert app._inline(p)
         assert not app._inline(edits.set_analysis(p, points=4 * p.analysis.points))
         assert app._inline(edits.remove_filter(p, 0, 0))          # smaller: on the UI thread
+
+
+async def test_a_run_of_quick_edits_searches_for_hints_once_after_it(monkeypatch):
+    # The hints are searched for once the edits pause (planner.tui.app._HINTS_AFTER_S):
+    # under a held key no search holds the interpreter between two presses. Five nudges
+    # of the woofer's filter (the mid/tweeter crossing stays out of phase), sent as one
+    # burst, give one search, for the last edit's report. The pause is made 1 s here so
+    # that a loaded machine still sends the burst within it.
+    from textual import events
+
+    import planner.tui.app as tui_app
+
+    monkeypatch.setattr(tui_app, "_HINTS_AFTER_S", 1.0)
+    app = _app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        searched = []
+        real = tui_app.engine.phase_hints
+        monkeypatch.setattr(tui_app.engine, "phase_hints",
+                            lambda r: (searched.append(r.project), real(r))[1])
+        app.query_one("#chain").focus()
+        p0 = app.project
+        for key in ("right", "left", "right", "left", "right"):
+            app.post_message(events.Key(key, None))
+        await pilot.pause()
+        assert app.project is not p0 and app.hints_pending
+        assert searched == []                           # none while the keys came
+        await settle(app, pilot)
+        assert searched == [app.project]
+        assert not app.hints_pending
+        phase = [w.text for w in app.report.warnings if w.code == "phase"]
+        assert phase and all(PENDING_HINT not in t for t in phase)

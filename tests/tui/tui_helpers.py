@@ -9,12 +9,13 @@ def screen_text(app) -> str:
 async def settle(app, pilot) -> None:
     """Let messages run and the analysis worker finish (other workers may be waiting on a screen)."""
     await pilot.pause()
-    # The analysis, then (after the screen shows it) the phase hints: both in the
-    # "analysis" group, the second started once the first has drawn.
-    for _ in range(100):
+    # The analysis, then (once the edits pause) the phase hints: both in the "analysis"
+    # group, the second started by a timer after the first has been shown.
+    for _ in range(1000):
         jobs = [w for w in app.workers if w.group == "analysis"]
         if jobs:   # an empty list would wait for every worker (one may wait on a modal screen)
             await app.workers.wait_for_complete(jobs)
         await pilot.pause()
         if not getattr(app, "hints_pending", False) or not app.is_running:
             break
+        await pilot.pause(0.01)
