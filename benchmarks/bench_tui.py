@@ -102,7 +102,8 @@ def main() -> None:
 
 
     times = asyncio.run(keypresses(proj, 15))
-    print(f"editor at 120x40, key -> check bar and plot on screen: median {statistics.median(times):.1f}"
+    print(f"editor at 120x40, key -> check bar and plot on screen: "
+          f"median {statistics.median(times):.1f}"
           f" ms, range {min(times):.1f}-{max(times):.1f} ms over {len(times)} presses "
           f"(ratio to baseline {statistics.median(times) / t_base:.2f}x)")
     held = asyncio.run(held_key(proj, 40))

@@ -457,6 +457,8 @@ class CrossplanApp(App):
             self.set_timer(_HINTS_AFTER_S, partial(self._hints_after_pause, report, gen))
 
     def _hints_after_pause(self, report: engine.Report, gen: int) -> None:
+        """The timer of :meth:`_analysis_done`: search for the hints of ``report`` unless an
+        edit came meanwhile (its own analysis sets its own timer)."""
         if gen == self._gen and self.report is report:
             self._find_hints(report, gen)
 

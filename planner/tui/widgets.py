@@ -24,14 +24,15 @@ from textual.widgets.option_list import Option
 from planner import filters as fk, units
 from planner.drivers import MODELS, driver_fields
 from planner.dsp.acoustic import speed_of_sound_m_s
-from planner.filters import FieldSpec, families_of, kinds
+from planner.filters import FieldSpec, families_of
 from planner.model import Band, Filter
 from planner.present.plots import Canvas, freq_canvas, time_canvas
 from planner.progress import bar_text
 from planner.tui.views import PlotData, WarningItem, readout
 
-__all__ = ["TitleBar", "BandList", "ChainList", "FieldRow", "RowSpec", "BandForm", "DriverForm", "FilterForm",
-           "PlotView", "Readout", "CheckBar", "WarningList", "field_text", "set_title", "show_text"]
+__all__ = ["TitleBar", "BandList", "ChainList", "FieldInput", "FieldRow", "RowSpec", "BandForm",
+           "DriverForm", "FilterForm", "PlotView", "Readout", "CheckBar", "WarningList",
+           "field_text", "set_title", "show_text"]
 
 
 def set_title(widget: Widget, title: str) -> None:
