@@ -65,7 +65,8 @@ def log_grid(f_min_hz: float, f_max_hz: float, points: int, extra_hz=()) -> np.n
         Sorted, without repeats.
     """
     f = np.geomspace(f_min_hz, f_max_hz, int(points))
-    extra = np.asarray([x for x in extra_hz if f_min_hz < x < f_max_hz], dtype=float)
+    extra = np.asarray(extra_hz, dtype=float).ravel()
+    extra = extra[(extra > f_min_hz) & (extra < f_max_hz)]
     return np.unique(np.concatenate([f, extra]))
 
 

@@ -61,13 +61,13 @@ def start_grid(project: Project, designs: list[BandDesign] | None = None) -> np.
     live = [f for b in project.bands for f in b.filters if not f.bypass]
     extra = [f.params[k] for f in live for k in ("freq", "freq2") if k in f.params]
     extra += [x for f in live for x in f.params.get("crossovers", ())]
-    extra = list(dict.fromkeys(extra))[:config.GRID_NAMED_MAX]
+    extra = [np.asarray(list(dict.fromkeys(extra))[:config.GRID_NAMED_MAX], dtype=float)]
     if designs:
         sos = [d.sos for d in designs if len(d.sos)]
         if sos:
             f0, bw = dgrid.narrow_features(np.vstack(sos), project.sample_rate)
-            extra += list(dgrid.feature_points(f0, bw, a.f_min, a.f_max, a.points))
-    return an.log_grid(a.f_min, a.f_max, a.points, extra)
+            extra.append(dgrid.feature_points(f0, bw, a.f_min, a.f_max, a.points))
+    return an.log_grid(a.f_min, a.f_max, a.points, np.concatenate(extra))
 
 
 def _merge(freqs: np.ndarray, h: np.ndarray, new_f: np.ndarray, new_h: np.ndarray):
