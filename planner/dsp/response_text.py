@@ -132,10 +132,11 @@ def _fast_parse(text: str) -> Response | None:
         break
     if start is None:
         return None
-    body = "\n".join(lines[start:]).replace(",", " ").replace(";", " ").replace("\t", " ")
+    data = lines[start:]
+    while data and not data[-1].strip():     # blank lines at the end, as the line reader
+        data.pop()                           # sees them (a lone "," is not blank)
+    body = "\n".join(data).replace(",", " ").replace(";", " ").replace("\t", " ")
     rows = body.split("\n")
-    while rows and not rows[-1].strip():
-        rows.pop()
     counts = set(map(len, map(str.split, rows)))
     if len(counts) != 1 or not counts <= {2, 3}:
         return None                      # blank or comment lines inside, ragged columns, ...

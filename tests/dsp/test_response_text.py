@@ -82,7 +82,7 @@ def test_parse_nonpositive_frequency_raises():
 
 # The array-speed reader must give exactly what the line-by-line reader gives, or leave
 # the text to it: compared on random texts (good rows mixed with broken ones).
-from hypothesis import HealthCheck, given, settings  # noqa: E402
+from hypothesis import HealthCheck, example, given, settings  # noqa: E402
 
 from planner.dsp import response_text as _rt  # noqa: E402
 from tests.test_fuzz_pipeline import measurement_texts  # noqa: E402
@@ -98,6 +98,8 @@ def _slow(text, monkeypatch_fast):
 
 @settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(text=measurement_texts())
+@example(text="5 0 0\n,")          # a last line of one separator is not a blank line
+@example(text="5 0\n6 1\n;\n")
 def test_fast_reader_agrees_with_the_line_reader(text):
     import contextlib
 
