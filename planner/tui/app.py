@@ -290,21 +290,25 @@ class CrossplanApp(App):
         a = p.analysis
         self.cursor_hz = min(max(self.cursor_hz, a.f_min), a.f_max)
 
-    async def show_project(self) -> None:
-        """Show the current project at once, then analyse it off the UI thread."""
+    async def _show_lists_and_forms(self) -> None:
+        """The band list, the selected band's chain and the forms, for the selection."""
         self._clamp_selection()
         p = self.project
         band = p.bands[self.band_i]
-        self._show_title()
         self.query_one(BandList).show(p.bands, p.active(), self.band_i)
         self.query_one(ChainList).show(band, self.filter_i)
         flt = band.filters[self.filter_i] if self.filter_i is not None else None
         await self.query_one(FilterForm).show(self.filter_i, flt)
         await self.query_one(BandForm).show(self.band_i, band)
-        await self.query_one(DriverForm).show(self.band_i, band, self.project.acoustics.temperature_c)
+        await self.query_one(DriverForm).show(self.band_i, band, p.acoustics.temperature_c)
+
+    async def show_project(self) -> None:
+        """Show the current project at once, then analyse it off the UI thread."""
+        self._show_title()
+        await self._show_lists_and_forms()
         for screen in self.screen_stack:
             if isinstance(screen, SettingsScreen):
-                screen.show(p)
+                screen.show(self.project)
         self.files.edited()
         self.request_analysis()
 
@@ -533,15 +537,7 @@ class CrossplanApp(App):
 
     async def show_project_selection(self) -> None:
         """The selection moved: show it (no new analysis needed, only the plot's pair)."""
-        self._clamp_selection()
-        p = self.project
-        band = p.bands[self.band_i]
-        self.query_one(BandList).show(p.bands, p.active(), self.band_i)
-        self.query_one(ChainList).show(band, self.filter_i)
-        flt = band.filters[self.filter_i] if self.filter_i is not None else None
-        await self.query_one(FilterForm).show(self.filter_i, flt)
-        await self.query_one(BandForm).show(self.band_i, band)
-        await self.query_one(DriverForm).show(self.band_i, band, self.project.acoustics.temperature_c)
+        await self._show_lists_and_forms()
         self.show_plot()
 
     @on(ChainList.OptionSelected, "#chain")
