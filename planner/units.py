@@ -18,8 +18,8 @@ import re
 
 from planner.errors import ProjectError
 
-__all__ = ["ms_to_samples", "parse", "format", "parse_freq_hz", "parse_db", "parse_ms", "parse_number",
-           "format_hz", "outside_range_note", "UNITS", "FAR_OUTSIDE_OCT"]
+__all__ = ["ms_to_samples", "parse", "format", "parse_freq_hz", "parse_db", "parse_ms",
+           "parse_number", "format_hz", "outside_range_note", "UNITS", "FAR_OUTSIDE_OCT"]
 
 #: Units a field may have, and the unit words accepted for each (lower case).
 UNITS = {

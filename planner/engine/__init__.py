@@ -17,6 +17,7 @@ from planner.engine.result import (STATE_TEXT, BandResult, CheckResult, Crossing
                                    Warning_)
 from planner.engine.warnings import LATENCY_TOL_SAMPLES
 
-__all__ = ["analyse", "hints_pending", "phase_hints", "BandDesign", "design_band", "design_filter", "design_project",
-           "evaluate", "point_evaluator", "STATE_TEXT", "BandResult", "CheckResult",
-           "CrossingResult", "Report", "Warning_", "LATENCY_TOL_SAMPLES"]
+__all__ = ["analyse", "hints_pending", "phase_hints", "BandDesign", "design_band",
+           "design_filter", "design_project", "evaluate", "point_evaluator", "STATE_TEXT",
+           "BandResult", "CheckResult", "CrossingResult", "Report", "Warning_",
+           "LATENCY_TOL_SAMPLES"]

@@ -19,9 +19,10 @@ from planner.timeresp import impulse_responses
 from planner.present.views import phase_difference_deg, time_series, view_series
 from planner.units import format_hz
 
-__all__ = ["VIEWS", "DRIVER_VIEWS", "PAIR_VIEWS", "TIME_VIEWS", "views_for", "PlotData", "impulse_of", "plot_data", "crossing_pair",
-           "crossing_pairs", "phase_hint", "readout", "check_lines", "arith_line", "WarningItem", "warning_items",
-           "arith_warning_items", "solve_preview"]
+__all__ = ["VIEWS", "DRIVER_VIEWS", "PAIR_VIEWS", "TIME_VIEWS", "views_for", "PlotData",
+           "impulse_of", "plot_data", "crossing_pair", "crossing_pairs", "phase_hint", "readout",
+           "check_lines", "arith_line", "WarningItem", "warning_items", "arith_warning_items",
+           "solve_preview", "solve_preview_series", "preview_range_db"]
 
 #: The plot views, in the order the view key steps through them.
 VIEWS = ("magnitude", "phase", "delay", "electrical", "drivers", "offaxis",
