@@ -861,7 +861,8 @@ class CrossplanApp(App):
                             f"nudge filter gain {g:+.1f} dB")
         else:
             g = round(self.project.bands[i].gain_db + sign * _GAIN_STEP_DB, 3)
-            await self._try(lambda p: edits.set_band(p, i, gain_db=g), f"nudge band gain {g:+.1f} dB")
+            await self._try(lambda p: edits.set_band(p, i, gain_db=g),
+                            f"nudge band gain {g:+.1f} dB")
 
     async def action_nudge_q(self, sign: int) -> None:
         """Selected filter Q by 10 %."""
@@ -1089,16 +1090,34 @@ class CrossplanApp(App):
         """Save (from a worker: asks when the file changed on disk since it was read)."""
         return await self.files.write(path)
 
+    #: Screens whose answer changes the project (or asks for a path): a save while one is
+    #: open would write the project without the edit it is about.
+    _QUESTIONS = (ChoiceScreen, PathScreen, PickScreen, SolveScreen)
+
     async def action_save(self) -> None:
-        """Save to the project's file (asks for one the first time)."""
+        """Save to the project's file (asks for one the first time); not while a question
+        is open."""
+        if self._question_open():
+            return
         if self.path is None:
             self.action_save_as()   # a worker: it asks for the path
         else:
             self.files.save(self.path)
 
+    def _question_open(self) -> bool:
+        """True (and a note saying so) while a question of :data:`_QUESTIONS` is open."""
+        if not isinstance(self.screen, self._QUESTIONS):
+            return False
+        self.notify("answer the question first (Escape cancels it), then save",
+                    severity="warning", timeout=4)
+        return True
+
     @work(description="action_save_as")
     async def action_save_as(self) -> bool:
-        """Ask for a path and save there (asks before overwriting)."""
+        """Ask for a path and save there (asks before overwriting); not while a question
+        is open."""
+        if self._question_open():
+            return False
         path = await self.push_screen_wait(PathScreen("Save the project as:", self.path or ""))
         if not path:
             return False

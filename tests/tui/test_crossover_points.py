@@ -89,3 +89,31 @@ async def test_a_nudge_on_one_side_says_once_that_k_moves_the_point():
         notes = [n.message for n in app._notifications if "k moves the whole point" in n.message]
         assert len(notes) == 1
         assert freqs(app.project)[1][0] == 350.0             # the mid's highpass stays
+
+
+async def test_save_waits_while_the_crossover_question_is_open(tmp_path):
+    # ctrl+s under the question would write the project without the frequency just
+    # typed; it says to answer first and writes nothing, and saves once answered.
+    from planner import project
+
+    path = tmp_path / "three.json"
+    project.save(project.load_preset("three-way"), path)
+    before = path.read_text()
+    app = make_app(path=path)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await type_woofer_lowpass(app, pilot, "400")
+        assert isinstance(app.screen, ChoiceScreen)
+        await pilot.press("ctrl+s")
+        await settle(app, pilot)
+        assert isinstance(app.screen, ChoiceScreen)        # the question is still open
+        assert path.read_text() == before
+        assert any("answer the question first" in str(n.message)
+                   for n in app._notifications)
+        await pilot.press("y")
+        await settle(app, pilot)
+        await pilot.press("ctrl+s")
+        await settle(app, pilot)
+        saved = project.load(path)
+        assert freqs(saved) == [[400.0, 3000.0], [400.0, 3000.0], [3000.0, 400.0]]
+        assert not app.history.dirty
