@@ -51,7 +51,7 @@ keep_freed_memory()
 
 from bench_check import best as _best  # noqa: E402
 
-from planner import compare, engine, presets, project  # noqa: E402
+from planner import compare, engine, project  # noqa: E402
 from planner.defaults import COMPARE_MAX_TAPS  # noqa: E402
 from planner.dsp import fir  # noqa: E402
 

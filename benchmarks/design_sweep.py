@@ -137,7 +137,6 @@ def summary(rows: list[Row]):
                     limit = x
                 else:
                     break
-            at_limit = [r for r in rs if r.fc / r.fs <= limit] or rs
             out.append(dict(family=family, norm=norm, order=order, n=len(rs), stable=stable,
                             max_radius=max(r.max_radius for r in rs),
                             identity=max(r.identity_err_db for r in rs),

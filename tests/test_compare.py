@@ -273,7 +273,6 @@ class TestProject:
     def test_fir_split_project_gets_iir_equivalents(self):
         # The shipped complementary split: FIR bands, elliptic equivalents; the FIR
         # build (the project) sums flat to rounding (Oppenheim and Schafer ch. 7).
-        from planner import presets
 
         p = project.load_preset("fir-three-way")
         c = compare.compare_project(p)
@@ -284,7 +283,6 @@ class TestProject:
 
 @pytest.fixture(scope="module")
 def two_way_preset():
-    from planner import presets
 
     return project.load_preset("two-way")   # woofer: BW2 highpass 25 Hz + LR4 lowpass 2.4 kHz
 
@@ -348,7 +346,6 @@ class TestEndOfRange:
 
     def test_a_highpass_with_a_band_below_it_is_a_crossover(self):
         # The satellites' LR2 highpass at 90 Hz hands the bass to the sub: compared.
-        from planner import presets
 
         assert compare.end_of_range(project.load_preset("sub-sat")) == [set(), set()]
 

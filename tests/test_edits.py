@@ -5,7 +5,7 @@ import pytest
 from scipy import signal
 
 from planner import edits as E, project
-from planner import engine, presets
+from planner import engine
 from planner.errors import ProjectError
 
 

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, presets, project
+from planner import engine, project
 
 FS = 48000
 TAPS = 1023
@@ -232,7 +232,7 @@ def test_a_design_error_in_the_analysis_names_band_and_filter():
     # the error still carries the whole field path.
     import json
 
-    from planner import engine, presets, project
+    from planner import engine, project
     from planner.errors import SpecNotMetError
 
     d = project.to_dict(project.load_preset("two-way"))

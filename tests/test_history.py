@@ -2,7 +2,7 @@
 
 import pytest
 
-from planner import edits, presets, project
+from planner import edits, project
 from planner.history import History
 
 

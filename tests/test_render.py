@@ -9,7 +9,6 @@ delay of d samples is e^{-jwd} (Oppenheim and Schafer, "Discrete-Time Signal
 Processing", 3rd ed., sec. 2.7).
 """
 
-import io
 import json
 from dataclasses import replace
 
@@ -18,7 +17,7 @@ import pytest
 from scipy import signal
 from scipy.io import wavfile
 
-from planner import engine, export, presets, project
+from planner import engine, export, project
 from planner.audio import render, wav
 from planner.dsp.signals import impulse, white_noise
 from planner.errors import ExportError

@@ -9,7 +9,6 @@ mix, never empty) and load as that project. Temporary files left by the kills ar
 by the next save once they are stale, and no other file is touched.
 """
 
-import json
 import os
 import random
 import signal

@@ -214,6 +214,7 @@ def iir_equivalent(spec: DerivedSpec, fs_hz: float,
         orders = [elliptic_order(k, p, s, rr, a_max, fs) for k, p, s, rr in parts]
         limit = MAX_ELLIPTIC_ORDER
     first = list(orders)
+    ripple, atten = math.inf, -math.inf    # what the designs reached (none yet)
     while True:
         if max(orders) - max(first) > _EXTRA_ORDERS:
             raise SpecNotMetError(

@@ -11,7 +11,6 @@ from scipy import optimize
 from planner.compare.results import DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, DerivedSpec
 from planner.defaults import IIR_FAMILIES
 from planner.dsp import analysis as an
-from planner.dsp import fir as dfir
 from planner.dsp.fir.checks import check_positive
 from planner.dsp.response import band_responses
 from planner.errors import DesignError, SpecNotMetError

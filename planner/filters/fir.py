@@ -259,8 +259,8 @@ def _check_window(p: Mapping[str, Any], kind: str, fs_hz: float) -> None:
         # Kaiser 1974: length and beta from the transition and attenuation.
         missing = [n for n in ("transition_hz", "atten_db") if p.get(n) is None]
         if missing:
-            raise ProjectError(f"missing; a window design needs taps, or transition_hz and "
-                               f"atten_db for a Kaiser window sized by Kaiser's formula",
+            raise ProjectError("missing; a window design needs taps, or transition_hz and "
+                               "atten_db for a Kaiser window sized by Kaiser's formula",
                                field="taps" if len(missing) == 2 else missing[0])
         if p.get("window") not in (None, "kaiser"):
             raise ProjectError(f"transition_hz and atten_db size a Kaiser window; the "

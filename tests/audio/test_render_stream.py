@@ -15,7 +15,7 @@ from scipy import signal
 from scipy.io import wavfile
 
 from planner import export, project
-from planner.audio import render, wav
+from planner.audio import render
 from planner.cli import main
 from planner.engine.delays import plan_delays
 from tests.conftest import two_way

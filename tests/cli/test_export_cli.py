@@ -159,7 +159,6 @@ def test_check_arith_flag_overrides_the_projects(write_project, capsys):
 
 
 def _fir_preset():
-    from planner import presets
 
     return project.to_dict(project.load_preset("fir-three-way"))
 

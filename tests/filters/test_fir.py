@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy import signal
 
-from planner import engine, filters, presets, progress, project
+from planner import engine, filters, progress, project
 from planner.dsp import fir
 from planner.errors import ProjectError, SpecNotMetError
 from planner.filters.fir import FirDesignCancelled, FirSpecNotMetError

@@ -2,7 +2,7 @@
 
 import pytest
 
-from planner import presets, project
+from planner import project
 
 
 @pytest.fixture

@@ -6,7 +6,7 @@ tweeter [LR4 highpass 2.4 kHz, peaking -0.8 dB at 7.5 kHz].
 
 import pytest
 
-from planner import engine, presets, project
+from planner import engine, project
 from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.app import CrossplanApp

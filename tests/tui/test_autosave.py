@@ -4,7 +4,6 @@ Driven with Textual's Pilot at 80x24. The preset "two-way" starts with the woofe
 "m" mutes it (an unsaved edit).
 """
 
-import asyncio
 import json
 
 import pytest

@@ -17,7 +17,7 @@ from pathlib import Path
 
 import pytest
 
-from planner import presets, project
+from planner import project
 
 
 def _crossplan() -> str | None:

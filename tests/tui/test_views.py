@@ -2,7 +2,7 @@
 
 import pytest
 
-from planner import edits, engine, presets, project
+from planner import edits, engine, project
 from planner.tui import views
 
 

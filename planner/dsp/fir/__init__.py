@@ -53,8 +53,8 @@ from planner.dsp.fir.metrics import (FirMetrics, fir_metrics, fir_multiplies_per
                                      iir_multiplies_per_sample, is_linear_phase,
                                      latency_samples, pre_ringing_energy)
 # DEFAULT_MAX_TAPS is a public constant of the package, as WINDOWS and KINDS, outside __all__.
-from planner.dsp.fir.min_taps import (DEFAULT_MAX_TAPS, FirDesign, min_taps_equiripple,
-                                      min_taps_least_squares)
+from planner.dsp.fir.min_taps import DEFAULT_MAX_TAPS as DEFAULT_MAX_TAPS
+from planner.dsp.fir.min_taps import FirDesign, min_taps_equiripple, min_taps_least_squares
 from planner.dsp.fir.response import (fir_group_delay_samples, fir_response,
                                       fir_response_and_derivative)
 from planner.dsp.fir.spec import FirSpec, measure_spec
