@@ -174,8 +174,7 @@ def _candidates(r: Report, c) -> list[tuple[str, object, int, dict]]:
                 out.append((f"add {label} to {b.name}",
                             p.with_band(i, replace(b, filters=b.filters + (flt,))), i,
                             {i: Band("change", filters=(flt,))}))
-    lead = ia if d > 0 else ib
-    ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
+    lead, ms = _aligning_delay(c)
     side_a, side_b = _sides(r, c)
     groups = [[lead]]
     side = sorted(side_a if lead == ia else side_b)
@@ -192,6 +191,14 @@ def _candidates(r: Report, c) -> list[tuple[str, object, int, dict]]:
         names = " and ".join(p.bands[i].name for i in g)
         out.append((f"add delay_ms {ms:.4g} to {names}", q, lead, delta))
     return out
+
+
+def _aligning_delay(c) -> tuple[int, float]:
+    """The band of crossing ``c`` that leads, and the delay (ms) that turns it back by the
+    phase difference there: a delay of ``t`` turns the phase by ``-360 f t`` degrees
+    (Oppenheim and Schafer sec. 2.7)."""
+    d = c.phase_diff_deg
+    return c.band_index[0 if d > 0 else 1], abs(d) / (360.0 * c.freq_hz) * 1000.0
 
 
 def _screened(r: Report, c, candidates: list) -> list[PhaseFix]:
@@ -312,8 +319,7 @@ def _unchecked_hint(r: Report, c) -> tuple[str, int]:
     d = c.phase_diff_deg
     if abs(d) >= config.INVERT_HINT_DEG:
         return "try inverting one (not checked)", c.band_index[1]
-    i = c.band_index[0 if d > 0 else 1]
-    ms = abs(d) / (360.0 * c.freq_hz) * 1000.0
+    i, ms = _aligning_delay(c)
     return (f"band {r.project.bands[i].name} leads by {abs(d):.0f} deg there: add delay_ms "
             f"{ms:.4g} to it, or an all-pass at another crossover (not checked)"), i
 
