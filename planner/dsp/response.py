@@ -239,10 +239,10 @@ def band_responses(sos_list: Sequence[np.ndarray], freqs_hz: np.ndarray, fs_hz: 
     if invert is not None:
         g = g * np.where(np.asarray(invert, bool), -1.0, 1.0)
     d = np.asarray(delays_samples if delays_samples is not None else np.zeros(nb), float)
-    if np.any(d):
-        h = h * (g[:, None] * np.exp(-1j * np.outer(d, w)))
-    else:
-        h = h * g[:, None]
+    h *= g[:, None]               # h is this call's own array
+    delayed = np.flatnonzero(d)   # only their rows: e^{-j w 0} is 1 exactly
+    if len(delayed):
+        h[delayed] *= np.exp(-1j * np.outer(d[delayed], w))
     # FIR taps: bands with taps of the same length are evaluated together by
     # the block method of planner.dsp.fir (one matrix product per length).
     groups = _fir_groups(firs)
