@@ -91,7 +91,7 @@ def target_level(project: Project):
 
 
 def _sample(project: Project, designs: list[BandDesign], active: list[bool], response, point,
-            target=None):
+            target=None, start=None):
     """The analysis grid and every band's response on it.
 
     Where the sum's level is looked at (fast changes, extremes) it is taken
@@ -107,10 +107,10 @@ def _sample(project: Project, designs: list[BandDesign], active: list[bool], res
     are split (:func:`planner.dsp.grid.fast_cells`); then the largest local
     maxima and minima of the sum's level and each band's peak are refined by
     exact evaluation (:func:`planner.dsp.grid.zoom_extremes`) and added. The
-    grid has at most :func:`planner.config.grid_cap` points.
+    grid has at most :func:`planner.config.grid_cap` points. ``start``: the starting grid
+    and ``response`` on it, when the caller has them already.
     """
-    freqs = start_grid(project, designs)
-    h = response(freqs)
+    freqs, h = start if start is not None else (f := start_grid(project, designs), response(f))
     act = np.asarray(active, dtype=bool)
     nb = len(designs)
 
@@ -179,10 +179,12 @@ def _targets(project: Project, freqs: np.ndarray) -> list:
 
 
 def _evaluators(project: Project, designs: list[BandDesign], group_delay: bool = False):
-    """(drivers or None, responses on a grid, point evaluator): electrical, or acoustic when
-    a band has a driver (:mod:`planner.engine.acoustic`). With ``group_delay`` the grid
-    responses carry the bands' electrical logarithmic derivatives as extra rows, evaluated
-    in the same pass over the sections."""
+    """(drivers or None, responses on a grid, point evaluator, start): electrical, or
+    acoustic when a band has a driver (:mod:`planner.engine.acoustic`). With
+    ``group_delay`` the grid responses carry the bands' electrical logarithmic derivatives
+    as extra rows, evaluated in the same pass over the sections. ``start`` is the starting
+    grid and the responses on it when they were needed here (the drivers' levels are found
+    from the electrical ones), else None."""
     fs = project.sample_rate
     electrical = point_evaluator(designs, fs)
     nb = len(designs)
@@ -194,16 +196,18 @@ def _evaluators(project: Project, designs: list[BandDesign], group_delay: bool =
         return np.concatenate([r.h, r.dlog])
 
     if not project.has_drivers:
-        return None, el_response, electrical
+        return None, el_response, electrical, None
     f0 = start_grid(project, designs)
-    drivers = Drivers.of(project, f0, evaluate(designs, f0, fs).h)
+    h0 = el_response(f0)
+    drivers = Drivers.of(project, f0, h0[:nb])
 
     def response(f):
         out = el_response(f)
         out[:nb] *= drivers.all_bands(f)
         return out
 
-    return drivers, response, AcousticPoints(electrical, drivers)
+    h0[:nb] *= drivers.all_bands(f0)        # response(f0), without evaluating it again
+    return drivers, response, AcousticPoints(electrical, drivers), (f0, h0)
 
 
 def check_points(points, n_bands: int = 2) -> int:
@@ -263,11 +267,11 @@ def analyse(project: Project, points: int | None = None, group_delay: bool = Fal
     cdesigns = designs
     if voiced:
         cdesigns = [design_band(b, fs) for b in checked.bands]
-    drivers, response, point = _evaluators(project, designs, group_delay)
-    freqs, h = _sample(project, designs, active, response, point, target)
+    drivers, response, point, start = _evaluators(project, designs, group_delay)
+    freqs, h = _sample(project, designs, active, response, point, target, start)
     if voiced:
-        cdrivers, cresponse, cpoint = _evaluators(checked, cdesigns)
-        f2, _ = _sample(checked, cdesigns, active, cresponse, cpoint, target)
+        cdrivers, cresponse, cpoint, cstart = _evaluators(checked, cdesigns)
+        f2, _ = _sample(checked, cdesigns, active, cresponse, cpoint, target, cstart)
         freqs = np.union1d(freqs, f2)
         h, hc = response(freqs), cresponse(freqs)
     # With group_delay the rows past the bands are their logarithmic derivatives.
