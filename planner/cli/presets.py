@@ -1,4 +1,4 @@
-"""``crossplan presets`` and ``crossplan new FILE --preset NAME``."""
+"""``crossplan presets`` and ``crossplan new FILE --preset NAME`` (or ``new NAME FILE``)."""
 
 from __future__ import annotations
 
@@ -11,7 +11,11 @@ from planner.jsonio import atomic_write_text
 
 def add_arguments(p, name):
     if name == "new":
-        p.add_argument("file", metavar="FILE", help="project file to write")
+        # "new FILE --preset NAME", and "new NAME FILE" as people also type it.
+        p.usage = "%(prog)s [-h] [--preset PRESET] [--force] [PRESET] FILE"
+        p.add_argument("names", nargs="+", metavar="[PRESET] FILE",
+                       help="project file to write, after a preset's name if you like "
+                       "(the same as --preset)")
         p.add_argument("--preset", default=None, help="preset name (see 'crossplan presets'); "
                        "default: the demo")
         p.add_argument("--force", action="store_true", help="overwrite FILE if it exists")
@@ -26,9 +30,15 @@ def run(args) -> int:
             mark = " (demo)" if n == presets.DEMO else ""
             print(f"{n:<16} {presets.describe(n)}{mark}")
         return 0
-    name = args.preset or presets.DEMO
+    if len(args.names) > 2:
+        raise ProjectError(f"takes a preset's name and a file, not {len(args.names)} names "
+                           f"({' '.join(args.names)})", field="FILE")
+    if len(args.names) == 2 and args.preset is not None:
+        raise ProjectError(f"names the preset twice ({args.names[0]!r} and --preset "
+                           f"{args.preset!r}); give one", field="preset")
+    name = args.names[0] if len(args.names) == 2 else (args.preset or presets.DEMO)
     text = presets.text(name)
-    out = Path(args.file)
+    out = Path(args.names[-1])
     if out.exists() and not args.force:
 
         raise ProjectError(f"{str(out)!r} exists already; use --force to overwrite it",

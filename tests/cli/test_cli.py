@@ -271,3 +271,22 @@ def test_a_computing_command_imports_numpy_and_scipy_first(tmp_path):
                              if m.startswith(("planner.dsp", "planner.engine", "planner.filters")))
     assert order.index("scipy.signal") < first_planner_core
     assert order.index("numpy") < first_planner_core
+
+
+def test_new_takes_the_preset_before_the_file(tmp_path, capsys):
+    # "crossplan new three-way FILE" is the same as "--preset three-way".
+    a, b = tmp_path / "a.json", tmp_path / "b.json"
+    assert main(["new", "three-way", str(a)]) == 0
+    assert main(["new", str(b), "--preset", "three-way"]) == 0
+    assert a.read_text() == b.read_text()
+
+
+def test_new_refuses_two_presets_and_extra_names(tmp_path, capsys):
+    out = str(tmp_path / "c.json")
+    assert main(["new", "two-way", out, "--preset", "three-way"]) == 2
+    assert "names the preset twice" in capsys.readouterr().err
+    assert main(["new", "two-way", out, "extra"]) == 2
+    assert "not 3 names" in capsys.readouterr().err
+    assert main(["new", "nope", out]) == 2
+    assert "no preset called 'nope'" in capsys.readouterr().err
+    assert not (tmp_path / "c.json").exists()
