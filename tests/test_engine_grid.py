@@ -10,7 +10,7 @@ import json
 
 import numpy as np
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 from scipy import signal
 
@@ -170,6 +170,12 @@ def raw_features(draw):
 
 @settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(raw_features())
+# Found by the fuzzing: a Q 300 notch at 201 Hz in the woofer against the tweeter's leakage
+# there (-86 dB) makes a minimum of the sum about 1e-6 Hz wide, which the reference's
+# minimize_scalar alone missed by 0.05 dB (it now zooms in; the check had it right).
+@example(case=({"type": "biquad", "rate": 48000,
+                "coeffs": [0.9999539405117758, -1.9992137760539983, 0.9999539405117758,
+                           -1.9992137760539983, 0.9999078810235515]}, 48000, 0))
 def test_sweep_max_deviation_within_0_05_db_of_dense_reference(case):
     flt, fs, band = case
     r = two_way_with(flt, fs, band)
