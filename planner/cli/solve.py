@@ -1,4 +1,4 @@
-"""``crossplan align FILE`` and ``crossplan fit FILE --target T``: the solvers.
+"""``crossplan align FILE`` and ``crossplan fit FILE [--target T]``: the solvers.
 
 ``align`` searches band delays, polarities and (when allowed) trims,
 crossover and all-pass frequencies for the flattest, best-phased sum
@@ -67,10 +67,12 @@ def add_arguments(p, name):
                             "a text file of 'freq_hz level_db' lines (default: the "
                             "project's analysis.target, flat when it has none)")
     else:
-        p.add_argument("--target", required=True, metavar="TARGET",
+        p.add_argument("--target", default=None, metavar="TARGET",
                        help="flat, tilt:DB (per octave about 1 kHz), shelf:DB@HZ (a low "
                             "shelf for room gain), tilt:DB+shelf:DB@HZ, or a text file of "
-                            "'freq_hz level_db' lines")
+                            "'freq_hz level_db' lines (default: the project's "
+                            "analysis.target, flat when it has none, as align and the "
+                            "editor)")
         p.add_argument("--bands", default=None, metavar="NAMES",
                        help="the bands whose gains move, comma-separated (default: every "
                             "active band)")

@@ -97,7 +97,29 @@ def test_fit_refusals_exit_2(offset_file, capsys):
     assert main(["fit", str(offset_file), "--target", "flat", "--bands", "mid"]) == 2
     assert "no band named 'mid'; the bands are low, high" in capsys.readouterr().err
     assert main(["fit", str(offset_file), "--target", "tilt:big"]) == 2
-    assert main(["fit", str(offset_file)]) == 2         # --target is required
+
+
+def test_fit_without_target_follows_the_projects_target(offset_file, capsys):
+    # No --target: the project's analysis.target (flat when it has none), as align does.
+    d = json.loads(offset_file.read_text())
+    d["bands"][0]["delay_ms"] = 0
+    d["bands"][1]["gain_db"] = 3
+    offset_file.write_text(json.dumps(d))
+
+    def gains(*extra):
+        out = str(offset_file.with_name("out.json"))
+        code = main(["fit", str(offset_file), "--split", "--json", "--out", out, "--overwrite",
+                     *extra])
+        assert code in (0, 1)            # 1: the fit is not within the limits
+        return json.loads(capsys.readouterr().out)["gains"]
+
+    flat = gains()
+    assert flat == gains("--target", "flat")
+    d["analysis"] = {**d.get("analysis", {}), "target": "tilt:-1"}
+    offset_file.write_text(json.dumps(d))
+    tilted = gains()
+    assert tilted == gains("--target", "tilt:-1")
+    assert tilted != flat
 
 
 def test_a_result_written_elsewhere_still_finds_its_driver_files(tmp_path, capsys):
