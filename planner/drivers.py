@@ -90,6 +90,9 @@ def driver_fields(model: str | None) -> tuple[FieldSpec, ...]:
 
 
 _DECIMAL_COMMA = re.compile(r"^\s*[+-]?\d+,\d+([ \t]+[+-]?\d+,\d+)+\s*$")
+#: What every line _DECIMAL_COMMA matches contains (the end of its first number and the
+#: start of its second).
+_DECIMAL_COMMA_HINT = re.compile(r",\d+[ \t]+[+-]?\d+,")
 _CACHE: dict[tuple, Measured] = {}
 
 
@@ -98,7 +101,10 @@ def _refuse(path: str, message: str) -> ProjectError:
 
 
 def _parse(shown: str, text: str) -> Measured:
-    for no, line in enumerate(text.splitlines(), start=1):
+    # A line of decimal commas holds ",digits, blank, digits," (_DECIMAL_COMMA_HINT): only a
+    # text with one is read line by line for them (most files are not).
+    lines = text.splitlines() if _DECIMAL_COMMA_HINT.search(text) else ()
+    for no, line in enumerate(lines, start=1):
         if _DECIMAL_COMMA.match(line):
             raise _refuse(shown, f"line {no}: decimal commas are not read ({line.strip()!r}): "
                                  "write decimal points, e.g. 20.5 87.25")

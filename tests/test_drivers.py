@@ -63,6 +63,9 @@ def test_a_file_is_read_relative_to_the_project_file(tmp_path):
     ("20 80\n30 eighty\n40 80\n50 80\n60 80\n", r"w\.txt: line 3: expected numbers"),
     ("20 80\n30 80\n40 80\n", r"w\.txt: has 3 data lines; a response needs at least 5"),
     ("20,5 80,25\n30,5 80,25\n", r"w\.txt: line 2: decimal commas are not read"),
+    # Three columns, a tab, a sign, a comma-separated line before: still named by line.
+    ("20,80,0\n30,81,0\n40,5\t-80,25\t1,5\n", r"w\.txt: line 4: decimal commas are not read"),
+    ("+20,5 -80,25 \n", r"w\.txt: line 2: decimal commas are not read"),
 ])
 def test_malformed_files_are_refused_naming_file_and_line(tmp_path, lines, message):
     _write(tmp_path, "w.txt", "# a header\n" + lines)     # line numbers count it
