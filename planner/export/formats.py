@@ -246,11 +246,22 @@ def _deviation_text(r: ArithResult) -> str:
     if r.deviation_db is None:
         return "deviation not evaluated"
     at = f" at {format_hz(r.deviation_at_hz)}" if math.isfinite(r.deviation_at_hz) else ""
-    text = (f"deviation {shown_against(r.deviation_db, MAX_DEVIATION_DB)} dB{at} within "
-            f"{r.range_db:g} dB of the peak")
+    if r.deviation_db == 0:          # the rounded band is the design: no place to name
+        text = f"no deviation within {r.range_db:g} dB of the peak"
+    else:
+        text = (f"deviation {shown_against(r.deviation_db, MAX_DEVIATION_DB)} dB{at} within "
+                f"{r.range_db:g} dB of the peak")
     if r.floor_error_db is not None and math.isfinite(r.floor_error_db):
-        text += f", error {shown_against(r.floor_error_db, r.floor_db)} dB re peak below it"
+        if r.floor_error_db <= _NO_ERROR_DB:
+            text += ", no error below it"
+        else:
+            text += f", error {shown_against(r.floor_error_db, r.floor_db)} dB re peak below it"
     return text
+
+
+#: An error this far below the peak (dB) is none at all: below the resolution of float64
+#: (2^-52, about -313 dB); a band that rounds to itself reads the floor of the dB function.
+_NO_ERROR_DB = -400.0
 
 
 def arith_text(rx: RateExport) -> list[str]:

@@ -327,3 +327,17 @@ def test_export_bad_format_in_a_list_exit_2(write_project, tmp_path, capsys):
     err = capsys.readouterr().err
     assert "must be one or more of json, csv, text, wav" in err
     assert not (tmp_path / "o").exists()
+
+
+def test_export_lines_say_none_for_an_exact_band_and_give_a_rounded_one_its_figures(
+        write_project, tmp_path, capsys):
+    # In float64 the bands are the design itself: "no deviation" and "no error", not a
+    # deviation of 0 dB at an arbitrary frequency or the dB function's floor (-6000 dB).
+    p = write_project(two_way())
+    assert main(["export", str(p), "--arith", "float64", "--out", str(tmp_path / "a")]) == 0
+    out = capsys.readouterr().out
+    assert "no deviation within 40 dB of the peak, no error below it" in out
+    assert "e+03 dB" not in out
+    assert main(["export", str(p), "--arith", "q1.31", "--out", str(tmp_path / "b")]) == 0
+    out = capsys.readouterr().out
+    assert "no deviation" not in out and " dB re peak below it" in out
