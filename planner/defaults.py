@@ -9,7 +9,8 @@ like start at once.
 from __future__ import annotations
 
 __all__ = ["PLOT_VIEWS", "TIME_VIEWS", "EXPORT_FORMATS", "COMPARE_RIPPLE_DB",
-           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS", "COMPARE_MAX_TAPS", "ALIGN_VARIABLES", "ALIGN_DEFAULT",
+           "COMPARE_ATTEN_DB", "IIR_FAMILIES", "MAX_TAPS", "COMPARE_MAX_TAPS", "ALIGN_VARIABLES",
+           "ALIGN_DEFAULT", "ALIGN_MAX_DELAY_MS", "ALIGN_TRIM_DB", "ALIGN_FREQ_OCTAVES",
            "FIT_BANKS", "FIT_LIMIT_DB"]
 
 #: Frequency views of ``crossplan plot`` (:mod:`planner.present.plots`).
@@ -42,6 +43,12 @@ COMPARE_MAX_TAPS = 2047
 ALIGN_VARIABLES = ("delay", "invert", "gain", "freq", "allpass")
 #: What it changes unless told otherwise.
 ALIGN_DEFAULT = ("delay", "invert")
+#: Its bounds unless told otherwise: the largest delay a band may get (ms), how far a level
+#: may be trimmed either way (dB), how far a crossover or all-pass frequency may move
+#: either way (octaves).
+ALIGN_MAX_DELAY_MS = 2.0
+ALIGN_TRIM_DB = 3.0
+ALIGN_FREQ_OCTAVES = 0.25
 #: Banks of peaking filters ``crossplan fit --bank`` adds (ISO 266 centres).
 FIT_BANKS = ("octave", "third-octave")
 #: Gain limit of a fitted filter, either way (dB).

@@ -30,7 +30,7 @@ from planner.model import Project
 __all__ = [
     "add_band", "remove_band", "move_band", "duplicate_band", "set_band", "toggle_band",
     "add_filter", "remove_filter", "move_filter", "duplicate_filter", "set_filter_params",
-    "set_filter_type", "toggle_bypass", "set_analysis", "set_name", "set_driver",
+    "set_filter_type", "toggle_bypass", "set_analysis", "set_solve", "set_name", "set_driver",
     "set_driver_source", "set_sample_rate", "nyquist_problems", "DEFAULT_FILTER", "BAND_FLAGS",
     "add_crossover", "set_crossover", "remove_crossover", "link_filter", "toggle_voicing",
 ]
@@ -484,6 +484,23 @@ def set_analysis(p: Project, /, **settings: Any) -> Project:
                                    f"{', '.join(sorted(_ANALYSIS_SETTINGS))}",
                                    field=f"analysis.{key}")
             d["analysis"][key] = value
+    return _rebuild(p, change)
+
+
+_SOLVE_SETTINGS = {"vary", "max_delay_ms", "trim_db", "freq_octaves", "limit_db"}
+
+
+def set_solve(p: Project, /, **settings: Any) -> Project:
+    """Change the solvers' defaults (the file's ``solve`` section): ``vary`` (what align
+    may change, a sequence of names), ``max_delay_ms`` (ms), ``trim_db`` (dB),
+    ``freq_octaves`` (octaves), ``limit_db`` (fit's gain limit, dB)."""
+    def change(d):
+        sv = d.setdefault("solve", {})
+        for key, value in settings.items():
+            if key not in _SOLVE_SETTINGS:
+                raise ProjectError(f"is not a solver setting; settings: "
+                                   f"{', '.join(sorted(_SOLVE_SETTINGS))}", field=f"solve.{key}")
+            sv[key] = list(value) if key == "vary" and isinstance(value, tuple) else value
     return _rebuild(p, change)
 
 

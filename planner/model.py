@@ -18,10 +18,10 @@ from functools import cached_property
 from types import MappingProxyType
 from typing import Any, Mapping
 
-from planner import config
+from planner import config, defaults
 
-__all__ = ["Filter", "Driver", "Measured", "Band", "Analysis", "Acoustics", "Project", "FORMAT",
-           "VERSION"]
+__all__ = ["Filter", "Driver", "Measured", "Band", "Analysis", "Acoustics", "Solve", "Project",
+           "FORMAT", "VERSION"]
 
 FORMAT = "crossplan-project"
 VERSION = 1
@@ -312,6 +312,38 @@ class Acoustics:
 
 
 @dataclass(frozen=True)
+class Solve:
+    """How the solvers search unless told otherwise (``crossplan align`` and ``fit``, and
+    the editor's align and fit); ``crossplan``'s options override them.
+
+    Attributes
+    ----------
+    vary : tuple of str
+        What align may change, some of :data:`planner.defaults.ALIGN_VARIABLES`.
+    max_delay_ms : float
+        The largest delay align may give a band (ms).
+    trim_db : float
+        How far align may trim a band's level either way (dB), when it varies ``gain``.
+    freq_octaves : float
+        How far align may move a crossover or all-pass frequency either way (octaves),
+        when it varies ``freq`` or ``allpass``.
+    limit_db : float
+        How far fit may set a gain either way (dB).
+    """
+
+    vary: tuple[str, ...] = defaults.ALIGN_DEFAULT
+    max_delay_ms: float = defaults.ALIGN_MAX_DELAY_MS
+    trim_db: float = defaults.ALIGN_TRIM_DB
+    freq_octaves: float = defaults.ALIGN_FREQ_OCTAVES
+    limit_db: float = defaults.FIT_LIMIT_DB
+    extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
+
+    def __post_init__(self):
+        object.__setattr__(self, "vary", tuple(self.vary))
+        object.__setattr__(self, "extra", _frozen(self.extra))
+
+
+@dataclass(frozen=True)
 class Project:
     """A whole project: name, sample rate, analysis settings and bands.
 
@@ -327,6 +359,7 @@ class Project:
     analysis: Analysis = field(default_factory=Analysis)
     extra: Mapping[str, Any] = field(default_factory=dict, compare=False)
     acoustics: Acoustics = field(default_factory=Acoustics)
+    solve: Solve = field(default_factory=Solve)
     #: the folder driver files are named relative to (not saved)
     source_dir: str | None = field(default=None, compare=False)
     #: named crossover points: name -> {"freq": Hz, ...} (file order)

@@ -19,13 +19,13 @@ from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any, Callable, Mapping, NamedTuple
 
-from planner import config, drivers, presets, targets
+from planner import config, defaults, drivers, presets, targets
 from planner import filters as fk
 from planner.filters.fields import finite_number
 from planner.dsp.fixed import parse_arith
 from planner.errors import CrossplanError, ProjectChangedError, ProjectError
 from planner.jsonio import atomic_write_bytes, atomic_write_text, backup_path
-from planner.model import FORMAT, VERSION, Acoustics, Analysis, Band, Filter, Project
+from planner.model import FORMAT, VERSION, Acoustics, Analysis, Band, Filter, Project, Solve
 
 __all__ = ["load_preset", "from_dict", "to_dict", "loads", "dumps", "load", "read", "save",
            "rebased", "check_filter", "check_band", "atomic_write_text", "Fingerprint",
@@ -39,7 +39,8 @@ MIGRATIONS: dict[int, Callable[[dict], dict]] = {}
 
 
 _PROJECT_KEYS = {"format", "version", "name", "sample_rate", "analysis", "acoustics", "bands",
-                 "crossovers"}
+                 "crossovers", "solve"}
+_SOLVE_KEYS = {"vary", "max_delay_ms", "trim_db", "freq_octaves", "limit_db"}
 _ACOUSTICS_KEYS = {"temperature_c", "reference_db", "distance_m", "angle_min_deg",
                    "angle_max_deg", "angle_step_deg", "axis_mm", "window_db"}
 _ANALYSIS_KEYS = {"f_min", "f_max", "points", "flatness_db", "phase_deg", "crossing_floor_db",
@@ -217,6 +218,27 @@ def _analysis(raw: Mapping, fs_hz: float, base_dir=None) -> Analysis:
     )
 
 
+def _solve(raw: Mapping) -> Solve:
+    d = Solve()
+    vary = raw.get("vary", list(d.vary))
+    known = defaults.ALIGN_VARIABLES
+    if (not isinstance(vary, list) or not vary
+            or not all(isinstance(v, str) and v in known for v in vary)):
+        raise ProjectError(f"must be a list of some of {', '.join(map(repr, known))}, not "
+                           f"{repr(vary)[:60]}", field="vary")
+    if len(set(vary)) != len(vary):
+        raise ProjectError(f"names one twice: {vary}", field="vary")
+    return Solve(
+        vary=tuple(vary),
+        max_delay_ms=float(_num(raw, "max_delay_ms", d.max_delay_ms, lo=0, hi=1000, unit="ms")),
+        trim_db=float(_num(raw, "trim_db", d.trim_db, lo=0, hi=40, unit="dB")),
+        freq_octaves=float(_num(raw, "freq_octaves", d.freq_octaves, lo=0, hi=2,
+                                unit="octaves")),
+        limit_db=float(_num(raw, "limit_db", d.limit_db, lo=0.1, hi=30, unit="dB")),
+        extra={k: v for k, v in raw.items() if k not in _SOLVE_KEYS},
+    )
+
+
 def _acoustics(raw: Mapping) -> Acoustics:
     d = Acoustics()
     ref = raw.get("reference_db")
@@ -347,6 +369,10 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
         acoustics = _acoustics(_obj(raw.get("acoustics", {}), ""))
     except CrossplanError as e:
         raise e.at("acoustics") from None
+    try:
+        solve = _solve(_obj(raw.get("solve", {}), ""))
+    except CrossplanError as e:
+        raise e.at("solve") from None
     xo = _crossovers(raw.get("crossovers"), fs)
     blist = raw.get("bands")
     if not isinstance(blist, list) or not blist:
@@ -375,7 +401,7 @@ def from_dict(raw: Any, base_dir: str | os.PathLike | None = None,
     return Project(name=name, sample_rate=float(fs) if fs != int(fs) else int(fs),
                    bands=tuple(bands), analysis=analysis,
                    extra={k: v for k, v in raw.items() if k not in _PROJECT_KEYS},
-                   acoustics=acoustics,
+                   acoustics=acoustics, solve=solve,
                    source_dir=None if base_dir is None else str(base_dir), crossovers=xo)
 
 
@@ -415,6 +441,11 @@ def to_dict(project: Project) -> dict:
     if ac != Acoustics() or ac.extra:
         out["acoustics"] = {k: getattr(ac, k) for k in sorted(_ACOUSTICS_KEYS)
                             if getattr(ac, k) is not None} | dict(ac.extra)
+    sv = project.solve
+    if sv != Solve() or sv.extra:
+        out["solve"] = {"vary": list(sv.vary), "max_delay_ms": sv.max_delay_ms,
+                        "trim_db": sv.trim_db, "freq_octaves": sv.freq_octaves,
+                        "limit_db": sv.limit_db} | dict(sv.extra)
     for b in project.bands:
         bd: dict[str, Any] = {"name": b.name, "gain_db": b.gain_db, "delay_ms": b.delay_ms,
                               "invert": b.invert}

@@ -264,3 +264,44 @@ def test_same_bytes_written_again_is_not_a_change(example, tmp_path):
     path.write_bytes(data)
     os.utime(path, ns=(fp.mtime_ns + 10**9, fp.mtime_ns + 10**9))
     project.save(p, path, expect=fp)
+
+
+# -- the solvers' defaults: the "solve" section ----------------------------------------
+
+def test_solve_defaults_are_crossplans_and_not_written(example):
+    # Without a "solve" section the solvers keep crossplan's defaults (the documented
+    # ones: delay and polarity, 2 ms, +/-3 dB, 1/4 octave, fit +/-12 dB), and none is written.
+    p = project.from_dict(example)
+    assert (p.solve.vary, p.solve.max_delay_ms, p.solve.trim_db, p.solve.freq_octaves,
+            p.solve.limit_db) == (("delay", "invert"), 2.0, 3.0, 0.25, 12.0)
+    assert "solve" not in json.loads(project.dumps(p))
+
+
+def test_solve_loaded_saved_and_unknown_keys_kept(example):
+    example["solve"] = {"vary": ["gain", "delay"], "max_delay_ms": 6, "limit_db": 3,
+                        "note": "sub 2 m behind"}
+    p = project.from_dict(example)
+    assert p.solve.vary == ("gain", "delay") and p.solve.max_delay_ms == 6.0
+    out = json.loads(project.dumps(p))["solve"]
+    assert out == {"vary": ["gain", "delay"], "max_delay_ms": 6.0, "trim_db": 3.0,
+                   "freq_octaves": 0.25, "limit_db": 3.0, "note": "sub 2 m behind"}
+    assert project.loads(project.dumps(p)) == p
+
+
+@pytest.mark.parametrize("solve,message", [
+    ({"vary": "delay"}, r"^solve\.vary: must be a list of some of 'delay', 'invert', 'gain', "
+                        r"'freq', 'allpass', not 'delay'"),
+    ({"vary": []}, r"^solve\.vary: must be a list"),
+    ({"vary": ["delay", "loudness"]}, r"^solve\.vary: .*not \['delay', 'loudness'\]"),
+    ({"vary": ["delay", "delay"]}, r"^solve\.vary: names one twice"),
+    ({"max_delay_ms": -1}, r"^solve\.max_delay_ms: -1 ms must be at least 0 ms"),
+    ({"max_delay_ms": 2000}, r"^solve\.max_delay_ms: 2000 ms must be at most 1000 ms"),
+    ({"trim_db": 41}, r"^solve\.trim_db: 41 dB must be at most 40 dB"),
+    ({"freq_octaves": "1/4"}, r"^solve\.freq_octaves: must be a number, not '1/4'"),
+    ({"limit_db": 0}, r"^solve\.limit_db: 0 dB must be at least 0\.1 dB"),
+    ([], r"^solve: must be an object"),
+])
+def test_solve_bad_values_name_the_field(example, solve, message):
+    example["solve"] = solve
+    with pytest.raises(ProjectError, match=message):
+        project.from_dict(example)

@@ -24,6 +24,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from planner import drivers, filters as fk  # noqa: E402
 from planner.filters.fields import DB_RANGE, Q_MAX  # noqa: E402
 from planner.model import FORMAT  # noqa: E402
+from planner.defaults import ALIGN_VARIABLES  # noqa: E402
 
 DRAFT = "https://json-schema.org/draft/2020-12/schema"
 ID = "https://crossplan.invalid/project.schema.json"   # no public address; a local name
@@ -167,6 +168,16 @@ def schema() -> dict:
         "axis_mm": _num(-5000, 5000, desc="height of the listening axis on the baffle (mm)"),
         "window_db": _num(0, 40, lo_open=True, desc="the window's level limit (dB)"),
     }, "description": "listening geometry of the acoustic sum; unknown keys kept"}
+    solve = {"type": "object", "properties": {
+        "vary": {"type": "array", "minItems": 1, "uniqueItems": True,
+                 "items": {"enum": list(ALIGN_VARIABLES)},
+                 "description": "what align may change"},
+        "max_delay_ms": _num(0, 1000, desc="the largest delay align may give a band (ms)"),
+        "trim_db": _num(0, 40, desc="how far align may trim a band's level, +/- dB"),
+        "freq_octaves": _num(0, 2, desc="how far align may move a crossover or all-pass "
+                                        "frequency, +/- octaves"),
+        "limit_db": _num(0.1, 30, desc="how far fit may set a gain, +/- dB"),
+    }, "description": "the solvers' defaults (align, fit; the editor's too); unknown keys kept"}
     band = {"type": "object", "required": ["name"], "properties": {
         "name": {"type": "string", "pattern": r"\S",
                  "description": "unique within the project (leading/trailing spaces dropped)"},
@@ -195,9 +206,10 @@ def schema() -> dict:
             "sample_rate": _num(1000, 1_536_000, desc="sample rate (Hz)"),
             "analysis": {"$ref": "#/$defs/analysis"},
             "acoustics": {"$ref": "#/$defs/acoustics"},
+            "solve": {"$ref": "#/$defs/solve"},
             "bands": {"type": "array", "minItems": 1, "items": {"$ref": "#/$defs/band"}},
         },
-        "$defs": {"analysis": analysis, "acoustics": acoustics, "band": band,
+        "$defs": {"analysis": analysis, "acoustics": acoustics, "solve": solve, "band": band,
                   "filter": filter_schema(), "driver": driver_schema()},
     }
 

@@ -19,7 +19,8 @@ from __future__ import annotations
 from pathlib import Path
 
 from planner.cli.common import designing, load_project
-from planner.defaults import ALIGN_DEFAULT, ALIGN_VARIABLES, FIT_BANKS, FIT_LIMIT_DB
+from planner.defaults import (ALIGN_DEFAULT, ALIGN_FREQ_OCTAVES, ALIGN_MAX_DELAY_MS, ALIGN_TRIM_DB,
+                               ALIGN_VARIABLES, FIT_BANKS, FIT_LIMIT_DB)
 from planner.errors import ProjectError
 from planner.jsonio import dumps
 
@@ -48,17 +49,21 @@ def add_arguments(p, name):
                    help="write over the output file if it exists (over FILE when no --out)")
     p.add_argument("--json", action="store_true", help="print one JSON object")
     if name == "align":
-        p.add_argument("--vary", default=",".join(ALIGN_DEFAULT), metavar="LIST",
+        # Each bound's default is the project's "solve" section, then crossplan's own.
+        p.add_argument("--vary", default=None, metavar="LIST",
                        help=f"what may change, comma-separated, of {', '.join(ALIGN_VARIABLES)} "
-                            f"(default {','.join(ALIGN_DEFAULT)})")
-        p.add_argument("--max-delay-ms", type=lambda t: _number(t, 0, 1000, "ms"), default=2.0,
-                       metavar="MS", help="the largest delay a band may get (default 2 ms)")
-        p.add_argument("--trim-db", type=lambda t: _number(t, 0, 40, "dB"), default=3.0,
-                       metavar="DB", help="trims within +-DB with --vary gain (default 3)")
+                            f"(default: the file's solve.vary, else {','.join(ALIGN_DEFAULT)})")
+        p.add_argument("--max-delay-ms", type=lambda t: _number(t, 0, 1000, "ms"), default=None,
+                       metavar="MS", help="the largest delay a band may get (default: the "
+                       f"file's solve.max_delay_ms, else {ALIGN_MAX_DELAY_MS:g} ms)")
+        p.add_argument("--trim-db", type=lambda t: _number(t, 0, 40, "dB"), default=None,
+                       metavar="DB", help="trims within +-DB with --vary gain (default: the "
+                       f"file's solve.trim_db, else {ALIGN_TRIM_DB:g})")
         p.add_argument("--freq-octaves", type=lambda t: _number(t, 0, 2, "octaves"),
-                       default=0.25, metavar="OCT",
+                       default=None, metavar="OCT",
                        help="how far crossover and all-pass frequencies may move with --vary "
-                            "freq or allpass (default 0.25 octave)")
+                            "freq or allpass (default: the file's solve.freq_octaves, else "
+                            f"{ALIGN_FREQ_OCTAVES:g} octave)")
         p.add_argument("--move", default=None, metavar="HZ[,HZ]",
                        help="only these crossover or all-pass frequencies may move "
                             "(default: all)")
@@ -83,8 +88,9 @@ def add_arguments(p, name):
                        help="fit the bands' own gains (a multi-band split that must "
                             "recombine) instead of their EQ filters'")
         p.add_argument("--limit-db", type=lambda t: _number(t, 0.1, 30, "dB"),
-                       default=FIT_LIMIT_DB, metavar="DB",
-                       help=f"each gain within +-DB (default {FIT_LIMIT_DB:g})")
+                       default=None, metavar="DB",
+                       help="each gain within +-DB (default: the file's solve.limit_db, else "
+                            f"{FIT_LIMIT_DB:g})")
         p.add_argument("--minimax", action="store_true",
                        help="after least squares, lower the largest error (minimax)")
 
@@ -148,7 +154,8 @@ def _align(args, proj, target, out: Path) -> int:
     from planner.present.solve import alignment_dict, alignment_text
     from planner.solve import Bounds, align
 
-    vary = [v.strip() for v in args.vary.split(",") if v.strip()]
+    vary = (list(proj.solve.vary) if args.vary is None
+            else [v.strip() for v in args.vary.split(",") if v.strip()])
     move = None
     if args.move is not None:
         try:
@@ -156,7 +163,10 @@ def _align(args, proj, target, out: Path) -> int:
         except ValueError:
             raise ProjectError(f"must be frequencies in Hz, comma-separated, not {args.move!r}",
                                field="--move") from None
-    bounds = Bounds(args.max_delay_ms, args.trim_db, args.freq_octaves, move)
+    own = Bounds.of(proj)
+    bounds = Bounds(own.max_delay_ms if args.max_delay_ms is None else args.max_delay_ms,
+                    own.trim_db if args.trim_db is None else args.trim_db,
+                    own.freq_octaves if args.freq_octaves is None else args.freq_octaves, move)
     a = align(proj, vary, bounds, target)
     written = None
     if a.improved:
@@ -175,7 +185,9 @@ def _fit(args, proj, target, out: Path) -> int:
     from planner.solve import fit
 
     f = fit(proj, target, bands=_band_indices(proj, args.bands), split=args.split,
-            bank=args.bank, limit_db=args.limit_db, minimax=args.minimax)
+            bank=args.bank,
+            limit_db=proj.solve.limit_db if args.limit_db is None else args.limit_db,
+            minimax=args.minimax)
     _write(f.project, out)
     if args.json:
         print(dumps(fit_dict(f, str(out))), end="")

@@ -54,7 +54,8 @@ from scipy import optimize
 
 from planner import edits, engine, progress
 from planner.crossovers import crossover_points, move_crossover
-from planner.defaults import ALIGN_DEFAULT, ALIGN_VARIABLES
+from planner.defaults import (ALIGN_DEFAULT, ALIGN_FREQ_OCTAVES, ALIGN_MAX_DELAY_MS,
+                               ALIGN_TRIM_DB, ALIGN_VARIABLES)
 from planner.dsp import analysis as an
 from planner.dsp import fit as dfit
 from planner.errors import ProjectError
@@ -86,7 +87,7 @@ _MOVE_REL = 0.01
 
 @dataclass(frozen=True)
 class Bounds:
-    """The limits of a search.
+    """The limits of a search (:meth:`of` gives a project's own, its ``solve`` section).
 
     Attributes
     ----------
@@ -102,9 +103,9 @@ class Bounds:
         input) that may move; None: all of them.
     """
 
-    max_delay_ms: float = 2.0
-    trim_db: float = 3.0
-    freq_octaves: float = 0.25
+    max_delay_ms: float = ALIGN_MAX_DELAY_MS
+    trim_db: float = ALIGN_TRIM_DB
+    freq_octaves: float = ALIGN_FREQ_OCTAVES
     move_hz: tuple | None = None
 
     def __post_init__(self):
@@ -113,6 +114,12 @@ class Bounds:
             v = getattr(self, name)
             if not (np.isfinite(v) and lo <= v <= hi):
                 raise ProjectError(f"must be within {lo:g} .. {hi:g}, not {v:g}", field=name)
+
+    @classmethod
+    def of(cls, project: Project, move_hz: tuple | None = None) -> "Bounds":
+        """The bounds the project's ``solve`` section sets (the defaults where it is silent)."""
+        s = project.solve
+        return cls(s.max_delay_ms, s.trim_db, s.freq_octaves, move_hz)
 
     def may_move(self, freq_hz: float) -> bool:
         if self.move_hz is None:

@@ -10,6 +10,7 @@ check bar, the warnings and the plot.
 
 from __future__ import annotations
 
+import re
 import textwrap
 import time
 from dataclasses import dataclass
@@ -75,7 +76,7 @@ ACTIONS = (
     C("view(1)", "Next view", "magnitude, phase, group delay, phase/level difference at a "
       "crossing, impulse, step", "v", "View"),
     C("settings", "Project settings", "project name, analysis range, points, limits, "
-      "sample rate", "e", "Setup"),
+      "sample rate, the solvers' bounds", "e", "Setup"),
     C("back", "Back", "back to the chain; cancels a long design (and undoes its edit)",
       "escape", "Back"),
     C("help", "Help", "keys and safety notes", "question_mark,f1", "Help"),
@@ -710,6 +711,16 @@ class CrossplanApp(App):
                 on = _parse_headroom(text)
                 return edits.set_analysis(p, enforce_headroom=on), \
                     f"headroom {'fails' if on else 'warns'}"
+            if name.startswith("solve_"):
+                key = name[len("solve_"):]
+                if key == "vary":
+                    value = [v for v in re.split(r"[,\s]+", text.strip().lower()) if v]
+                    label = f"align varies {', '.join(value)}"
+                else:
+                    value = units.parse(text, {"max_delay_ms": "ms", "trim_db": "dB",
+                                               "limit_db": "dB"}.get(key, ""), name)
+                    label = f"solver {key}"
+                return edits.set_solve(p, **{key: value}), label
             unit = {"f_min": "Hz", "f_max": "Hz", "flatness_db": "dB",
                     "crossing_floor_db": "dB"}.get(name, "")
             value = units.parse(text, unit, name)
@@ -996,11 +1007,13 @@ class CrossplanApp(App):
         try:
             with progress.scope(report=report, cancel=lambda: self._solve_cancel):
                 target = project_target(project)
+                # The bounds are the project's own (its "solve" section, or the defaults).
                 if kind == "align":
-                    result = alignment.align(project, target_fn=target)
+                    result = alignment.align(project, project.solve.vary,
+                                             alignment.Bounds.of(project), target_fn=target)
                 else:
-                    result = eqfit.fit(project, target,
-                                       bands=[band] if bank else None, bank=bank)
+                    result = eqfit.fit(project, target, bands=[band] if bank else None,
+                                       bank=bank, limit_db=project.solve.limit_db)
         except DesignCancelled:
             result = None
         except CrossplanError as e:

@@ -14,6 +14,7 @@ from textual.widgets.option_list import Option
 from rich.text import Text
 
 from planner import compare, config, progress, units
+from planner.defaults import ALIGN_VARIABLES
 from planner.errors import CrossplanError, DesignCancelled
 from planner.present.text import compare_text
 from planner.model import Project
@@ -253,6 +254,12 @@ SETTINGS = (
     ("crossing_floor_db", "floor", "dB"),
     ("arith", "target arith", ""),
     ("enforce_headroom", "headroom", ""),
+    # The solvers' defaults (the file's "solve" section; crossplan align and fit too).
+    ("solve_vary", "align varies", ""),
+    ("solve_max_delay_ms", "align delay", "ms"),
+    ("solve_trim_db", "align trim", "dB"),
+    ("solve_freq_octaves", "align octaves", ""),
+    ("solve_limit_db", "fit gains", "dB"),
 )
 
 
@@ -265,32 +272,40 @@ class SettingsScreen(_DismissOnce, ModalScreen[None]):
     :meth:`show` or :meth:`refuse`.
     """
 
+    # Up and down move between the fields before the scrolling box takes them (focus
+    # scrolls it to the field).
     BINDINGS = [Binding("escape", "dismiss", "Close"),
-                Binding("down", "app.focus_next", "Next field", show=False),
-                Binding("up", "app.focus_previous", "Previous field", show=False)]
+                Binding("down", "app.focus_next", "Next field", show=False, priority=True),
+                Binding("up", "app.focus_previous", "Previous field", show=False,
+                        priority=True)]
 
     def __init__(self, project: Project) -> None:
         super().__init__()
         self._project = project
 
     def compose(self) -> ComposeResult:
-        with Vertical(id="settings-box") as box:
+        with VerticalScroll(id="settings-box") as box:
             box.border_title = "Project settings (Enter applies a field, Escape closes)"
             for name, label, unit in SETTINGS:
                 yield FieldRow("settings", name, label, self._text(name, unit))
             yield Static("", classes="refusal", id="settings-refusal", markup=False)
-            yield Static("Changing the sample rate redesigns every filter. It is refused, "
-                         "naming them, while a filter would be at or above the new Nyquist "
-                         "frequency; 'to' is lowered to Nyquist if needed. Target arith "
-                         "(float32, q1.31, q2.30, q1.23, ...; empty for none) re-checks every "
-                         "band rounded to what the DSP computes in. Headroom: 'warn' (default) "
-                         "or 'fail' when a band peaks above "
-                         f"{config.HEADROOM_LIMIT_DB:+g} dB.", classes="hint")
+            yield Static("A new sample rate redesigns every filter (refused, naming them, "
+                         "while one would reach the new Nyquist frequency). Target arith "
+                         "(float32, q1.31, q2.30, ...; empty: none) re-checks the bands "
+                         "rounded as the DSP computes. Headroom: 'warn' or 'fail' above "
+                         f"{config.HEADROOM_LIMIT_DB:+g} dB. Align varies some of "
+                         f"{', '.join(ALIGN_VARIABLES)} within its delay (ms), trim (+/- dB) "
+                         "and octaves; fit sets gains within +/- dB.", classes="hint")
 
     def _text(self, name: str, unit: str) -> str:
         p = self._project
         if name == "name":
             return p.name
+        if name.startswith("solve_"):
+            value = getattr(p.solve, name[len("solve_"):])
+            if name == "solve_vary":
+                return ", ".join(value)
+            return units.format(value, unit, 6)
         value = p.sample_rate if name == "sample_rate" else getattr(p.analysis, name)
         if name == "arith":
             return value or ""

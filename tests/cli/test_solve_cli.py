@@ -156,3 +156,34 @@ def test_align_follows_the_projects_own_target_unless_told_otherwise(write_proje
     main(args + [str(f.with_name("flat.json")), "--target", "flat"])
     # An LR4 pair already sums flat: no trim does better, so nothing is written.
     assert not f.with_name("flat.json").exists()
+
+
+def test_align_takes_its_defaults_from_the_files_solve_section(offset_file, capsys):
+    # solve.vary ["invert"]: the 0.25 ms offset stays; --vary on the command line wins.
+    d = json.loads(offset_file.read_text())
+    d["solve"] = {"vary": ["invert"]}
+    offset_file.write_text(json.dumps(d))
+    out = offset_file.with_name("o.json")
+    assert main(["align", str(offset_file), "--json", "--out", str(out)]) in (0, 1)
+    r = json.loads(capsys.readouterr().out)
+    assert r["changes"] == ["high: invert false -> true"]    # 0.25 ms is 180 deg at 2 kHz
+    assert main(["align", str(offset_file), "--json", "--out", str(out), "--overwrite",
+                 "--vary", "delay,invert"]) == 0
+    capsys.readouterr()
+    assert json.loads(out.read_text())["bands"][0]["delay_ms"] == pytest.approx(0, abs=0.021)
+    assert json.loads(out.read_text())["solve"]["vary"] == ["invert"]    # kept as written
+
+
+def test_fit_takes_its_gain_limit_from_the_file_and_the_option_wins(write_project, capsys):
+    # Against a tilt of -1 dB per octave the tweeter's EQ wants about -5 dB.
+    d = pj.to_dict(pj.load_preset("two-way"))
+    d["analysis"]["target"] = "tilt:-1"
+    d["solve"] = {"limit_db": 0.5}
+    f = write_project(d, "tw.json")
+    out = f.with_name("o.json")
+    main(["fit", str(f), "--json", "--out", str(out)])
+    capsys.readouterr()
+    assert json.loads(out.read_text())["bands"][1]["filters"][1]["gain_db"] == -0.5
+    main(["fit", str(f), "--json", "--out", str(out), "--overwrite", "--limit-db", "12"])
+    capsys.readouterr()
+    assert json.loads(out.read_text())["bands"][1]["filters"][1]["gain_db"] < -4

@@ -689,3 +689,48 @@ def test_headroom_word_refused_names_the_field():
 
     with pytest.raises(ProjectError, match=r"enforce_headroom: must be 'fail' .* not 'maybe'"):
         _parse_headroom("maybe")
+
+
+async def test_settings_hold_the_solvers_bounds_and_refuse_bad_ones():
+    # The solvers' fields of the settings screen write the file's "solve" section (an
+    # undoable edit each); a name align does not know, or a bound out of range, is refused.
+    app = make_app()
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await pilot.press("e")
+        await pilot.pause()
+        assert isinstance(app.screen, SettingsScreen)
+        vary = app.screen.query_one("#settings-solve_vary")
+        assert vary.value == "delay, invert"
+        vary.focus()
+        vary.value = "delay, gain"
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.solve.vary == ("delay", "gain")
+        vary.value = "delay, loudness"
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.solve.vary == ("delay", "gain")
+        assert "refused: " in screen_text(app) and "'loudness'" in screen_text(app)
+        delay = app.screen.query_one("#settings-solve_max_delay_ms")
+        delay.focus()
+        delay.value = "4.5"
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.solve.max_delay_ms == 4.5
+        assert delay.value == "4.5 ms"
+        delay.value = "-1"
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.solve.max_delay_ms == 4.5
+        assert "refused: " in screen_text(app)
+        limit = app.screen.query_one("#settings-solve_limit_db")
+        limit.focus()
+        limit.value = "6"
+        await pilot.press("enter")
+        await settle(app, pilot)
+        assert app.project.solve.limit_db == 6.0
+        await pilot.press("ctrl+z")
+        await settle(app, pilot)
+        assert app.project.solve.limit_db == 12.0
+        assert project.to_dict(app.project)["solve"]["max_delay_ms"] == 4.5
