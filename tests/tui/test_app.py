@@ -700,35 +700,27 @@ async def test_settings_hold_the_solvers_bounds_and_refuse_bad_ones():
         await pilot.press("e")
         await pilot.pause()
         assert isinstance(app.screen, SettingsScreen)
-        vary = app.screen.query_one("#settings-solve_vary")
-        assert vary.value == "delay, invert"
-        vary.focus()
-        vary.value = "delay, gain"
-        await pilot.press("enter")
-        await settle(app, pilot)
+
+        async def typed(field, text):
+            box = app.screen.query_one(f"#settings-{field}")
+            box.focus()
+            box.value = text
+            await pilot.press("enter")
+            await settle(app, pilot)
+            return box
+
+        assert app.screen.query_one("#settings-solve_vary").value == "delay, invert"
+        await typed("solve_vary", "delay, gain")
         assert app.project.solve.vary == ("delay", "gain")
-        vary.value = "delay, loudness"
-        await pilot.press("enter")
-        await settle(app, pilot)
+        await typed("solve_vary", "delay, loudness")
         assert app.project.solve.vary == ("delay", "gain")
         assert "refused: " in screen_text(app) and "'loudness'" in screen_text(app)
-        delay = app.screen.query_one("#settings-solve_max_delay_ms")
-        delay.focus()
-        delay.value = "4.5"
-        await pilot.press("enter")
-        await settle(app, pilot)
-        assert app.project.solve.max_delay_ms == 4.5
-        assert delay.value == "4.5 ms"
-        delay.value = "-1"
-        await pilot.press("enter")
-        await settle(app, pilot)
+        delay = await typed("solve_max_delay_ms", "4.5")
+        assert app.project.solve.max_delay_ms == 4.5 and delay.value == "4.5 ms"
+        await typed("solve_max_delay_ms", "-1")
         assert app.project.solve.max_delay_ms == 4.5
         assert "refused: " in screen_text(app)
-        limit = app.screen.query_one("#settings-solve_limit_db")
-        limit.focus()
-        limit.value = "6"
-        await pilot.press("enter")
-        await settle(app, pilot)
+        await typed("solve_limit_db", "6")
         assert app.project.solve.limit_db == 6.0
         await pilot.press("ctrl+z")
         await settle(app, pilot)

@@ -211,45 +211,38 @@ async def test_the_solvers_follow_the_projects_target(monkeypatch):
     assert seen == [("align", "tilt:-0.5"), ("fit", "tilt:-0.5")]
 
 
+async def solved(project_, key, accept):
+    """The project after the editor's solver ``key`` ran on ``project_`` and its preview
+    was answered with ``accept`` (when it showed one)."""
+    app = CrossplanApp(project_, None)
+    async with app.run_test(size=SIZE) as pilot:
+        await settle(app, pilot)
+        await run_solver(app, pilot, key)
+        if isinstance(app.screen, SolveScreen):
+            await pilot.press(accept)
+            await settle(app, pilot)
+        return app.project
+
+
 async def test_align_keeps_to_the_projects_own_delay_bound():
     # solve.max_delay_ms 0.005: the three-way's fix wants about 0.017 ms on woofer and mid,
     # so align stops at the bound (by default it goes there: the first test).
     p = misaligned_three_way().project
-    app = CrossplanApp(edits.set_solve(p, max_delay_ms=0.005), None)
-    async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await run_solver(app, pilot, "A")
-        assert isinstance(app.screen, SolveScreen)
-        await pilot.press("enter")
-        await settle(app, pilot)
-        delays = [b.delay_ms for b in app.project.bands]
+    delays = [b.delay_ms for b in (await solved(edits.set_solve(p, max_delay_ms=0.005), "A",
+                                                "enter")).bands]
     assert max(delays) <= 0.005 + 1e-9 and max(delays) > 0
 
 
 async def test_align_varies_only_what_the_project_says():
     # solve.vary ["invert"]: no delay moves, whatever the result.
     p = misaligned_three_way().project
-    app = CrossplanApp(edits.set_solve(p, vary=["invert"]), None)
-    async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await run_solver(app, pilot, "A")
-        if isinstance(app.screen, SolveScreen):
-            await pilot.press("enter")
-            await settle(app, pilot)
-        assert [b.delay_ms for b in app.project.bands] == [b.delay_ms for b in p.bands]
+    new = await solved(edits.set_solve(p, vary=["invert"]), "A", "enter")
+    assert [b.delay_ms for b in new.bands] == [b.delay_ms for b in p.bands]
 
 
 async def test_fit_keeps_to_the_projects_gain_limit():
     # Against a tilt of -1 dB per octave the tweeter's EQ wants about -5 dB; with
     # solve.limit_db 0.5 it stays within +/-0.5 dB.
     p = edits.set_analysis(project.load_preset("two-way"), target="tilt:-1")
-    p = edits.set_solve(p, limit_db=0.5)
-    app = CrossplanApp(p, None)
-    async with app.run_test(size=SIZE) as pilot:
-        await settle(app, pilot)
-        await run_solver(app, pilot, "F")
-        assert isinstance(app.screen, SolveScreen)
-        await pilot.press("y")
-        await settle(app, pilot)
-        g = app.project.bands[1].filters[1].params["gain_db"]
-    assert g == pytest.approx(-0.5, abs=1e-9)
+    new = await solved(edits.set_solve(p, limit_db=0.5), "F", "y")
+    assert new.bands[1].filters[1].params["gain_db"] == pytest.approx(-0.5, abs=1e-9)
