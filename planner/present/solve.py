@@ -75,7 +75,7 @@ def alignment_text(a, written: str | None, target: str = "flat") -> str:
     lines.append("changes:")
     lines += [f"  {c}" for c in a.changes]
     if a.at_bounds:
-        lines.append("bounds reached (widen them to search further):")
+        lines.append("bounds reached (widen them: the options, or the file's solve section):")
         lines += [f"  {b}" for b in a.at_bounds]
     if any(b1.gain_db > b0.gain_db + 1e-6 for b0, b1 in zip(p.bands, a.project.bands)):
         lines.append("note: a band's level went up; check the headroom.")

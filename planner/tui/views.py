@@ -357,7 +357,7 @@ def solve_preview(kind: str, result) -> str:
     lines += [f"  {c}" for c in changes]
     extra = getattr(result, "at_bounds", None) or getattr(result, "at_limits", None)
     if extra:
-        lines.append("stopped by its bounds:")
+        lines.append("stopped by its bounds (e, the project settings, widens them):")
         lines += [f"  {x}" for x in extra]
     up = [n for n0, n in zip(b.project.bands, result.project.bands) if n.gain_db > n0.gain_db + 1e-6]
     boost = kind == "fit" and max((float(g) for g in result.gains_db), default=0.0) > 0

@@ -246,3 +246,14 @@ async def test_fit_keeps_to_the_projects_gain_limit():
     p = edits.set_analysis(project.load_preset("two-way"), target="tilt:-1")
     new = await solved(edits.set_solve(p, limit_db=0.5), "F", "y")
     assert new.bands[1].filters[1].params["gain_db"] == pytest.approx(-0.5, abs=1e-9)
+
+
+def test_the_preview_says_where_the_bounds_are_widened():
+    # A bound reached is named, and the preview says the settings screen widens it.
+    p = edits.set_solve(misaligned_three_way().project, max_delay_ms=0.005)
+    from planner.solve import alignment
+
+    a = alignment.align(p, p.solve.vary, alignment.Bounds.of(p))
+    text = views.solve_preview("align", a)
+    assert "stopped by its bounds (e, the project settings, widens them):" in text
+    assert "woofer: delay at its limit, 0.005 ms" in text
