@@ -34,7 +34,7 @@ from pathlib import Path
 from typing import Iterator
 
 import numpy as np
-from scipy.io import wavfile
+from planner.lazyimport import scipy_module
 
 from planner.errors import ExportError
 
@@ -271,7 +271,8 @@ def write_wav(path, samples, fs_hz: float) -> None:
     """
     if not float(fs_hz).is_integer():
         raise ExportError(f"{fs_hz!r} Hz: a WAV file holds whole-Hz rates only", field="rate")
-    wavfile.write(str(path), int(fs_hz), np.asarray(samples, dtype=np.float32))
+    scipy_module("io.wavfile").write(str(path), int(fs_hz),
+                                      np.asarray(samples, dtype=np.float32))
 
 
 class WavWriter:

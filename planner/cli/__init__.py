@@ -146,17 +146,24 @@ def _main(argv: list[str] | None) -> int:
         parser.print_help()
         return EXIT_OK
     if args._module not in _LIGHT_MODULES:
-        _load_numerical_core()
+        _load_numerical_core(scipy_signal=args._module not in _NUMPY_MODULES)
     return int(importlib.import_module(args._module).run(args))
 
 
 #: Command modules that run without numpy or scipy (``presets`` and ``new``).
 _LIGHT_MODULES = frozenset({"planner.cli.presets"})
+#: Command modules that need numpy but scipy only for some filters (Bessel, FIR): they ask
+#: for scipy's subpackages when first used (:mod:`planner.lazyimport`), so a project of
+#: Butterworth and Linkwitz-Riley crossovers and EQ is checked, plotted, exported and
+#: edited without importing scipy.signal (most of the start-up time).
+_NUMPY_MODULES = frozenset({"planner.cli.check", "planner.cli.plot", "planner.cli.export",
+                            "planner.cli.edit"})
 
 
-def _load_numerical_core() -> None:
-    """Import numpy and scipy.signal here, near the bottom of the call stack, before the
-    command imports them through planner's own modules.
+def _load_numerical_core(scipy_signal: bool = True) -> None:
+    """Import numpy (and scipy.signal, unless ``scipy_signal`` is false: the command then
+    asks for it when a filter needs it, :mod:`planner.lazyimport`) here, near the bottom
+    of the call stack, before the command imports them through planner's own modules.
 
     CPython 3.11 keeps the frames of Python calls in chunks of 16 kB that it maps from
     the system when a call needs a new one and unmaps when the call returns. scipy's
@@ -169,7 +176,8 @@ def _load_numerical_core() -> None:
     """
     # The numerical core, only for the commands that compute (start-up time of the others).
     import numpy  # noqa: F401
-    import scipy.signal  # noqa: F401
+    if scipy_signal:
+        import scipy.signal  # noqa: F401
 
 
 def console_main() -> None:

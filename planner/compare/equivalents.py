@@ -7,7 +7,7 @@ import math
 from typing import Callable
 
 import numpy as np
-from scipy import signal, special
+from planner.lazyimport import scipy_module
 
 from planner.compare.results import DerivedSpec, Side, db10
 from planner.compare.spec import check_family
@@ -140,6 +140,7 @@ def elliptic_order(kind: str, pass_hz: float, stop_hz: float, ripple_db: float,
     """
     k = 1.0 / _edge_ratio(kind, pass_hz, stop_hz, fs_hz)
     k1 = math.sqrt((10 ** (ripple_db / 10) - 1) / (10 ** (atten_db / 10) - 1))
+    special = scipy_module("special")
     n = special.ellipk(k * k) * special.ellipkm1(k1 * k1) \
         / (special.ellipkm1(k * k) * special.ellipk(k1 * k1))
     return max(1, int(math.ceil(n)))
@@ -154,7 +155,8 @@ def _butterworth(kind: str, n: int, pass_hz: float, ripple_db: float, fs: float)
 
 def _elliptic(kind: str, n: int, pass_hz: float, ripple_db: float, atten_db: float,
               fs: float) -> np.ndarray:
-    return signal.ellip(n, ripple_db, atten_db, pass_hz, btype=kind, fs=fs, output="sos")
+    return scipy_module("signal").ellip(n, ripple_db, atten_db, pass_hz, btype=kind, fs=fs,
+                                        output="sos")
 
 
 def iir_equivalent(spec: DerivedSpec, fs_hz: float,

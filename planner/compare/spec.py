@@ -6,7 +6,7 @@ import math
 from typing import Callable
 
 import numpy as np
-from scipy import optimize
+from planner.lazyimport import scipy_module
 
 from planner.compare.results import DEFAULT_ATTEN_DB, DEFAULT_RIPPLE_DB, DerivedSpec
 from planner.defaults import IIR_FAMILIES
@@ -127,7 +127,8 @@ def _refine(mag_db: Callable[[float], float], target: float, a: float, b: float)
         return a
     if fb == 0 or np.sign(fa) == np.sign(fb):
         return b
-    return float(optimize.brentq(lambda f: mag_db(f) - target, a, b, xtol=1e-9 * b, rtol=1e-12))
+    return float(scipy_module("optimize").brentq(lambda f: mag_db(f) - target, a, b,
+                                                 xtol=1e-9 * b, rtol=1e-12))
 
 
 def derive_spec(sos: np.ndarray, fir: np.ndarray | None, fs_hz: float,

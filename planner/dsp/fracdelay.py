@@ -50,7 +50,7 @@ from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
-from scipy import signal
+from planner.lazyimport import scipy_module
 
 from planner.errors import DesignError
 
@@ -225,7 +225,7 @@ def kaiser_design(edge: float = EDGE_FS, max_error: float = MAX_ERROR) -> FracDe
     atten = -20.0 * math.log10(max_error / 2.0)
     width = 2.0 * (0.5 - edge) * 2.0      # in units of Nyquist, as kaiserord takes it
     for _ in range(60):
-        numtaps, beta = signal.kaiserord(atten, width)
+        numtaps, beta = scipy_module("signal").kaiserord(atten, width)
         n = max(3, int(numtaps) | 1)
         rows = np.stack([fractional_delay_fir(f, n, float(beta)) for f in _FRACTIONS])
         err = float(np.max(delay_error(rows, (n - 1) / 2 + _FRACTIONS, edge)))

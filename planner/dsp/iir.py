@@ -2,7 +2,10 @@
 
 Each design is a chain of small steps, as in scipy.signal: an analog lowpass
 prototype (zeros, poles, gain), a frequency transform to the prewarped
-cut-off, the bilinear transform, and pairing into second-order sections.
+cut-off, the bilinear transform, and pairing into second-order sections. The
+steps are those of :mod:`planner.dsp.zpk` (numpy only, the same numbers as
+scipy.signal's); the Bessel prototype alone comes from scipy.signal, imported
+when one is first designed.
 Because the cut-off is prewarped, the digital magnitude at ``freq_hz`` equals
 the analog prototype's magnitude at its cut-off. The one exception is the
 Bessel ``delay`` normalisation, defined by the group delay at DC rather than
@@ -24,9 +27,10 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy import signal
 
+from planner.dsp import zpk
 from planner.errors import DesignError
+from planner.lazyimport import scipy_module
 
 __all__ = [
     "FAMILIES",
@@ -96,13 +100,13 @@ def _digital_sos(z, p, k, kind: str, freq_hz: float, fs_hz: float,
     wa = prewarp(freq_hz, fs_hz) if warp else 2.0 * np.pi * freq_hz
     # Frequency transform: the prototype's 1 rad/s moves to the (prewarped) cut-off.
     if kind == "lowpass":
-        z, p, k = signal.lp2lp_zpk(z, p, k, wo=wa)
+        z, p, k = zpk.lp2lp_zpk(z, p, k, wo=wa)
     else:
-        z, p, k = signal.lp2hp_zpk(z, p, k, wo=wa)
+        z, p, k = zpk.lp2hp_zpk(z, p, k, wo=wa)
     # Bilinear transform: zeros at infinity move to Nyquist (lowpass) or stay at DC (highpass).
-    z, p, k = signal.bilinear_zpk(z, p, k, fs=fs_hz)
+    z, p, k = zpk.bilinear_zpk(z, p, k, fs=fs_hz)
     # Pair poles with the nearest zeros into second-order sections.
-    return signal.zpk2sos(z, p, k)
+    return zpk.zpk2sos(z, p, k)
 
 
 def butterworth_sos(kind: str, order: int, freq_hz: float, fs_hz: float) -> np.ndarray:
@@ -131,7 +135,7 @@ def butterworth_sos(kind: str, order: int, freq_hz: float, fs_hz: float) -> np.n
     """
     _check_common(kind, freq_hz, fs_hz)
     _check_order("butterworth", order)
-    z, p, k = signal.buttap(int(order))
+    z, p, k = zpk.buttap(int(order))
     return _digital_sos(z, p, k, kind, freq_hz, fs_hz)
 
 
@@ -195,7 +199,7 @@ def bessel_sos(kind: str, order: int, freq_hz: float, fs_hz: float, norm: str = 
     _check_order("bessel", order)
     if norm not in BESSEL_NORMS:
         raise DesignError(f"must be one of {', '.join(BESSEL_NORMS)}, not {norm!r}", field="norm")
-    z, p, k = signal.besselap(int(order), norm=norm)
+    z, p, k = scipy_module("signal").besselap(int(order), norm=norm)
     return _digital_sos(z, p, k, kind, freq_hz, fs_hz, warp=norm != "delay")
 
 

@@ -15,7 +15,7 @@ References
 from __future__ import annotations
 
 import numpy as np
-from scipy import signal
+from planner.lazyimport import scipy_module
 
 from planner.dsp.fixed.quantize import check_sos, pole_radius
 from planner.errors import CrossplanError, ExportError
@@ -114,6 +114,7 @@ def _decaying_blocks(s: np.ndarray, n_max: int, floor: float) -> tuple[list, boo
     peak sample's energy, or the response is all zero (done: True), or at
     ``n_max`` samples (done: False).
     """
+    signal = scipy_module("signal")
     zi = signal.sosfilt_zi(s) * 0.0
     blocks, n, size = [], 0, _FIRST_BLOCK
     while n < n_max:
@@ -160,4 +161,4 @@ def fft_convolve(x, h, mode: str = "full") -> np.ndarray:
                                  field=name)
     if mode not in ("full", "same", "valid"):
         raise CrossplanError(f"must be 'full', 'same' or 'valid', not {mode!r}", field="mode")
-    return signal.oaconvolve(x, h, mode=mode)
+    return scipy_module("signal").oaconvolve(x, h, mode=mode)

@@ -165,6 +165,9 @@ def _analysis_of(project: Project) -> tuple:
 #: key (about 30 presses a second) no search runs between two presses.
 _HINTS_AFTER_S = 0.15
 
+#: Seconds after the first screen before scipy.signal is loaded in the background.
+_PRELOAD_AFTER_S = 0.3
+
 #: An analysis that took less than this (ms, without the phase hints) is made on the UI
 #: thread next time, when the project has no FIR to design (see CrossplanApp._inline):
 #: within one frame (16.7 ms at 60 frames/s) with room for the drawing.
@@ -259,6 +262,16 @@ class CrossplanApp(App):
         self.query_one(ChainList).focus()
         self.files.notices(self._notices)
         self.run_worker(self._start_questions(), exclusive=False)
+        # scipy.signal (FIR designs, Bessel, the comparison, time views) is loaded once the
+        # first screen is up, so that its half second is not spent before it nor at the
+        # first use of one of those.
+        self.set_timer(_PRELOAD_AFTER_S, self._preload_scipy)
+
+    @work(thread=True, exclusive=True, group="preload", description="_preload_scipy")
+    def _preload_scipy(self) -> None:
+        from planner.lazyimport import scipy_module   # a thread of its own, start-up time
+
+        scipy_module("signal")
 
     async def _start_questions(self) -> None:
         # The safety notice comes first; the autosave's question after it is dismissed.

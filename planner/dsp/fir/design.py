@@ -15,7 +15,7 @@ import threading
 from collections import OrderedDict
 
 import numpy as np
-from scipy import signal
+from planner.lazyimport import scipy_module
 
 from planner.dsp.fir.checks import (check_method_taps, check_freq, check_fs, check_kind, check_positive, check_taps,
                                     check_upper_edge)
@@ -93,7 +93,7 @@ def equiripple_fir(spec: FirSpec, fs_hz: float, taps: int, maxiter: int = MAXITE
 def _remez(spec: FirSpec, fs_hz: float, n: int, grid_density: int, maxiter: int) -> np.ndarray:
     bands, desired, is_pass, _ = spec_bands(spec, fs_hz)
     edges = [f for b in bands for f in b]
-    return signal.remez(n, edges, desired, weight=weights(spec, is_pass), fs=float(fs_hz),
+    return scipy_module("signal").remez(n, edges, desired, weight=weights(spec, is_pass), fs=float(fs_hz),
                         maxiter=maxiter, grid_density=grid_density)
 
 
@@ -159,7 +159,7 @@ def _centred_spec(kind: str, f1: float, fs: float, tw: float, freq2_hz) -> FirSp
 def _firls(n, bands, desired, weight, fs):
     edges = [f for b in bands for f in b]
     des = [d for d in desired for _ in range(2)]
-    return signal.firls(n, edges, des, weight=weight, fs=fs)
+    return scipy_module("signal").firls(n, edges, des, weight=weight, fs=fs)
 
 
 def _least_squares_spec(spec: FirSpec, fs_hz: float, taps: int) -> np.ndarray:

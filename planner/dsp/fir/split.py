@@ -12,7 +12,7 @@ from __future__ import annotations
 from typing import Sequence
 
 import numpy as np
-from scipy import signal
+from planner.lazyimport import scipy_module
 
 from planner.dsp.fir.checks import check_freq, check_fs, check_positive, check_taps
 from planner.dsp.fir.design import MAXITER, least_squares_fir
@@ -106,5 +106,5 @@ def _optimal_lowpasses(design: str, xo: np.ndarray, fs: float, n: int, transitio
     if design == "least_squares":
         return [least_squares_fir("lowpass", f, fs, n, tw, stop_weight=stop_weight) for f in xo]
     sw = check_positive(stop_weight, "stop_weight", "(relative weight)")
-    return [signal.remez(n, [0, f - tw / 2, f + tw / 2, fs / 2], [1, 0],
+    return [scipy_module("signal").remez(n, [0, f - tw / 2, f + tw / 2, fs / 2], [1, 0],
                          weight=[1, sw], fs=fs, maxiter=MAXITER) for f in xo]

@@ -16,7 +16,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
+from planner.lazyimport import scipy_module
 
 from planner.dsp.fir.checks import check_fs, check_freq, check_kind, check_taps, check_upper_edge
 from planner.errors import DesignError
@@ -93,7 +93,8 @@ def _kaiser(k: np.ndarray, n: int, beta) -> np.ndarray:
     if not (b >= 0 and math.isfinite(b)):
         raise DesignError(f"must be a number >= 0, not {beta!r}", field="beta")
     r = 2.0 * k / (n - 1) - 1.0
-    return special.i0(b * np.sqrt(np.clip(1.0 - r * r, 0.0, None))) / special.i0(b)
+    i0 = scipy_module("special").i0
+    return i0(b * np.sqrt(np.clip(1.0 - r * r, 0.0, None))) / i0(b)
 
 
 #: :func:`window` under another name, for :func:`window_fir`, whose ``window``
