@@ -290,7 +290,8 @@ class SettingsScreen(_DismissOnce, ModalScreen[None]):
                 yield FieldRow("settings", name, label, self._text(name, unit))
             yield Static("", classes="refusal", id="settings-refusal", markup=False)
             yield Static("A new sample rate redesigns every filter (refused, naming them, "
-                         "while one would reach the new Nyquist frequency). Target arith "
+                         "while one would reach the new Nyquist frequency; 'to' comes down "
+                         "to Nyquist if needed). Target arith "
                          "(float32, q1.31, q2.30, ...; empty: none) re-checks the bands "
                          "rounded as the DSP computes. Headroom: 'warn' or 'fail' above "
                          f"{config.HEADROOM_LIMIT_DB:+g} dB. Align varies some of "
