@@ -36,7 +36,8 @@ from planner.present.text import SAFETY_NOTE
 from planner.tui import views
 from planner.tui.autosave import FileGuard
 from planner.tui.screens import (ChoiceScreen, CompareScreen, HelpScreen, PathScreen,
-                                 PickScreen, SafetyScreen, SettingsScreen, SolveScreen)
+                                 PickScreen, SafetyScreen, SettingsScreen, SolveScreen,
+                                 setting_unit)
 from planner.tui.widgets import (BandForm, BandList, ChainList, CheckBar, DriverForm, FieldRow,
                                  FilterForm, PlotView, Readout, TitleBar, WarningList,
                                  canvas_text)
@@ -730,13 +731,10 @@ class CrossplanApp(App):
                     value = [v for v in re.split(r"[,\s]+", text.strip().lower()) if v]
                     label = f"align varies {', '.join(value)}"
                 else:
-                    value = units.parse(text, {"max_delay_ms": "ms", "trim_db": "dB",
-                                               "limit_db": "dB"}.get(key, ""), name)
+                    value = units.parse(text, setting_unit(name), name)
                     label = f"solver {key}"
                 return edits.set_solve(p, **{key: value}), label
-            unit = {"f_min": "Hz", "f_max": "Hz", "flatness_db": "dB",
-                    "crossing_floor_db": "dB"}.get(name, "")
-            value = units.parse(text, unit, name)
+            value = units.parse(text, setting_unit(name), name)
             if name == "points" and value == int(value):
                 value = int(value)
             return edits.set_analysis(p, **{name: value}), f"analysis {name}"

@@ -20,7 +20,8 @@ from planner.present.text import compare_text
 from planner.model import Project
 from planner.tui.widgets import FieldRow, progress_text
 
-__all__ = ["SafetyScreen", "SAFETY_NOTICE", "HelpScreen", "ChoiceScreen", "PathScreen", "PickScreen", "SolveScreen", "SettingsScreen",
+__all__ = ["SafetyScreen", "SAFETY_NOTICE", "HelpScreen", "ChoiceScreen", "PathScreen",
+           "PickScreen", "SolveScreen", "SettingsScreen", "SETTINGS", "setting_unit",
            "CompareScreen"]
 
 
@@ -263,6 +264,11 @@ SETTINGS = (
 )
 
 
+def setting_unit(name: str) -> str:
+    """The unit a settings field is shown and typed in (:data:`SETTINGS`)."""
+    return next(u for n, _, u in SETTINGS if n == name)
+
+
 class SettingsScreen(_DismissOnce, ModalScreen[None]):
     """The project's name, analysis range, points, limits and the sample rate; each field
     applies on Enter.
@@ -325,8 +331,7 @@ class SettingsScreen(_DismissOnce, ModalScreen[None]):
         """The project changed: show its values and clear any refusal."""
         self._project = project
         for row in self.query(FieldRow):
-            unit = next(u for n, _, u in SETTINGS if n == row.field_name)
-            row.set_value(self._text(row.field_name, unit))
+            row.set_value(self._text(row.field_name, setting_unit(row.field_name)))
         self.refuse(None)
 
     @on(FieldRow.Restored)
