@@ -217,20 +217,14 @@ def render(x: np.ndarray, rx: RateExport, progress: Progress | None = None,
     x = np.asarray(x, dtype=np.float64)
     n = x.shape[0]
     plan = plan_delays([b.delay_samples for b in rx.bands], fractional_delay)
-    if not any(b.run_fir is not None or d.taps is not None for b, d in zip(rx.bands, plan.bands)):
+    if n and not any(b.run_fir is not None or d.taps is not None
+                     for b, d in zip(rx.bands, plan.bands)):
         # Sections only: every output is held anyway, so the signal is one block, each
         # band's result is its output as it is (no copy into a buffer) and sosfilt runs
         # over it in one call. (An FIR is convolved block by block, overlap-add: one FFT
         # of the whole signal would cost more.)
         whole = {}
-
-        def keep(k, start, y):
-            whole[k] = y
-
-        if not n:
-            whole = {k: x.copy() for k in range(-1, len(rx.bands))}
-        else:
-            _run_blocks([x], n, rx, plan, keep, progress, n)
+        _run_blocks([x], n, rx, plan, lambda k, start, y: whole.__setitem__(k, y), progress, n)
         return Rendered({b.name: whole[k] for k, b in enumerate(rx.bands)}, whole[-1], plan)
 
     outs = [np.zeros_like(x) for _ in rx.bands]
